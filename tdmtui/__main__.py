@@ -1,0 +1,5 @@
+"""`python -m tdmtui`."""
+
+from tdmtui.cli import main
+
+raise SystemExit(main())
