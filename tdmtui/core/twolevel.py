@@ -1,0 +1,192 @@
+"""Two-level estimates of ke and V, two ways (case-format.md "Model conventions").
+
+``two-level``: ke and V solved exactly so that the one-compartment model,
+summed over the whole dose history (pk-sources.md 2.2), passes through the two
+most recent usable levels. Since C(t) = f(t; ke) / V, the ratio C1/C2 fixes
+ke alone: we solve ln f(t1; ke) - ln f(t2; ke) = ln(C1/C2) by a bracketed root
+search over a log grid of ke, refuse when there is no root or more than one,
+then V = f(t1; ke) / C1.
+
+``sawchuk-zaske``: the textbook one-interval calculation (pk-sources.md 2.4):
+ke from the log-linear slope of two post-distribution levels after one dose,
+Cmax back-extrapolated to the end of infusion, V from the infusion equation
+with a measured pre-dose level (non-steady-state variant) or, without one,
+the steady-state assumption Cmin = Cmax e^(-ke (tau - t')). A pre-dose trough
+and a post-dose peak around one dose use the steady-state assumption for ke.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from tdmtui.core.case import Dose, Level
+from tdmtui.core.errors import NoEstimateError
+from tdmtui.core.models import DoseArrays, PKParams
+from tdmtui.core.models import onecomp
+from tdmtui.core.working import WorkingStep
+
+#: ke search range for the exact solve, 1/h (half-lives of 0.14 h to 700 h).
+KE_GRID = np.geomspace(1e-3, 5.0, 600)
+
+
+@dataclass
+class TwoLevelResult:
+    """A two-level style estimate."""
+
+    method: str
+    params: PKParams
+    levels_used: list[int]
+    working: list[WorkingStep] = field(default_factory=list)
+    assumption: str = ""
+
+
+def _fmt(x: float, d: int = 4) -> str:
+    return f"{x:.{d}g}"
+
+
+def two_level(doses: DoseArrays, levels: list[Level], clock_fmt=None) -> TwoLevelResult:  # noqa: ANN001
+    """Exact whole-history fit through the two most recent usable levels.
+
+    Args:
+        doses: every dose before the later level (real history).
+        levels: usable levels (see :func:`tdmtui.core.course.usable_levels`), by time.
+
+    Raises:
+        NoEstimateError: fewer than two usable levels, no root or several roots.
+    """
+    m = "two-level"
+    if len(levels) < 2:
+        raise NoEstimateError(m, f"needs two usable levels after the first dose; {len(levels)} available "
+                                 "(add a second post-distribution level, or use the Bayesian or population method)")
+    a, b = levels[-2], levels[-1]
+    if b.time - a.time < 0.25:
+        raise NoEstimateError(m, "the two most recent usable levels are less than 15 min apart; draw them further apart")
+    ta, tb = a.time, b.time
+    fa = np.array([onecomp.concentration(k, 1.0, doses, ta) for k in KE_GRID], dtype=float).reshape(-1)
+    fb = np.array([onecomp.concentration(k, 1.0, doses, tb) for k in KE_GRID], dtype=float).reshape(-1)
+    if np.any(fa <= 0) or np.any(fb <= 0):
+        raise NoEstimateError(m, "a level lies before any dose could reach it")
+    target = math.log(a.conc / b.conc)
+    g = np.log(fa) - np.log(fb) - target
+    roots = np.nonzero(np.sign(g[:-1]) * np.sign(g[1:]) < 0)[0]
+    if roots.size == 0:
+        raise NoEstimateError(m, f"no elimination rate makes the dose history pass through {a.conc:g} and {b.conc:g} mg/L "
+                                 "(check times and doses; levels may be inconsistent with the history)")
+    if roots.size > 1:
+        raise NoEstimateError(m, "several elimination rates fit these two levels equally well; "
+                                 "draw a level after the last dose, or use the Bayesian method")
+    from scipy.optimize import brentq
+
+    def gfun(k: float) -> float:
+        return float(math.log(onecomp.concentration(k, 1.0, doses, ta)) - math.log(onecomp.concentration(k, 1.0, doses, tb)) - target)
+
+    i = int(roots[0])
+    ke = float(brentq(gfun, KE_GRID[i], KE_GRID[i + 1], xtol=1e-14, rtol=1e-13))
+    f1 = float(onecomp.concentration(ke, 1.0, doses, ta))
+    v = f1 / a.conc
+    fmt = clock_fmt or (lambda h: f"{h:.2f} h")
+    steps = [
+        WorkingStep("Model", "C(t) = sum over doses of (D/T)/(ke V) (1 - e^(-ke min(u,T))) e^(-ke max(u-T,0)), u = t - start",
+                    f"{len(doses)} doses superposed; levels {a.conc:g} mg/L at {fmt(ta)} and {b.conc:g} mg/L at {fmt(tb)}", "", m),
+        WorkingStep("Elimination rate", "solve C(t1)/C(t2) = C1/C2 for ke (the ratio does not depend on V)",
+                    f"C1/C2 = {a.conc:g}/{b.conc:g} = {a.conc / b.conc:.4f}", f"ke = {_fmt(ke)} /h", m),
+        WorkingStep("Half-life", "t1/2 = ln 2 / ke", f"0.6931 / {_fmt(ke)}", f"{_fmt(math.log(2) / ke, 3)} h", m),
+        WorkingStep("Volume", "V = C(t1) computed with V = 1 L, divided by C1", f"{_fmt(f1)} / {a.conc:g}", f"V = {_fmt(v)} L", m),
+        WorkingStep("Clearance", "CL = ke x V", f"{_fmt(ke)} x {_fmt(v)}", f"{_fmt(ke * v)} L/h", m),
+    ]
+    return TwoLevelResult(m, PKParams.one_compartment(ke, v), [a.index, b.index], steps, "whole dose history superposed")
+
+
+def _dose_before(doses: list[Dose], t: float) -> Dose | None:
+    before = [d for d in doses if d.start < t]
+    return before[-1] if before else None
+
+
+def sawchuk_zaske(doses: list[Dose], levels: list[Level], tau: float | None) -> TwoLevelResult:
+    """Textbook one-interval Sawchuk-Zaske calculation (pk-sources.md 2.4).
+
+    Uses the two most recent usable levels. Both after the same dose: ke from
+    their slope; with a usable level in the interval before that dose it is the
+    measured pre-dose level (non-steady-state variant), otherwise the
+    steady-state assumption with ``tau``. A trough before a dose and a peak
+    after it: steady-state assumption (the trough recurs at the same time
+    before the next dose).
+
+    Raises:
+        NoEstimateError: too few levels, no interval where one is needed, or
+            levels not around a single dose.
+    """
+    m = "sawchuk-zaske"
+    if len(levels) < 2:
+        raise NoEstimateError(m, f"needs two usable levels around one dose; {len(levels)} available")
+    a, b = levels[-2], levels[-1]
+    da, db = _dose_before(doses, a.time), _dose_before(doses, b.time)
+    if db is None:
+        raise NoEstimateError(m, "the later level precedes every dose")
+    steps: list[WorkingStep] = []
+    dose = db
+    k0 = dose.amount / dose.duration if dose.duration > 0 else math.inf
+    if da is db:
+        ke = math.log(a.conc / b.conc) / (b.time - a.time)
+        if ke <= 0:
+            raise NoEstimateError(m, "the later level is not lower than the earlier one after the same dose")
+        steps.append(WorkingStep("Elimination rate", "ke = ln(C1/C2) / (t2 - t1)",
+                                 f"ln({a.conc:g}/{b.conc:g}) / {b.time - a.time:.3g} h", f"{ke:.4g} /h", m))
+        cmax = a.conc * math.exp(ke * (a.time - dose.end))
+        steps.append(WorkingStep("Peak at end of infusion", "Cmax = C1 e^(ke (t1 - t'))",
+                                 f"{a.conc:g} x e^({ke:.4g} x {a.time - dose.end:.3g})", f"{cmax:.4g} mg/L", m))
+        prev = [lv for lv in levels[:-2] if lv.time < dose.start and (_dose_before(doses, lv.time) is None or
+                                                                     _dose_before(doses, lv.time).end <= lv.time)]
+        prev = [lv for lv in prev if _dose_before(doses, dose.start - 1e-9) is None or lv.time > _dose_before(doses, dose.start - 1e-9).start]
+        if prev:
+            p = prev[-1]
+            cpre = p.conc * math.exp(-ke * (dose.start - p.time))
+            assumption = f"measured pre-dose level {p.conc:g} mg/L (levels[{p.index}])"
+            steps.append(WorkingStep("Pre-dose level", "Cpre = Cmeasured e^(-ke (start - t_drawn))",
+                                     f"{p.conc:g} x e^(-{ke:.4g} x {dose.start - p.time:.3g})", f"{cpre:.4g} mg/L", m))
+            used = [p.index, a.index, b.index]
+        else:
+            if tau is None:
+                raise NoEstimateError(m, "no pre-dose level and no current interval for the steady-state assumption")
+            cpre = cmax * math.exp(-ke * (tau - dose.duration))
+            assumption = f"steady state on a {tau:g} h interval"
+            steps.append(WorkingStep("Trough (steady state)", "Cmin = Cmax e^(-ke (tau - t'))",
+                                     f"{cmax:.4g} x e^(-{ke:.4g} x {tau - dose.duration:.3g})", f"{cpre:.4g} mg/L", m))
+            used = [a.index, b.index]
+    else:
+        # trough a before dose db, peak b after it; steady-state assumption
+        if tau is None:
+            raise NoEstimateError(m, "a trough before the dose and a peak after it need the current interval (steady state)")
+        if not (da is None or da.end <= a.time) or a.time > db.start:
+            raise NoEstimateError(m, "the two levels are not a trough before one dose and a peak after it")
+        delta = db.start - a.time
+        t_equiv = db.start + tau - delta
+        ke = math.log(b.conc / a.conc) / (t_equiv - b.time)
+        if ke <= 0:
+            raise NoEstimateError(m, "the peak is not above the trough")
+        steps.append(WorkingStep("Elimination rate (steady state)", "ke = ln(Cpeak/Ctrough) / ((tau - dt_trough) - t_peak)",
+                                 f"ln({b.conc:g}/{a.conc:g}) / ({tau:g} - {delta:.3g} - {b.time - db.start:.3g})", f"{ke:.4g} /h", m))
+        cmax = b.conc * math.exp(ke * (b.time - dose.end))
+        steps.append(WorkingStep("Peak at end of infusion", "Cmax = Cpeak e^(ke (t_peak - t'))",
+                                 f"{b.conc:g} x e^({ke:.4g} x {b.time - dose.end:.3g})", f"{cmax:.4g} mg/L", m))
+        cpre = a.conc * math.exp(-ke * delta)
+        assumption = f"steady state on a {tau:g} h interval (trough before the dose)"
+        steps.append(WorkingStep("Trough at dose start", "Cmin = Ctrough e^(-ke dt)", f"{a.conc:g} x e^(-{ke:.4g} x {delta:.3g})",
+                                 f"{cpre:.4g} mg/L", m))
+        used = [a.index, b.index]
+    tp = dose.duration
+    if tp > 0:
+        v = k0 * (1 - math.exp(-ke * tp)) / (ke * (cmax - cpre * math.exp(-ke * tp)))
+        eq = "V = k0 (1 - e^(-ke t')) / (ke [Cmax - Cmin e^(-ke t')])"
+        sub = f"{k0:.4g} x (1 - e^(-{ke:.4g} x {tp:g})) / ({ke:.4g} x [{cmax:.4g} - {cpre:.4g} x e^(-{ke:.4g} x {tp:g})])"
+    else:
+        v = dose.amount / (cmax - cpre)
+        eq, sub = "V = D / (Cmax - Cmin)", f"{dose.amount:g} / ({cmax:.4g} - {cpre:.4g})"
+    if not (v > 0 and math.isfinite(v)):
+        raise NoEstimateError(m, "the levels give no positive volume (the peak is not above the pre-dose level)")
+    steps.append(WorkingStep("Volume", eq, sub, f"{v:.4g} L", m))
+    steps.append(WorkingStep("Clearance", "CL = ke x V", f"{ke:.4g} x {v:.4g}", f"{ke * v:.4g} L/h", m))
+    return TwoLevelResult(m, PKParams.one_compartment(ke, v), used, steps, assumption)
