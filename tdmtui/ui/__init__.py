@@ -1,0 +1,1 @@
+"""The terminal app (Textual). Imports the core; the core never imports this."""

@@ -1,0 +1,1 @@
+"""The workspace's sections: patient, doses, levels, estimate, plan, note."""
