@@ -1,0 +1,131 @@
+"""Command line: ``tdmtui [CASE]`` opens the app; ``tdmtui compute`` and ``tdmtui note`` print.
+
+Exit status (case-format.md): 0 computed (a ``status: stop`` result too);
+2 input error, one line on stderr naming the field; 3 valid input but no
+estimate by the requested method (stderr says why). Never a traceback: any
+other failure prints one line and exits 1.
+
+The app and the computation core are imported lazily so each command loads
+only what it needs.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+from pathlib import Path
+from typing import Any
+
+SUBCOMMANDS = ("compute", "note")
+
+
+def _protocol(path: str | None) -> Any:
+    from tdmtui.core.library import default_protocol_path, load_protocol
+
+    if path:
+        return load_protocol(path)
+    default = default_protocol_path()
+    return load_protocol(default) if default.is_file() else None
+
+
+def _compute(args: argparse.Namespace) -> Any:
+    from tdmtui.core.case import load_case
+    from tdmtui.core.compute import compute
+
+    case = load_case(args.case)
+    return compute(case, _protocol(args.protocol), args.method)
+
+
+def cmd_compute(args: argparse.Namespace) -> int:
+    outcome = _compute(args)
+    text = json.dumps(outcome.result, indent=2, ensure_ascii=False, allow_nan=False) + "\n"
+    if args.record:
+        from tdmtui.core.case import write_atomic
+
+        record = Path(args.case).with_suffix(".result.json")
+        write_atomic(record, text.encode("utf-8"))
+        print(f"audit record written to {record}", file=sys.stderr)
+    if args.json:
+        sys.stdout.write(text)
+    else:
+        from tdmtui.core.report import summary_text
+
+        sys.stdout.write(summary_text(outcome.result))
+    return 0
+
+
+def cmd_note(args: argparse.Namespace) -> int:
+    from tdmtui.core.note import render_note
+
+    outcome = _compute(args)
+    text = render_note(outcome)
+    if args.out:
+        from tdmtui.core.case import write_atomic
+
+        write_atomic(args.out, text.encode("utf-8"))
+        print(f"note written to {args.out}", file=sys.stderr)
+    else:
+        sys.stdout.write(text)
+    return 0
+
+
+def _sub_parser(name: str) -> argparse.ArgumentParser:
+    ap = argparse.ArgumentParser(prog=f"tdmtui {name}")
+    ap.add_argument("case", help="case file (JSON, tdmtui.case/1)")
+    ap.add_argument("--protocol", metavar="FILE", help="local protocol TOML (default: ~/.config/tdmtui/protocol.toml if present)")
+    ap.add_argument("--method", choices=("auto", "two-level", "sawchuk-zaske", "least-squares", "bayesian", "population", "nomogram"),
+                    help="override the case's method")
+    if name == "compute":
+        ap.add_argument("--json", action="store_true", help="print the result object as JSON")
+        ap.add_argument("--record", action="store_true", help="also save the JSON result beside the case (CASE.result.json, mode 0600)")
+    else:
+        ap.add_argument("--out", metavar="FILE", help="write the note to FILE (mode 0600) instead of stdout")
+    return ap
+
+
+def _app_parser() -> argparse.ArgumentParser:
+    from tdmtui import __version__
+
+    ap = argparse.ArgumentParser(
+        prog="tdmtui",
+        description="Therapeutic drug monitoring for vancomycin and aminoglycosides. "
+                    "Commands: 'tdmtui [CASE]' opens the app; 'tdmtui compute CASE [--json]'; 'tdmtui note CASE [--out FILE]'.")
+    ap.add_argument("case", nargs="?", help="case file to open (omit for a new case)")
+    ap.add_argument("--protocol", metavar="FILE", help="local protocol TOML")
+    ap.add_argument("--mouse", action="store_true", help="enable mouse support (off by default for SSH)")
+    ap.add_argument("--version", action="version", version=f"tdmtui {__version__}")
+    return ap
+
+
+def main(argv: list[str] | None = None) -> int:
+    """Entry point of the ``tdmtui`` command."""
+    argv = list(sys.argv[1:] if argv is None else argv)
+    from tdmtui.core.errors import InputError, NoEstimateError
+
+    try:
+        if argv and argv[0] in SUBCOMMANDS:
+            args = _sub_parser(argv[0]).parse_args(argv[1:])
+            return cmd_compute(args) if argv[0] == "compute" else cmd_note(args)
+        args = _app_parser().parse_args(argv)
+        from tdmtui.ui.app import run_app
+
+        return run_app(args.case, args.protocol, mouse=args.mouse)
+    except InputError as exc:
+        print(f"{exc.field}: {exc.message}" if exc.field else exc.message, file=sys.stderr)
+        return 2
+    except NoEstimateError as exc:
+        print(f"no estimate by {exc.method}: {exc.why}", file=sys.stderr)
+        return 3
+    except KeyboardInterrupt:
+        return 130
+    except SystemExit as exc:  # argparse usage errors
+        return int(exc.code or 0) if isinstance(exc.code, int) else 2
+    except Exception as exc:  # noqa: BLE001 - never a traceback for the user
+        print(f"internal error ({type(exc).__name__}: {exc}); please report it with the case file (see SAFETY.md)",
+              file=sys.stderr)
+        return 1
+
+
+if __name__ == "__main__":
+    raise SystemExit(main())

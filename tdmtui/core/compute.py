@@ -1,0 +1,172 @@
+"""The orchestrator: a case in, the contract's result out.
+
+Order of work (each step's rules are in its own module):
+
+1. library rules with the local protocol laid on top (:mod:`library`);
+2. body size and renal function (:mod:`patient`), plausibility (:mod:`checks`);
+3. course checks, usable levels and the current regimen (:mod:`course`);
+4. every applicable method side by side (:mod:`twolevel`, :mod:`methods`);
+5. the method used: the one asked for, or by ``auto`` (:func:`choose`);
+6. the regimen (:mod:`regimen`) unless a stop stands.
+
+``auto`` (case-format.md): two-level when two usable levels give a unique
+solution; else a Bayesian estimate on a model verified against its paper
+(none is, yet: such models carry a caution and are shown under ``methods``
+only); else the population estimate.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+
+from tdmtui import __version__
+from tdmtui.core import checks, course, methods
+from tdmtui.core.alerts import Alert, has_stop
+from tdmtui.core.case import Case, parse_case
+from tdmtui.core.errors import NoEstimateError
+from tdmtui.core.estimates import Estimate
+from tdmtui.core.library import LIBRARY_VERSION, Protocol, Rules
+from tdmtui.core.models import DoseArrays, PKParams
+from tdmtui.core.patient import RenalSummary, renal_summary
+from tdmtui.core.working import WorkingStep
+
+RESULT_FORMAT = "tdmtui.result/1"
+
+
+@dataclass
+class Outcome:
+    """Everything one computation produced (see the module docstring)."""
+
+    case: Case
+    result: dict[str, Any]
+    params: PKParams | None
+    history: DoseArrays
+    plan: DoseArrays | None = None
+    band: tuple[np.ndarray, np.ndarray, np.ndarray] | None = None
+    working: list[WorkingStep] = field(default_factory=list)
+    alerts: list[Alert] = field(default_factory=list)
+    renal: RenalSummary | None = None
+    estimates: dict[str, Estimate] = field(default_factory=dict)
+    rules: Rules | None = None
+    regimen_plan: Any = None
+
+
+def history_of(case: Case) -> DoseArrays:
+    """The real doses up to ``as_of`` as arrays."""
+    ds = [d for d in case.doses if d.start <= case.as_of]
+    return DoseArrays.from_lists([d.start for d in ds], [d.duration for d in ds], [d.amount for d in ds])
+
+
+def choose(requested: str, estimates: dict[str, Estimate], failures: dict[str, str]) -> str:
+    """The method used. Raises NoEstimateError when a requested method gave none."""
+    if requested != "auto":
+        if requested in estimates:
+            return requested
+        raise NoEstimateError(requested, failures.get(requested, "this method does not apply to this case"))
+    for name in ("two-level", "bayesian", "population"):
+        if name in estimates and (name != "bayesian" or estimates[name].extra.get("auto_eligible")):
+            return name
+    raise NoEstimateError("auto", "; ".join(f"{k}: {v}" for k, v in failures.items()) or "no method applies")
+
+
+def compute(case: Case, protocol: Protocol | None = None, method: str | None = None) -> Outcome:
+    """Compute a case. Raises InputError (exit 2) or NoEstimateError (exit 3)."""
+    rules = Rules(case.drug, protocol)
+    checks.plausibility(case, rules)
+    p = case.patient
+    renal = renal_summary(p.age, p.sex, p.weight, p.height, [(s.time, s.value, s.index) for s in p.scr], rules,
+                          clock=case.clock)
+    mic = case.target.mic if case.target.mic is not None else float(rules.value("mic.default_mg_l"))
+    alerts: list[Alert] = list(renal.alerts)
+    alerts += checks.patient_alerts(case, rules, renal.bmi, renal.ibw, mic)
+    alerts += course.validate_course(case, rules, renal.dosing_weight_kg)
+    cur, cur_alerts = course.current_regimen(case, rules)
+    alerts += cur_alerts
+    history = history_of(case)
+    usable = course.usable_levels(case, rules)
+    ctx = methods.MethodContext(case, rules, renal, history, usable, cur)
+    estimates, failures = methods.run_all(ctx)
+    requested = method or case.method
+    # the nomogram reads a level against a chart: the estimate beside it comes from `auto`
+    try:
+        used = choose("auto" if requested == "nomogram" else requested, estimates, failures)
+    except NoEstimateError:
+        if requested in ("auto", "nomogram") and has_stop(alerts):
+            return _stopped(case, protocol, rules, renal, cur, alerts, failures, ctx)
+        raise
+    alerts += methods.compare(ctx, estimates, used)
+    est = estimates[used]
+    weight = p.weight
+    result = _header(case, protocol, renal, rules, cur)
+    result.update({
+        "method": "nomogram" if requested == "nomogram" else used,
+        "estimate": est.to_dict(cur, weight),
+        "methods": {k: v.to_dict(cur, weight) for k, v in estimates.items() if k != used},
+        "methods_unavailable": failures,
+        "levels": methods.level_table(ctx),
+    })
+    outcome = Outcome(case, result, est.params, history, working=list(est.working), renal=renal,
+                      estimates=estimates, rules=rules)
+    if has_stop(alerts):
+        result["status"] = "stop"
+    else:
+        plan_alerts = methods.attach_regimen(ctx, outcome, est)
+        alerts += plan_alerts
+        if has_stop(plan_alerts):
+            result["status"] = "stop"
+            result.pop("regimen", None)
+    if "regimen" not in result and result["status"] == "stop":
+        outcome.plan = None
+    outcome.band = methods.concentration_band(ctx, est, outcome.plan)
+    result["warnings"] = [a.to_dict() for a in alerts]
+    result["working"] = [w.to_dict() for w in est.working]
+    outcome.alerts = alerts
+    return outcome
+
+
+def _header(case: Case, protocol: Protocol | None, renal: RenalSummary, rules: Rules, cur: Any) -> dict[str, Any]:
+    return {
+        "format": RESULT_FORMAT,
+        "version": __version__,
+        "library_version": LIBRARY_VERSION,
+        "input_sha256": case.sha256,
+        "input_saved": case.saved,
+        "protocol_sha256": protocol.sha256 if protocol else None,
+        "protocol_name": protocol.name if protocol else None,
+        "as_of": case.clock.format(case.as_of),
+        "status": "ok",
+        "drug": case.drug,
+        "patient": {
+            "crcl_ml_min": renal.crcl_ml_min, "crcl_rule": renal.crcl_rule, "ibw_kg": renal.ibw,
+            "ibw_variant": renal.ibw_variant, "adjbw_kg": renal.adjbw, "bmi_kg_m2": renal.bmi, "bsa_m2": renal.bsa,
+            "egfr_ckd_epi_ml_min_173": renal.egfr_ckd_epi, "egfr_ckd_epi_ml_min": renal.egfr_ckd_epi_ml_min,
+            "dosing_weight_kg": renal.dosing_weight_kg, "dosing_weight_rule": renal.dosing_weight_rule,
+            "scr_used_mg_dl": renal.scr_used_mg_dl,
+        },
+        "current_regimen": None if cur is None else {"dose_mg": cur.dose_mg, "interval_h": cur.interval_h,
+                                                     "infusion_h": cur.infusion_h, "source": cur.source},
+        "sources": {"target": "library", "rounding": rules.source("regimen.rounding_mg"),
+                    "post_distribution_window": rules.source("windows.post_distribution_h"),
+                    "crcl_weight_rule": rules.source("renal.crcl_weight_rule"),
+                    "scr_floor": rules.source("renal.scr_floor_mg_dl"),
+                    "dosing_weight_rule": rules.source("dosing_weight.rule")},
+    }
+
+
+def _stopped(case: Case, protocol: Protocol | None, rules: Rules, renal: RenalSummary, cur: Any,
+             alerts: list[Alert], failures: dict[str, str], ctx: Any) -> Outcome:
+    """A stop stands and no method gives an estimate: the result carries the stop, no estimate."""
+    result = _header(case, protocol, renal, rules, cur)
+    result.update({"status": "stop", "method": None, "estimate": None, "methods": {},
+                   "methods_unavailable": failures, "levels": methods.level_table(ctx),
+                   "warnings": [a.to_dict() for a in alerts], "working": []})
+    return Outcome(case, result, None, ctx.history, alerts=alerts, renal=renal, rules=rules)
+
+
+def compute_raw(raw: Any, data: bytes | None = None, protocol: Protocol | None = None,
+                method: str | None = None) -> Outcome:
+    """Parse a raw case object, then :func:`compute` it."""
+    return compute(parse_case(raw, data), protocol, method)

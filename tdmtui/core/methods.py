@@ -1,0 +1,132 @@
+"""Every estimation method run side by side, compared, and the regimen attached.
+
+The orchestrator (:mod:`compute`) calls :func:`run_all`, then :func:`compare`
+for disagreement warnings, then :func:`attach_regimen`.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+
+from tdmtui.core import twolevel
+from tdmtui.core.alerts import Alert
+from tdmtui.core.case import Case, Level
+from tdmtui.core.course import CurrentRegimen, level_exclusion
+from tdmtui.core.errors import ConvergenceError, NoEstimateError
+from tdmtui.core.estimates import Estimate, textbook_population
+from tdmtui.core.library import Rules
+from tdmtui.core.models import DoseArrays, concentration
+from tdmtui.core.patient import RenalSummary
+
+if TYPE_CHECKING:
+    from tdmtui.core.compute import Outcome
+
+
+@dataclass
+class MethodContext:
+    """What every method needs."""
+
+    case: Case
+    rules: Rules
+    renal: RenalSummary
+    history: DoseArrays
+    usable: list[Level]
+    current: CurrentRegimen | None
+
+
+def _from_twolevel(r: twolevel.TwoLevelResult) -> Estimate:
+    return Estimate(r.method, r.params, r.levels_used, r.working, r.assumption)
+
+
+def run_all(ctx: MethodContext) -> tuple[dict[str, Estimate], dict[str, str]]:
+    """Run every method that applies; return estimates and, per failed method, why."""
+    est: dict[str, Estimate] = {}
+    why: dict[str, str] = {}
+    rrt = ctx.case.patient.renal_replacement != "none"
+    doses_before = [d for d in ctx.case.doses if d.start <= ctx.case.as_of]
+    attempts: list[tuple[str, Any]] = [
+        ("two-level", lambda: _from_twolevel(twolevel.two_level(ctx.history, ctx.usable, ctx.case.clock.format))),
+        ("sawchuk-zaske", lambda: _from_twolevel(twolevel.sawchuk_zaske(
+            doses_before, ctx.usable, ctx.current.interval_h if ctx.current else None))),
+        ("population", lambda: textbook_population(ctx.rules, ctx.renal.crcl_ml_min, ctx.case.patient.weight,
+                                                   ctx.renal.dosing_weight_kg)),
+    ]
+    for name, fn in attempts:
+        if rrt and name != "bayesian":
+            why[name] = "not valid with renal replacement therapy (Cockcroft-Gault and two-level methods do not apply)"
+            continue
+        try:
+            est[name] = fn()
+        except (NoEstimateError, ConvergenceError) as exc:
+            why[name] = getattr(exc, "why", str(exc))
+    return est, why
+
+
+def compare(ctx: MethodContext, est: dict[str, Estimate], used: str) -> list[Alert]:
+    """Warn where methods disagree by more than the library's threshold (on AUC24, else ke)."""
+    out: list[Alert] = []
+    limit = float(ctx.rules.value("methods.disagreement_rel"))
+    a, b = est.get("two-level"), est.get("sawchuk-zaske")
+    if a and b:
+        ca, cb = a.current(ctx.current), b.current(ctx.current)
+        if ca and cb:
+            x, y, what = ca["auc24_mg_h_per_l"], cb["auc24_mg_h_per_l"], "AUC24"
+        else:
+            x, y, what = a.params.ke, b.params.ke, "ke"
+        if abs(x - y) / max(abs(x), abs(y)) > limit:
+            out.append(Alert("methods-disagree", "caution", "levels",
+                             f"two-level and Sawchuk-Zaske differ on {what} by {abs(x - y) / max(abs(x), abs(y)):.0%} "
+                             f"(over {limit:.0%}): trust Sawchuk-Zaske less when the regimen was not at steady state "
+                             f"({b.assumption}); the two-level fit uses the whole dose history"))
+    return out
+
+
+def level_table(ctx: MethodContext) -> list[dict[str, Any]]:
+    """Each level with whether it is usable and why not, for the note and the app."""
+    rows = []
+    for lv in ctx.case.levels:
+        why = level_exclusion(ctx.case, lv, ctx.rules)
+        rows.append({"field": f"levels[{lv.index}]", "time": ctx.case.clock.format(lv.time), "conc_mg_per_l": lv.conc,
+                     "below_loq": lv.below_loq, "above_uloq": lv.above_uloq,
+                     "usable": why is None and lv.time <= ctx.case.as_of,
+                     "excluded_because": None if why is None else why[1], "timing": lv.timing})
+    return rows
+
+
+def attach_regimen(ctx: MethodContext, outcome: Outcome, est: Estimate) -> list[Alert]:
+    """Design the regimen with the chosen estimate; put it in the result. Returns its alerts."""
+    try:
+        from tdmtui.core.regimen import RegimenInput, design
+    except ImportError:  # regimen package not present in this build
+        return []
+    p = ctx.case.patient
+    plan = design(RegimenInput(
+        drug=ctx.case.drug, rules=ctx.rules, case_target=ctx.case.target, params=est.params, history=ctx.history,
+        as_of=ctx.case.as_of, clock=ctx.case.clock, current=ctx.current,
+        dosing_weight_kg=ctx.renal.dosing_weight_kg, tbw_kg=p.weight, bmi=ctx.renal.bmi,
+        crcl_ml_min=ctx.renal.crcl_ml_min, renal_replacement=p.renal_replacement, conditions=p.conditions,
+        samples=est.samples, method=est.method, levels=ctx.case.levels, doses=ctx.case.doses))
+    outcome.result["regimen"] = plan.regimen
+    outcome.result["target"] = plan.targets
+    outcome.result["sources"].update(plan.sources)
+    outcome.plan = plan.doses
+    outcome.regimen_plan = plan
+    return list(plan.alerts)
+
+
+def concentration_band(ctx: MethodContext, est: Estimate, plan: DoseArrays | None):  # noqa: ANN201
+    """90 % concentration band over the history and plan from posterior draws, or None."""
+    if not est.samples:
+        return None
+    doses = ctx.history if plan is None else ctx.history.concat(plan)
+    if len(doses) == 0:
+        return None
+    t0 = float(doses.start[0])
+    t1 = max(ctx.case.as_of, float(doses.start[-1] + doses.duration[-1])) + 24.0
+    t = np.linspace(t0, t1, 240)
+    curves = np.array([concentration(s, doses, t) for s in est.samples[:400]])
+    lo, hi = np.percentile(curves, [5, 95], axis=0)
+    return t, lo, hi
