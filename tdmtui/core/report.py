@@ -5,7 +5,7 @@ from __future__ import annotations
 import textwrap
 from typing import Any
 
-from tdmtui.core.safety_text import caution_line
+from tdmtui.core.safety import NOTE_LINE
 
 WIDTH = 80
 
@@ -80,5 +80,5 @@ def summary_text(result: dict[str, Any]) -> str:
         for w in result["warnings"]:
             lines += _wrap(f"{w['severity'].upper()} [{w['code']}] {w['field']}: {w['message']}", "  ")
     lines.append("")
-    lines += _wrap(caution_line())
+    lines += _wrap(NOTE_LINE)
     return "\n".join(lines) + "\n"
