@@ -80,6 +80,10 @@ class BrailleCanvas:
               mask: np.ndarray | None = None) -> None:
         """Draw a curve sampled at :meth:`dot_xs`, joining neighbours vertically.
 
+        The pattern thins only the flat stretches: steep rises and falls (more
+        than two dots in one column) are always drawn, so a dashed curve keeps
+        its shape.
+
         Args:
             layer: layer name (its style and draw order).
             ys: one data y per dot column (NaN = gap).
@@ -98,7 +102,7 @@ class BrailleCanvas:
             r = min(max(int(rows[c]), 0), self.height - 1)
             lo, hi = (r, r) if prev is None else (min(r, prev), max(r, prev))
             prev = r
-            if pattern(c):
+            if pattern(c) or hi - lo > 2:
                 lo, hi = max(lo, 0), min(hi, self.height - 1)
                 if lo <= hi:
                     grid[lo:hi + 1, c] = True

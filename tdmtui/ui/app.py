@@ -1,0 +1,430 @@
+"""The workspace: one case, six sections, each one key away.
+
+Keys (all have ids, so a site can remap them): F1/? help; F2-F7 or 1-6
+(outside text fields) patient, doses, levels, estimate, plan, note; F8 all
+warnings; ctrl+s save; ctrl+q quit (asks when unsaved). Every edit updates
+the raw case, autosaves a recovery file and recomputes in a thread worker;
+only message handlers touch widgets. scipy stays off the path to the first
+paint: the engine is imported inside the worker.
+"""
+
+from __future__ import annotations
+
+import sys
+import time
+from pathlib import Path
+from typing import Any
+
+from rich.text import Text
+from textual import on, work
+from textual.app import App, ComposeResult
+from textual.binding import Binding
+from textual.widgets import ContentSwitcher, Footer, Static
+
+from tdmtui.ui import formatting as fm
+from tdmtui.ui.dialogs import AskDialog, HelpScreen, TextDialog
+from tdmtui.ui.document import CaseDocument, ChangedOnDisk, new_case_raw
+from tdmtui.ui.messages import CaseEdited, EstimateFailed, EstimateReady
+from tdmtui.ui.recovery import find_recovery, recovery_path, remove_recovery, state_dir, write_recovery
+from tdmtui.ui.sections.doses import DosesSection
+from tdmtui.ui.sections.estimate import EstimateSection
+from tdmtui.ui.sections.levels import LevelsSection
+from tdmtui.ui.sections.note import NoteSection
+from tdmtui.ui.sections.patient import PatientSection, derived_text
+from tdmtui.ui.sections.plan import PlanSection
+
+SECTIONS = (("patient", "Patient"), ("doses", "Doses"), ("levels", "Levels"),
+            ("estimate", "Estimate"), ("plan", "Plan"), ("note", "Note"))
+DEBOUNCE_S = 0.25
+SPINNER_AFTER_S = 0.1
+
+
+def _section_bindings() -> list[Binding]:
+    out = []
+    for i, (name, title) in enumerate(SECTIONS):
+        out.append(Binding(f"f{i + 2}", f"section('{name}')", title, key_display=f"F{i + 2}", id=f"go.{name}",
+                           show=False))
+        out.append(Binding(str(i + 1), f"section('{name}')", title, show=False, id=f"go.{name}.digit"))
+    return out
+
+
+class TdmApp(App[int]):
+    """The tdmtui workspace for one case."""
+
+    CSS_PATH = "app.tcss"
+    TITLE = "tdmtui"
+    ENABLE_COMMAND_PALETTE = False
+    BINDINGS = [
+        Binding("f1", "help", "Help", id="app.help"),
+        Binding("question_mark", "help", "Help", show=False, id="app.help.q"),
+        *_section_bindings(),
+        Binding("f8", "warnings", "Warnings", id="app.warnings"),
+        Binding("ctrl+s", "save", "Save", id="app.save"),
+        Binding("ctrl+q", "quit_app", "Quit", priority=True, id="app.quit"),
+    ]
+
+    def __init__(self, path: str | None = None, protocol_path: str | None = None, *,
+                 state: Path | None = None) -> None:
+        super().__init__()
+        self.case_path = path
+        self.protocol_path = protocol_path
+        self.state = state or state_dir()
+        self.doc = CaseDocument(new_case_raw())
+        self.open_error = ""
+        if path:
+            try:
+                self.doc = CaseDocument.open(path) if Path(path).exists() else CaseDocument(new_case_raw(), path)
+            except (OSError, ValueError) as exc:
+                self.open_error = f"Could not open {path}: {exc}. Started a new case instead."
+                self.case_path = None
+        self.outcome: Any = None
+        self.chosen: dict[str, Any] | None = None
+        self.note = ""
+        self.generation = 0
+        self.computing = False
+        self.alerts: list[dict[str, str]] = []
+        self.crcl: float | None = None
+        self._debounce: Any = None
+        self._spinner: Any = None
+
+    # ---------------------------------------------------------------- layout
+    def compose(self) -> ComposeResult:
+        yield Static("", id="header", markup=False)
+        yield Static("", id="tabs")
+        with ContentSwitcher(initial="patient", id="sections"):
+            yield PatientSection(self.doc, id="patient")
+            yield DosesSection(self.doc, id="doses")
+            yield LevelsSection(self.doc, id="levels")
+            yield EstimateSection(id="estimate")
+            yield PlanSection(id="plan")
+            yield NoteSection(id="note")
+        yield Static("", id="warnings", markup=False)
+        yield Static("", id="status", markup=False)
+        yield Footer(compact=True)
+
+    def on_mount(self) -> None:
+        self.update_header()
+        self.update_tabs()
+        self.show_warnings([])
+        if self.open_error:
+            self.notify(self.open_error, severity="error", markup=False, timeout=8)
+        self.offer_recovery()
+        self.request_compute(now=True)
+        self.call_after_refresh(self.focus_section)
+
+    # ---------------------------------------------------------------- header, tabs, warnings
+    def update_header(self) -> None:
+        raw = self.doc.raw
+        p = raw.get("patient", {}) if isinstance(raw.get("patient"), dict) else {}
+        _, _, self.crcl = derived_text(raw)
+        crcl = fm.qty(self.crcl, "crcl_ml_min") if self.crcl is not None else "?"
+        sex = {"male": "M", "female": "F"}.get(p.get("sex", ""), "?")
+        who = f"{p.get('age') or '? yr'} {sex} {p.get('weight') or '? kg'} CrCl {crcl}"
+        name = Path(self.doc.path).name if self.doc.path else "new case"
+        state = "UNSAVED" if self.doc.dirty or not self.doc.path else "saved"
+        text = f" {raw.get('drug', '?')} | {who} | {name} [{state}]"
+        header = self.query_one("#header", Static)
+        header.update(text)
+        header.set_class(state == "UNSAVED", "-unsaved")
+
+    def current_section(self) -> str:
+        return self.query_one("#sections", ContentSwitcher).current or "patient"
+
+    def update_tabs(self) -> None:
+        current = self.current_section()
+        text = Text()
+        for i, (name, title) in enumerate(SECTIONS):
+            label = f"{i + 1} {title}"
+            if name == current:
+                text.append(f"[{label}]", "bold reverse")
+            else:
+                text.append(f" {label} ")
+        text.append("  (or F2-F7)  F1 help")
+        self.query_one("#tabs", Static).update(text)
+
+    def show_warnings(self, alerts: list[dict[str, str]]) -> None:
+        self.alerts = fm.sort_alerts(alerts)
+        strip = self.query_one("#warnings", Static)
+        if not self.alerts:
+            strip.update("No warnings." if self.outcome is not None else "Warnings appear here once the case computes.")
+            strip.set_class(False, "-stop")
+            return
+        lines = [fm.alert_line(a) for a in self.alerts[:2]]
+        if len(self.alerts) > 2:
+            lines.append(f"... and {len(self.alerts) - 2} more: F8 lists every warning")
+        strip.update("\n".join(line if len(line) <= 80 else line[:77] + "..." for line in lines))
+        strip.set_class(any(a.get("severity") == "stop" for a in self.alerts), "-stop")
+
+    def set_status(self, text: str, error: bool = False) -> None:
+        status = self.query_one("#status", Static)
+        status.update(text)
+        status.set_class(error, "-error")
+
+    # ---------------------------------------------------------------- navigation
+    def action_section(self, name: str) -> None:
+        self.query_one("#sections", ContentSwitcher).current = name
+        self.update_tabs()
+        self.focus_section()
+
+    def focus_section(self) -> None:
+        section = self.query_one(f"#{self.current_section()}")
+        for widget in section.query("*"):
+            if widget.focusable:
+                widget.focus()
+                return
+
+    def action_help(self) -> None:
+        from tdmtui.ui.helptext import help_text
+
+        self.push_screen(HelpScreen(help_text(self)))
+
+    def action_warnings(self) -> None:
+        body = "\n".join(fm.alert_line(a) for a in self.alerts) or "No warnings."
+        self.push_screen(HelpScreen("Every warning (severity in words; STOP means no regimen is given):\n\n" + body))
+
+    # ---------------------------------------------------------------- edits, autosave, compute
+    @on(CaseEdited)
+    def case_edited(self, event: CaseEdited) -> None:
+        self.doc.dirty = True
+        self.update_header()
+        self.autosave()
+        self.request_compute()
+        if event.what in ("undo", "repeat") or event.what.startswith(("add", "delete", "patient.drug")):
+            pass
+
+    def autosave(self) -> None:
+        try:
+            write_recovery(recovery_path(self.doc.path, self.state), self.doc.path, self.doc.raw)
+        except OSError as exc:
+            self.set_status(f"Could not write the recovery file: {exc}", error=True)
+
+    def request_compute(self, now: bool = False) -> None:
+        """Recompute after a short pause in typing (at once when ``now``)."""
+        if self._debounce is not None:
+            self._debounce.stop()
+        if now:
+            self.start_compute()
+        else:
+            self._debounce = self.set_timer(DEBOUNCE_S, self.start_compute)
+
+    def start_compute(self) -> None:
+        self.generation += 1
+        self.computing = True
+        if self._spinner is not None:
+            self._spinner.stop()
+        self._spinner = self.set_timer(SPINNER_AFTER_S, self._show_spinner)
+        self.compute_case(self.generation, self.doc.snapshot_raw() if hasattr(self.doc, "snapshot_raw")
+                          else __import__("copy").deepcopy(self.doc.raw))
+
+    def _show_spinner(self) -> None:
+        if self.computing:
+            self.set_status("Computing... (the result updates when it is done)")
+
+    @work(thread=True, exclusive=True, exit_on_error=False, group="compute")
+    def compute_case(self, generation: int, raw: dict[str, Any]) -> None:
+        """Worker thread: run the engine and post what happened (never touches widgets)."""
+        t0 = time.perf_counter()
+        try:
+            from tdmtui.core.compute import compute_raw
+            from tdmtui.core.errors import InputError, NoEstimateError
+            from tdmtui.ui.widgets.plotdata import build_plot_data
+
+            protocol = None
+            if self.protocol_path:
+                from tdmtui.core.library import load_protocol
+
+                protocol = load_protocol(self.protocol_path)
+            outcome = compute_raw(raw, protocol=protocol)
+            outcome.plot_data = build_plot_data(outcome)
+            self.post_message(EstimateReady(generation, outcome, time.perf_counter() - t0))
+        except InputError as exc:
+            self.post_message(EstimateFailed(generation, "input", exc.field, exc.message))
+        except NoEstimateError as exc:
+            self.post_message(EstimateFailed(generation, "no-estimate", "", f"{exc.method}: {exc.why}"))
+        except Exception as exc:  # noqa: BLE001 - shown, never a crash
+            self.post_message(EstimateFailed(generation, "error", "", f"{type(exc).__name__}: {exc}"))
+
+    @on(EstimateReady)
+    def estimate_ready(self, event: EstimateReady) -> None:
+        if event.generation != self.generation:
+            return
+        self.computing = False
+        self.outcome = event.outcome
+        result = event.outcome.result
+        self.query_one(EstimateSection).show(event.outcome, getattr(event.outcome, "plot_data", None))
+        plan = self.query_one(PlanSection)
+        plan.show(event.outcome)
+        if plan.chosen is None:
+            self.chosen = None
+        self.refresh_note()
+        self.show_warnings(result.get("warnings", []))
+        state = "STOP stands" if result.get("status") == "stop" else "ok"
+        self.set_status(f"Computed ({result.get('method') or 'no method'}, {state}) in {event.seconds:.2f} s "
+                        f"for as-of {result.get('as_of')}.")
+
+    @on(EstimateFailed)
+    def estimate_failed(self, event: EstimateFailed) -> None:
+        if event.generation != self.generation:
+            return
+        self.computing = False
+        self.outcome = None
+        self.query_one(EstimateSection).show(None, None)
+        self.query_one(PlanSection).show(None)
+        where = f"{event.field}: " if event.field else ""
+        label = {"input": "INPUT", "no-estimate": "NO ESTIMATE", "error": "ERROR"}[event.kind]
+        self.set_status(f"{label} {where}{event.message}", error=True)
+        self.show_warnings([])
+        self.query_one(NoteSection).show("No note: the case does not compute yet.\n" + f"{label} {where}{event.message}")
+
+    @on(PlanSection.RegimenChosen)
+    def regimen_chosen(self, event: PlanSection.RegimenChosen) -> None:
+        self.chosen = event.regimen
+        self.refresh_note()
+        self.notify("Regimen chosen: it is named in the note (section 6).", timeout=3)
+
+    def refresh_note(self) -> None:
+        from tdmtui.ui.notetext import note_text
+
+        if self.outcome is None:
+            return
+        self.note = note_text(self.outcome, self.chosen)
+        self.query_one(NoteSection).show(self.note)
+
+    # ---------------------------------------------------------------- recovery, save, quit
+    def offer_recovery(self) -> None:
+        current = None if not self.doc.path or not Path(self.doc.path).exists() else self.doc.raw
+        rec = find_recovery(self.doc.path, self.state, current if current is not None else new_case_raw())
+        if rec is None:
+            return
+
+        def answer(word: str | None) -> None:
+            if word == "restore":
+                self.doc.raw = rec.raw
+                self.doc.dirty = True
+                self.reload_sections()
+                self.update_header()
+                self.request_compute(now=True)
+                self.notify("Restored the unsaved work. Save with ctrl+s.", timeout=5)
+            elif word == "discard":
+                remove_recovery(rec.path)
+
+        self.push_screen(AskDialog(
+            f"Unsaved work from {rec.saved_at} was found for "
+            f"{Path(self.doc.path).name if self.doc.path else 'a new case'} (the app stopped before saving).\n"
+            "Restore it?", [("r", "restore"), ("d", "discard")]), answer)
+
+    def reload_sections(self) -> None:
+        self.query_one(PatientSection).reload()
+        self.query_one(DosesSection).reload()
+        self.query_one(LevelsSection).reload()
+
+    def action_save(self) -> None:
+        if not self.doc.path:
+            self.save_as()
+            return
+        try:
+            self.doc.save()
+        except ChangedOnDisk:
+            self.push_screen(AskDialog(
+                f"{self.doc.path} was changed by someone else since you opened it (another session?).\n"
+                "It is NOT overwritten. Save your version under another name?",
+                [("a", "save as")]), lambda w: self.save_as() if w == "save as" else None)
+            return
+        except OSError as exc:
+            self.notify(f"Not saved: {exc}", severity="error", markup=False)
+            return
+        self.saved()
+
+    def save_as(self, then_quit: bool = False) -> None:
+        def check(text: str) -> str:
+            if text and Path(text).expanduser().exists():
+                return "that file exists: choose another name"
+            if text and not Path(text).expanduser().parent.exists():
+                return "that folder does not exist"
+            return ""
+
+        def done(text: str | None) -> None:
+            if not text:
+                return
+            old = recovery_path(self.doc.path, self.state)
+            try:
+                self.doc.save(str(Path(text).expanduser()))
+            except OSError as exc:
+                self.notify(f"Not saved: {exc}", severity="error", markup=False)
+                return
+            remove_recovery(old)
+            self.saved()
+            if then_quit:
+                self.exit(0)
+
+        suggestion = str(Path(self.doc.path).with_name(Path(self.doc.path).stem + "-mine.json")) if self.doc.path else "case.json"
+        self.push_screen(TextDialog("Save the case as (a new file; mode 0600):", suggestion, check), done)
+
+    def saved(self) -> None:
+        remove_recovery(recovery_path(self.doc.path, self.state))
+        self.update_header()
+        self.notify(f"Saved {self.doc.path}", timeout=3, markup=False)
+
+    def action_quit_app(self) -> None:
+        if not self.doc.dirty:
+            self.exit(0)
+            return
+
+        def answer(word: str | None) -> None:
+            if word == "save":
+                if self.doc.path:
+                    self.action_save()
+                    if not self.doc.dirty:
+                        self.exit(0)
+                else:
+                    self.save_as(then_quit=True)
+            elif word == "quit":
+                self.exit(0)
+
+        self.push_screen(AskDialog("There are unsaved changes (they stay in the recovery file until saved).\n"
+                                   "Save before quitting?", [("s", "save"), ("q", "quit")]), answer)
+
+    # ---------------------------------------------------------------- note
+    def action_copy_note(self) -> None:
+        from tdmtui.ui.clipboard import COPY_CAVEAT
+
+        if not self.note:
+            self.notify("No note yet: the case does not compute.", severity="warning")
+            return
+        self.copy_to_clipboard(self.note)
+        self.notify(COPY_CAVEAT, timeout=8, markup=False)
+
+    def action_write_note(self) -> None:
+        from tdmtui.ui.clipboard import default_note_path, write_note
+
+        if not self.note:
+            self.notify("No note yet: the case does not compute.", severity="warning")
+            return
+
+        def done(text: str | None) -> None:
+            if text:
+                try:
+                    where = write_note(text, self.note)
+                except OSError as exc:
+                    self.notify(f"Not written: {exc}", severity="error", markup=False)
+                    return
+                self.notify(f"Note written to {where} (mode 0600).", timeout=5, markup=False)
+
+        self.push_screen(TextDialog("Write the note to this file:", default_note_path(self.doc.path)), done)
+
+
+def run_app(path: str | None, protocol_path: str | None, mouse: bool = False) -> int:
+    """Run the workspace; returns the exit status for the command line."""
+    app = TdmApp(path, protocol_path)
+    result = app.run(mouse=mouse)
+    return int(result or 0)
+
+
+def main(argv: list[str] | None = None) -> int:
+    """``python -m tdmtui.ui.app [CASE]`` (the CLI's ``tdmtui [CASE]`` calls :func:`run_app`)."""
+    args = sys.argv[1:] if argv is None else argv
+    return run_app(args[0] if args else None, None)
+
+
+if __name__ == "__main__":
+    raise SystemExit(main())

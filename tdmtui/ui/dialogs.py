@@ -1,0 +1,100 @@
+"""Modal dialogs: questions with lettered answers, a path, a repeat, help."""
+
+from __future__ import annotations
+
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import Vertical, VerticalScroll
+from textual.screen import ModalScreen
+from textual.widgets import Input, Label, Static
+
+
+class AskDialog(ModalScreen[str]):
+    """A question answered by one key per answer: ``[("s", "save"), ("d", "discard")]``.
+
+    Escape answers ``""`` (cancel).
+    """
+
+    DEFAULT_CSS = """
+    AskDialog { align: center middle; }
+    AskDialog > Vertical { width: 64; height: auto; border: heavy $accent; padding: 0 1; background: $surface; }
+    AskDialog .ask-keys { text-style: bold; margin-top: 1; }
+    """
+    BINDINGS = [Binding("escape", "answer('')", "Cancel", id="ask.cancel")]
+
+    def __init__(self, question: str, answers: list[tuple[str, str]]) -> None:
+        super().__init__()
+        self.question = question
+        self.answers = answers
+
+    def compose(self) -> ComposeResult:
+        with Vertical():
+            yield Static(self.question, markup=False)
+            keys = "   ".join(f"[{k}] {word}" for k, word in self.answers) + "   [Esc] cancel"
+            yield Label(keys, classes="ask-keys", markup=False)
+
+    def on_key(self, event) -> None:  # noqa: ANN001
+        for key, word in self.answers:
+            if event.key == key:
+                event.stop()
+                self.dismiss(word)
+
+    def action_answer(self, word: str) -> None:
+        self.dismiss(word)
+
+
+class TextDialog(ModalScreen[str]):
+    """Ask for one line of text (a file name, a repeat); Enter accepts, Escape cancels ("")."""
+
+    DEFAULT_CSS = """
+    TextDialog { align: center middle; }
+    TextDialog > Vertical { width: 70; height: auto; border: heavy $accent; padding: 0 1; background: $surface; }
+    TextDialog .dlg-error { color: $text-error; text-style: bold; }
+    """
+    BINDINGS = [Binding("escape", "cancel", "Cancel", id="text.cancel")]
+
+    def __init__(self, prompt: str, value: str = "", check=None) -> None:  # noqa: ANN001
+        super().__init__()
+        self.prompt = prompt
+        self.value = value
+        self.check = check
+
+    def compose(self) -> ComposeResult:
+        with Vertical():
+            yield Static(self.prompt, markup=False)
+            yield Input(self.value, id="dlg-input")
+            yield Label("", classes="dlg-error", id="dlg-error", markup=False)
+            yield Label("[Enter] accept   [Esc] cancel", markup=False)
+
+    def on_input_submitted(self, event: Input.Submitted) -> None:
+        event.stop()
+        text = event.value.strip()
+        why = self.check(text) if self.check else ""
+        if why:
+            self.query_one("#dlg-error", Label).update(f"! {why}")
+            return
+        self.dismiss(text)
+
+    def action_cancel(self) -> None:
+        self.dismiss("")
+
+
+class HelpScreen(ModalScreen[None]):
+    """Every key of the app and the short safety text."""
+
+    DEFAULT_CSS = """
+    HelpScreen { align: center middle; }
+    HelpScreen > VerticalScroll { width: 78; height: 22; border: heavy $accent; padding: 0 1; background: $surface; }
+    """
+    BINDINGS = [Binding("escape,f1,question_mark,q", "close", "Close", id="help.close")]
+
+    def __init__(self, text: str) -> None:
+        super().__init__()
+        self.text = text
+
+    def compose(self) -> ComposeResult:
+        with VerticalScroll():
+            yield Static(self.text, markup=False)
+
+    def action_close(self) -> None:
+        self.dismiss(None)

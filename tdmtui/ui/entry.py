@@ -1,0 +1,127 @@
+"""How each kind of entry field turns what was typed into the case dict. Pure.
+
+Every field stores *something* in the raw case on every keystroke: the
+tidied contract string when it reads, or the text exactly as typed when it
+does not (so the engine names the field, and the recovery file keeps it).
+"""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass
+from typing import Any
+
+from tdmtui.core.clock import Clock, clock_for
+from tdmtui.core.errors import InputError
+from tdmtui.core.timeentry import resolve_time
+from tdmtui.core.units import parse_quantity
+from tdmtui.ui.fields import check_quantity, complete_quantity
+
+_DURATION = re.compile(r"\s*[0-9]*\.?[0-9]+\s*(min|h|hr|day)?\s*")
+
+
+@dataclass(frozen=True)
+class Entry:
+    """What a field's text became.
+
+    Attributes:
+        stored: what goes into the raw case (None removes the key).
+        note: shown beside the field when it reads (e.g. "= 81.6 kg", "next day: ...").
+        error: the reason it does not read ("" when it does).
+        key: for infusion fields, which key was set: ``duration`` or ``end``.
+    """
+
+    stored: Any
+    note: str = ""
+    error: str = ""
+    key: str = ""
+
+
+def quantity_entry(text: str, kind: str, unit: str, field: str) -> Entry:
+    """A quantity field: bare numbers take ``unit``; another unit may be typed."""
+    stored, value, error = check_quantity(text, kind, field, unit)
+    if error:
+        return Entry(stored, "", error)
+    canon = {"weight": "kg", "height": "cm", "dose": "mg", "scr": "mg/dL", "conc": "mg/L", "age": "yr"}.get(kind)
+    note = ""
+    if canon and not stored.endswith(" " + canon):
+        note = f"= {value:.4g} {canon}"
+    return Entry(stored, note, "")
+
+
+def time_entry(text: str, anchor: float | None, clock: Clock, field: str) -> Entry:
+    """A time field: full date-time, clock time (date from the row above) or +12h."""
+    try:
+        e = resolve_time(text, anchor, clock, field)
+    except InputError as exc:
+        return Entry(text.strip(), "", exc.message)
+    return Entry(e.iso, e.note, "")
+
+
+def infusion_entry(text: str, start: float | None, clock: Clock, field: str) -> Entry:
+    """An infusion's length: a duration ("90 min", bare number = minutes) or an end time.
+
+    An end may be a clock time ("21:30"), a full date-time or "+90min" from
+    the start; it is stored as ``end``. A duration is stored as ``duration``.
+    """
+    s = text.strip()
+    if _DURATION.fullmatch(s):
+        stored = complete_quantity(s, "min")
+        try:
+            hours = parse_quantity(stored, "time", f"{field}.duration")
+        except InputError as exc:
+            return Entry(stored, "", exc.message, "duration")
+        return Entry(stored, f"= {hours:.4g} h", "", "duration")
+    e = time_entry(s, start, clock, f"{field}.end")
+    if e.error:
+        msg = e.error if s[:1] in "+-" or ":" in s else f"{s!r} is neither a duration (90 min) nor an end time (21:30)"
+        return Entry(e.stored, "", msg, "end")
+    if start is not None:
+        length = clock.parse(e.stored, field) - start
+        if length < 0:
+            return Entry(e.stored, "", "the infusion ends before it starts", "end")
+        return Entry(e.stored, f"ends {e.stored[11:16]}, {length:.3g} h", "", "end")
+    return Entry(e.stored, e.note, "", "end")
+
+
+def case_clock(raw: dict[str, Any]) -> Clock:
+    """The case's clock from whatever times read now (naive when they do not agree yet)."""
+    times: list[tuple[str, object]] = []
+    for name, keys in (("doses", ("start", "end")), ("levels", ("time",))):
+        for i, row in enumerate(raw.get(name) or []):
+            if isinstance(row, dict):
+                times += [(f"{name}[{i}].{k}", row[k]) for k in keys if isinstance(row.get(k), str)]
+    if isinstance(raw.get("as_of"), str):
+        times.append(("as_of", raw["as_of"]))
+    try:
+        return clock_for(times, raw.get("timezone"))
+    except InputError:
+        return Clock("naive")
+
+
+def parsed_time(clock: Clock, text: Any) -> float | None:
+    """Hours of a stored time, or None when it does not read."""
+    try:
+        return clock.parse(text, "") if isinstance(text, str) else None
+    except InputError:
+        return None
+
+
+def anchor_for(raw: dict[str, Any], name: str, index: int, clock: Clock) -> float | None:
+    """The time of the row above (``doses``/``levels``), for clock and relative entries.
+
+    For the first level, the latest dose start before it is unknown, so the
+    last dose row is used; for the first dose there is no anchor.
+    """
+    rows = raw.get(name) or []
+    key = "start" if name == "doses" else "time"
+    for j in range(index - 1, -1, -1):
+        t = parsed_time(clock, rows[j].get(key)) if isinstance(rows[j], dict) else None
+        if t is not None:
+            return t
+    if name == "levels":
+        for row in reversed(raw.get("doses") or []):
+            t = parsed_time(clock, row.get("start")) if isinstance(row, dict) else None
+            if t is not None:
+                return t
+    return None

@@ -1,0 +1,39 @@
+"""The help text: every key, by where it works, and the short safety text."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from tdmtui.ui.safety import short_text
+
+KEYS = """\
+Everywhere
+  F1 or ?        this help (? only outside text fields)
+  F2..F7, 1..6   sections: patient, doses, levels, estimate, plan, note
+                 (digits only outside text fields)
+  F8             every warning
+  ctrl+s         save (0600; refuses a file changed since you opened it)
+  ctrl+q         quit (asks when there are unsaved changes)
+  Tab, shift+Tab next / previous field;  Esc leaves a form for its table
+Patient
+  type values; a bare number takes the unit shown; another unit may be
+  typed: "180 lb", "97 umol/L", "1.25 g". Choices: left/right, space,
+  or the first letter.
+Doses and levels
+  a add a row (copied from the last, 1 interval later)   x delete   u undo
+  Enter edit the row   r repeat the dose: "12h x 3" (doses only)
+  Times: 2026-03-03T08:00, 08:00 (date of the row above; earlier than it
+  = next day, shown beside the field), +12h / +90min from the row above.
+  Infusion: a duration (90 min; a bare number is minutes) or an end time.
+Estimate
+  t methods side by side   w show working   g concentration plot
+Plan
+  arrows move, Enter chooses the regimen named in the note
+Note
+  c copy to your clipboard (OSC 52; some terminals and tmux block it)
+  w write the note to a file (0600)
+"""
+
+
+def help_text(app: Any = None) -> str:
+    return KEYS + "\nSafety\n" + short_text() + "\n\nEsc closes this help."

@@ -1,0 +1,114 @@
+"""Estimate: every method side by side, the working, and the plot."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from rich.text import Text
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import Vertical, VerticalScroll
+from textual.widgets import ContentSwitcher, DataTable, Label, Static
+
+from tdmtui.ui import formatting as fm
+from tdmtui.ui.safety import caution_line
+from tdmtui.ui.widgets.plot import ConcPlot
+
+#: (row label, key in the estimate dict or in its "current" dict, display key)
+ROWS = (
+    ("ke (1/h)", "ke_per_h", "ke_per_h"),
+    ("half-life (h)", "half_life_h", "half_life_h"),
+    ("Vd (L)", "vd_l", "vd_l"),
+    ("Vd (L/kg)", "vd_l_per_kg", "vd_l_per_kg"),
+    ("CL (L/h)", "cl_l_per_h", "cl_l_per_h"),
+    ("AUC24 (mg*h/L)", "current.auc24_mg_h_per_l", "auc24_mg_h_per_l"),
+    ("ss peak (mg/L)", "current.peak_mg_per_l", "peak_mg_per_l"),
+    ("ss trough (mg/L)", "current.trough_mg_per_l", "trough_mg_per_l"),
+)
+
+
+def cell(est: dict[str, Any], key: str, disp: str) -> str:
+    """One table cell: the rounded value, with its 90 % interval where the method gives one."""
+    if key.startswith("current."):
+        value = (est.get("current") or {}).get(key.split(".", 1)[1])
+        key = key.split(".", 1)[1]
+    else:
+        value = est.get(key)
+    text = fm.num(value, disp)
+    iv = fm.interval((est.get("interval90") or {}).get(key), disp)
+    return f"{text} {iv}" if iv else text
+
+
+def method_columns(result: dict[str, Any]) -> list[tuple[str, dict[str, Any]]]:
+    """(column title, estimate dict): the method used first, marked "*", then the others."""
+    cols: list[tuple[str, dict[str, Any]]] = []
+    if result.get("estimate"):
+        cols.append((f"{result.get('method')}*", result["estimate"]))
+    for name, est in (result.get("methods") or {}).items():
+        cols.append((name, est))
+    return cols
+
+
+class EstimateSection(Vertical):
+    """Views: t table, w working, g graph."""
+
+    BINDINGS = [
+        Binding("t", "view('est-table')", "Table", id="estimate.table"),
+        Binding("w", "view('est-working')", "Working", id="estimate.working"),
+        Binding("g", "view('est-graph')", "Graph", id="estimate.graph"),
+    ]
+
+    def compose(self) -> ComposeResult:
+        yield Label("No estimate yet.", id="est-title", classes="section-title", markup=False)
+        with ContentSwitcher(initial="est-table", id="est-views"):
+            yield DataTable(cursor_type="row", id="est-table", zebra_stripes=True)
+            with VerticalScroll(id="est-working"):
+                yield Static("", id="est-working-text", markup=False)
+            yield ConcPlot(id="est-graph")
+        yield Label(caution_line(), classes="caution", markup=False)
+
+    def action_view(self, view: str) -> None:
+        self.query_one(ContentSwitcher).current = view
+        self.query_one(f"#{view}").focus()
+
+    def show(self, outcome: Any, plot: Any) -> None:
+        """Fill the views from an Outcome (None: clear them)."""
+        table = self.query_one("#est-table", DataTable)
+        table.clear(columns=True)
+        result = outcome.result if outcome is not None else {}
+        cols = method_columns(result)
+        title = self.query_one("#est-title", Label)
+        if not cols:
+            title.update("No estimate: see the message below and the warnings.")
+        else:
+            used = result.get("estimate") or {}
+            extra = ""
+            if used.get("target_probability") is not None:
+                extra = f"; P(target) {fm.qty(used['target_probability'], 'probability')}"
+            title.update(f"Method used: {result.get('method')} (* column){extra}.  t table  w working  g graph")
+        table.add_column("", key="label")
+        for name, _ in cols:
+            table.add_column(name, key=name)
+        for label, key, disp in ROWS:
+            table.add_row(label, *[Text(cell(est, key, disp), justify="right") for _, est in cols])
+        if cols:
+            table.add_row("levels used", *[", ".join("#" + str(int(x.strip("levels[]")) + 1) for x in est.get("levels_used", [])) or "none"
+                                           for _, est in cols])
+        self.query_one("#est-working-text", Static).update(working_text(outcome))
+        self.query_one(ConcPlot).show(plot)
+
+
+def working_text(outcome: Any) -> str:
+    """The "show working" text: each step's equation and the numbers put into it."""
+    if outcome is None or not outcome.working:
+        return "No working to show."
+    lines = []
+    for i, w in enumerate(outcome.working, 1):
+        lines.append(f"{i}. {w.title}" + (f"  [{w.method}]" if getattr(w, "method", "") else ""))
+        lines.append(f"   {w.equation}")
+        if w.substituted:
+            lines.append(f"   = {w.substituted}")
+        value = getattr(w, "value", "") or getattr(w, "value_text", "")
+        if value:
+            lines.append(f"   -> {value}")
+    return "\n".join(lines)

@@ -1,0 +1,86 @@
+"""Levels: measured concentrations, with below-LOQ and set-aside flags."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from tdmtui.core.case import TIMINGS
+from tdmtui.ui.entry import Entry
+from tdmtui.ui.formatting import short_time
+from tdmtui.ui.sections.rows import RowsSection
+from tdmtui.ui.widgets.form import FieldSpec
+
+LIMITS = ("quantified", "below-loq", "above-uloq")
+USE = ("use", "set-aside")
+
+
+class LevelsSection(RowsSection):
+    """Measured levels: time, concentration, assay limit, use or set aside (with reason), timing."""
+
+    NAME = "levels"
+    TITLE = "Level"
+    COLUMNS = ("#", "Time", "Conc", "Flags", "Timing", "Reason set aside")
+    FIELDS = (
+        FieldSpec("time", "Drawn", "time", hint="2026-03-03T07:35, 07:35 or +11h"),
+        FieldSpec("conc", "Conc", "quantity:conc", "mg/L"),
+        FieldSpec("limit", "Assay", "choice", options=LIMITS),
+        FieldSpec("use", "Use", "choice", options=USE),
+        FieldSpec("reason", "Reason", "text", hint="why set aside"),
+        FieldSpec("timing", "Timing", "choice", options=TIMINGS),
+    )
+
+    def cells(self, index: int, row: dict[str, Any]) -> tuple[str, ...]:
+        flags = []
+        if row.get("below_loq"):
+            flags.append("<LOQ")
+        if row.get("above_uloq"):
+            flags.append(">ULOQ")
+        if row.get("use") is False:
+            flags.append("ASIDE")
+        return (str(index + 1), short_time(row.get("time", "")), str(row.get("conc", "")), " ".join(flags),
+                row.get("timing", "actual"), str(row.get("reason", ""))[:24])
+
+    def form_value(self, key: str, row: dict[str, Any]) -> Any:
+        if key == "limit":
+            return "below-loq" if row.get("below_loq") else ("above-uloq" if row.get("above_uloq") else "quantified")
+        if key == "use":
+            return "set-aside" if row.get("use") is False else "use"
+        if key == "timing":
+            return row.get("timing", "actual")
+        return row.get(key, "")
+
+    def entry(self, key: str, text: str, row: dict[str, Any]) -> Entry:
+        f = f"levels[{self.current}]"
+        if key == "time":
+            return self.time(text, f"{f}.time")
+        if key == "conc":
+            return self.qty(text, "conc", "mg/L", f"{f}.conc")
+        if key == "reason" and row.get("use") is False and not text.strip():
+            return Entry(text, "", "say why this level is set aside")
+        return Entry(text)
+
+    def store(self, key: str, entry: Entry, row: dict[str, Any]) -> None:
+        if key == "limit":
+            row.pop("below_loq", None)
+            row.pop("above_uloq", None)
+            if entry.stored == "below-loq":
+                row["below_loq"] = True
+            elif entry.stored == "above-uloq":
+                row["above_uloq"] = True
+        elif key == "use":
+            if entry.stored == "set-aside":
+                row["use"] = False
+                row.setdefault("reason", "")
+            else:
+                row.pop("use", None)
+        elif key == "reason":
+            if entry.stored or "reason" in row:
+                row["reason"] = entry.stored
+        elif key == "timing":
+            if entry.stored != "actual" or "timing" in row:
+                row["timing"] = entry.stored
+        else:
+            row[key] = entry.stored
+
+    def new_row(self) -> dict[str, Any]:
+        return {"time": "", "conc": ""}

@@ -1,0 +1,28 @@
+"""Note: the chart note, copied to the clipboard (c) or written to a file (w)."""
+
+from __future__ import annotations
+
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import Vertical, VerticalScroll
+from textual.widgets import Label, Static
+
+from tdmtui.ui.clipboard import COPY_CAVEAT
+
+
+class NoteSection(Vertical):
+    """The note text with copy and write keys."""
+
+    BINDINGS = [
+        Binding("c", "app.copy_note", "Copy note", id="note.copy"),
+        Binding("w", "app.write_note", "Write to file", id="note.write"),
+    ]
+
+    def compose(self) -> ComposeResult:
+        yield Label("c copy to clipboard (OSC 52)   w write to a file (0600)", classes="section-title")
+        with VerticalScroll(id="note-scroll"):
+            yield Static("The note appears when the case computes.", id="note-text", markup=False)
+        yield Label(COPY_CAVEAT, id="note-caveat", classes="caution", markup=False)
+
+    def show(self, text: str) -> None:
+        self.query_one("#note-text", Static).update(text)

@@ -1,0 +1,171 @@
+"""Patient: who, the drug, renal function; derived values update as you type."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from textual import on
+from textual.app import ComposeResult
+from textual.containers import Vertical
+from textual.widgets import Input, Label
+
+from tdmtui.core.case import RENAL_REPLACEMENT, SEXES
+from tdmtui.core.errors import InputError
+from tdmtui.core.library import DRUGS
+from tdmtui.ui import formatting as fm
+from tdmtui.ui.entry import Entry, case_clock, parsed_time, quantity_entry, time_entry
+from tdmtui.ui.messages import CaseEdited
+from tdmtui.ui.widgets.cycler import Cycler
+from tdmtui.ui.widgets.form import FieldRow, FieldSpec
+
+FIELDS = (
+    FieldSpec("drug", "Drug", "choice", options=DRUGS),
+    FieldSpec("label", "Label", "text", hint="pseudonymous, e.g. bed 12"),
+    FieldSpec("age", "Age", "quantity:age", "yr"),
+    FieldSpec("sex", "Sex", "choice", options=SEXES),
+    FieldSpec("weight", "Weight", "quantity:weight", "kg"),
+    FieldSpec("height", "Height", "quantity:height", "cm"),
+    FieldSpec("scr", "SCr latest", "quantity:scr", "mg/dL"),
+    FieldSpec("scr_time", "  drawn", "time", hint="date-time (optional)"),
+    FieldSpec("scr_prev", "SCr before", "quantity:scr", "mg/dL"),
+    FieldSpec("scr_prev_time", "  drawn", "time", hint="date-time"),
+    FieldSpec("rrt", "Dialysis", "choice", options=RENAL_REPLACEMENT),
+    FieldSpec("as_of", "Assess at", "time", hint="now (default: last event)"),
+    FieldSpec("mic", "MIC", "quantity:conc", "mg/L"),
+)
+_PATHS = {"drug": ("drug",), "label": ("label",), "age": ("patient", "age"), "sex": ("patient", "sex"),
+          "weight": ("patient", "weight"), "height": ("patient", "height"),
+          "rrt": ("patient", "renal_replacement"), "as_of": ("as_of",), "mic": ("target", "mic")}
+_KINDS = {"age": ("age", "yr"), "weight": ("weight", "kg"), "height": ("height", "cm"), "scr": ("scr", "mg/dL"),
+          "scr_prev": ("scr", "mg/dL"), "mic": ("conc", "mg/L")}
+
+
+def scr_entries(raw: dict[str, Any]) -> list[dict[str, str]]:
+    """The SCr values as a list of {time, value}, latest last (a single string gives one, timeless)."""
+    scr = raw.get("patient", {}).get("scr", "")
+    if isinstance(scr, list):
+        return [dict(s) for s in scr if isinstance(s, dict)]
+    return [{"time": "", "value": scr}] if scr else []
+
+
+def set_scr(raw: dict[str, Any], latest: dict[str, str], prev: dict[str, str]) -> None:
+    """Write the SCr back: one timeless value as a string, otherwise a list of {time, value}."""
+    pat = raw.setdefault("patient", {})
+    if not prev.get("value") and not prev.get("time") and not latest.get("time"):
+        pat["scr"] = latest.get("value", "")
+        return
+    pat["scr"] = [s for s in (prev, latest) if s.get("value") or s.get("time")]
+
+
+def derived_text(raw: dict[str, Any]) -> tuple[str, str, float | None]:
+    """Two lines of derived values and the CrCl (mL/min), from the raw patient. Never raises."""
+    from tdmtui.core.library import Rules
+    from tdmtui.core.patient import renal_summary
+    from tdmtui.core.units import parse_quantity
+
+    p = raw.get("patient", {})
+    try:
+        age = parse_quantity(p.get("age"), "age", "patient.age")
+        weight = parse_quantity(p.get("weight"), "weight", "patient.weight")
+        height = parse_quantity(p.get("height"), "height", "patient.height")
+        clock = case_clock(raw)
+        series = []
+        for i, s in enumerate(scr_entries(raw)):
+            series.append((parsed_time(clock, s.get("time")) if s.get("time") else None,
+                           parse_quantity(s.get("value"), "scr", f"patient.scr[{i}].value"), i))
+        if not series:
+            raise InputError("patient.scr", "needed")
+        if len(series) > 1 and any(t is None for t, _, _ in series):
+            series = [(None, series[-1][1], series[-1][2])]
+        summary = renal_summary(age, str(p.get("sex")), weight, height, series, Rules(str(raw.get("drug"))),
+                                clock=clock)
+    except (InputError, ValueError, KeyError) as exc:
+        why = exc.message if isinstance(exc, InputError) else str(exc)
+        return "Derived values appear when age, sex, weight, height and SCr read.", f"({why})", None
+    s = summary
+    line1 = (f"IBW {fm.qty(s.ibw, 'kg')}  AdjBW {fm.qty(s.adjbw, 'kg')}  BMI {fm.num(s.bmi, 'bmi')}  "
+             f"dosing wt {fm.qty(s.dosing_weight_kg, 'kg')}")
+    line2 = (f"CrCl {fm.qty(s.crcl_ml_min, 'crcl_ml_min')} (C-G, {fm.qty(s.crcl_weight_kg, 'kg')})  "
+             f"eGFR {fm.num(s.egfr_ckd_epi, 'egfr')} mL/min/1.73m2 (CKD-EPI 2021)")
+    return line1, line2, s.crcl_ml_min
+
+
+class PatientSection(Vertical):
+    """The patient form and the derived values under it."""
+
+    def __init__(self, doc: Any, *, id: str | None = None) -> None:  # noqa: A002
+        super().__init__(id=id)
+        self.doc = doc
+
+    def compose(self) -> ComposeResult:
+        for spec in FIELDS:
+            yield FieldRow(spec, prefix="pt")
+        yield Label("", id="derived-1", classes="derived", markup=False)
+        yield Label("", id="derived-2", classes="derived", markup=False)
+
+    def on_mount(self) -> None:
+        self.reload()
+
+    def value_of(self, key: str) -> Any:
+        raw = self.doc.raw
+        if key in _PATHS:
+            return self.doc.get(_PATHS[key], "")
+        entries = scr_entries(raw)
+        latest = entries[-1] if entries else {}
+        prev = entries[-2] if len(entries) > 1 else {}
+        return {"scr": latest.get("value", ""), "scr_time": latest.get("time", ""),
+                "scr_prev": prev.get("value", ""), "scr_prev_time": prev.get("time", "")}[key]
+
+    def reload(self) -> None:
+        """Show the case's values in the form."""
+        for spec in FIELDS:
+            value = self.value_of(spec.key)
+            if spec.key == "rrt" and not value:
+                value = "none"
+            self.query_one(f"#pt-{spec.key}", FieldRow).load(value)
+        self.update_derived()
+
+    def update_derived(self) -> float | None:
+        line1, line2, crcl = derived_text(self.doc.raw)
+        self.query_one("#derived-1", Label).update(line1)
+        self.query_one("#derived-2", Label).update(line2)
+        return crcl
+
+    def entry(self, key: str, text: str) -> Entry:
+        if key in _KINDS:
+            kind, unit = _KINDS[key]
+            path = ".".join(_PATHS.get(key, ("patient", "scr")))
+            if key == "mic" and not text.strip():
+                return Entry(None)
+            return quantity_entry(text, kind, unit, path)
+        if key in ("scr_time", "scr_prev_time", "as_of"):
+            if not text.strip():
+                return Entry("" if key != "as_of" else None, "" if key != "as_of" else "default: the last event")
+            return time_entry(text, None, case_clock(self.doc.raw), key)
+        if key == "label":
+            return Entry(text)
+        return Entry(text)
+
+    @on(Input.Changed)
+    @on(Cycler.Changed)
+    def _changed(self, event: Input.Changed | Cycler.Changed) -> None:
+        wid = event.control.id or ""
+        if not wid.startswith("pt-"):
+            return
+        event.stop()
+        key = wid[3:].removesuffix("-input")
+        e = self.entry(key, event.value)
+        if key in _PATHS:
+            self.doc.set(_PATHS[key], e.stored)
+        else:
+            entries = scr_entries(self.doc.raw)
+            latest = entries[-1] if entries else {"time": "", "value": ""}
+            prev = entries[-2] if len(entries) > 1 else {"time": "", "value": ""}
+            target, part = {"scr": (latest, "value"), "scr_time": (latest, "time"),
+                            "scr_prev": (prev, "value"), "scr_prev_time": (prev, "time")}[key]
+            target[part] = e.stored or ""
+            set_scr(self.doc.raw, latest, prev)
+            self.doc.dirty = True
+        self.query_one(f"#pt-{key}", FieldRow).show(e.note, e.error)
+        self.update_derived()
+        self.post_message(CaseEdited(f"patient.{key}"))

@@ -1,0 +1,100 @@
+"""Plan: the proposed regimen and its candidates; choose one with Enter."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from rich.text import Text
+from textual import on
+from textual.app import ComposeResult
+from textual.containers import Vertical
+from textual.message import Message
+from textual.widgets import DataTable, Label, Static
+
+from tdmtui.ui import formatting as fm
+from tdmtui.ui.safety import caution_line
+
+COLUMNS = ("", "Action", "Dose", "Every", "Over", "AUC24", "Peak", "Trough")
+
+
+def candidates(result: dict[str, Any]) -> list[dict[str, Any]]:
+    """The regimens to choose from: the proposal first, then the alternatives."""
+    reg = result.get("regimen") or {}
+    if reg.get("candidates"):
+        return list(reg["candidates"])
+    return ([reg] if reg else []) + list(reg.get("alternatives") or [])
+
+
+def summary_lines(result: dict[str, Any]) -> str:
+    """Action, next dose, hold-until, loading dose and next levels, in words."""
+    reg = result.get("regimen")
+    if not reg:
+        if result.get("status") == "stop":
+            return "No regimen: a STOP warning stands (see the warnings)."
+        return "No regimen proposed yet."
+    lines = [f"Proposal: {reg.get('action', '?').upper()}  {fm.qty(reg.get('dose_mg'), 'dose_mg')} every "
+             f"{fm.qty(reg.get('interval_h'), 'interval_h')} over {fm.qty(reg.get('infusion_h'), 'infusion_h')}"]
+    lines.append(f"Next dose: {reg.get('next_dose_at') or '-'}   Hold until: {reg.get('hold_until') or 'no hold'}")
+    ld = reg.get("loading_dose")
+    lines.append("Loading dose: " + (f"{fm.qty(ld.get('dose_mg'), 'dose_mg')} over {fm.qty(ld.get('infusion_h'), 'infusion_h')}"
+                                     f" at {ld.get('at', '-')}" if ld else "none"))
+    nl = reg.get("next_levels") or []
+    lines.append("Next levels: " + ("; ".join(f"{x.get('kind')} {x.get('at')}" for x in nl) if nl else "none proposed"))
+    return "\n".join(lines)
+
+
+class PlanSection(Vertical):
+    """The proposal and a table of candidates (Enter chooses one for the note)."""
+
+    class RegimenChosen(Message):
+        """The user chose a candidate regimen."""
+
+        def __init__(self, regimen: dict[str, Any]) -> None:
+            super().__init__()
+            self.regimen = regimen
+
+    def __init__(self, *, id: str | None = None) -> None:  # noqa: A002
+        super().__init__(id=id)
+        self.options: list[dict[str, Any]] = []
+        self.chosen: int | None = None
+
+    def compose(self) -> ComposeResult:
+        yield Static("No regimen proposed yet.", id="plan-summary", markup=False)
+        yield Label("Candidates (Enter chooses the one for the note):", classes="section-title")
+        yield DataTable(cursor_type="row", zebra_stripes=True, id="plan-table")
+        yield Label(caution_line(), classes="caution", markup=False)
+
+    def on_mount(self) -> None:
+        table = self.query_one(DataTable)
+        for col in COLUMNS:
+            table.add_column(col, key=col or "mark")
+
+    def show(self, outcome: Any) -> None:
+        result = outcome.result if outcome is not None else {}
+        self.query_one("#plan-summary", Static).update(summary_lines(result))
+        self.options = candidates(result)
+        if self.chosen is not None and self.chosen >= len(self.options):
+            self.chosen = None
+        self.fill()
+
+    def fill(self) -> None:
+        table = self.query_one(DataTable)
+        table.clear()
+        for i, c in enumerate(self.options):
+            p = c.get("predicted") or {}
+            mark = "CHOSEN" if i == self.chosen else ("proposed" if i == 0 else "")
+            table.add_row(mark, c.get("action", ""), Text(fm.qty(c.get("dose_mg"), "dose_mg"), justify="right"),
+                          fm.qty(c.get("interval_h"), "interval_h"), fm.qty(c.get("infusion_h"), "infusion_h"),
+                          Text(fm.num(p.get("auc24_mg_h_per_l"), "auc24_mg_h_per_l"), justify="right"),
+                          Text(fm.num(p.get("peak_mg_per_l"), "peak_mg_per_l"), justify="right"),
+                          Text(fm.num(p.get("trough_mg_per_l"), "trough_mg_per_l"), justify="right"), key=str(i))
+
+    @on(DataTable.RowSelected, "#plan-table")
+    def _chosen(self, event: DataTable.RowSelected) -> None:
+        event.stop()
+        i = event.cursor_row
+        if 0 <= i < len(self.options):
+            self.chosen = i
+            self.fill()
+            self.query_one(DataTable).move_cursor(row=i)
+            self.post_message(self.RegimenChosen(self.options[i]))

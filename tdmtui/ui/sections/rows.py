@@ -1,0 +1,188 @@
+"""A table of rows (doses or levels) with an entry form for the highlighted row.
+
+Keys here: a add, x delete, u undo, r repeat (doses), Enter edit,
+Escape back to the table. Typing in the form edits the case at once; the
+raw text is kept even when it does not read, and the reason is shown.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+from textual import on
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import Vertical
+from textual.widgets import DataTable, Input, Label
+
+from tdmtui.ui.entry import Entry, anchor_for, case_clock, infusion_entry, parsed_time, quantity_entry, time_entry
+from tdmtui.ui.messages import CaseEdited
+from tdmtui.ui.widgets.cycler import Cycler
+from tdmtui.ui.widgets.form import FieldRow, FieldSpec
+
+
+class RowsSection(Vertical):
+    """Base for the doses and levels sections."""
+
+    NAME = ""
+    TITLE = ""
+    FIELDS: tuple[FieldSpec, ...] = ()
+    COLUMNS: tuple[str, ...] = ()
+    BINDINGS = [
+        Binding("a", "add", "Add row", id="rows.add"),
+        Binding("x,delete", "delete", "Delete", id="rows.delete"),
+        Binding("u", "undo", "Undo", id="rows.undo"),
+        Binding("escape", "to_table", "Table", show=False, id="rows.table"),
+    ]
+
+    def __init__(self, doc: Any, *, id: str | None = None) -> None:  # noqa: A002
+        super().__init__(id=id)
+        self.doc = doc
+        self.current = 0
+
+    def compose(self) -> ComposeResult:
+        table: DataTable = DataTable(cursor_type="row", zebra_stripes=True, id=f"{self.NAME}-table")
+        yield table
+        with Vertical(id=f"{self.NAME}-form", classes="row-form"):
+            yield Label("", id=f"{self.NAME}-form-title", classes="form-title", markup=False)
+            for spec in self.FIELDS:
+                yield FieldRow(spec, prefix=self.NAME)
+
+    def on_mount(self) -> None:
+        table = self.query_one(DataTable)
+        for col in self.COLUMNS:
+            table.add_column(col, key=col)
+        self.reload()
+
+    # ---------------------------------------------------------------- display
+    def rows(self) -> list[dict[str, Any]]:
+        return self.doc.rows(self.NAME)
+
+    def cells(self, index: int, row: dict[str, Any]) -> tuple[str, ...]:
+        raise NotImplementedError
+
+    def reload(self, keep: int | None = None) -> None:
+        """Rebuild the table from the case and load the current row into the form."""
+        table = self.query_one(DataTable)
+        table.clear()
+        rows = self.rows()
+        for i, row in enumerate(rows):
+            table.add_row(*self.cells(i, row if isinstance(row, dict) else {}), key=str(i))
+        if rows:
+            self.current = min(keep if keep is not None else self.current, len(rows) - 1)
+            table.move_cursor(row=self.current)
+        self.load_form()
+
+    def load_form(self) -> None:
+        rows = self.rows()
+        title = self.query_one(f"#{self.NAME}-form-title", Label)
+        form = self.query_one(f"#{self.NAME}-form")
+        if not rows:
+            title.update(f"No {self.NAME} yet: press a to add one.")
+            form.set_class(True, "-empty")
+            return
+        form.set_class(False, "-empty")
+        title.update(f"{self.TITLE} row {self.current + 1} of {len(rows)}  (Enter edit, Esc table)")
+        row = rows[self.current]
+        for spec in self.FIELDS:
+            self.query_one(f"#{self.NAME}-{spec.key}", FieldRow).load(self.form_value(spec.key, row))
+
+    def form_value(self, key: str, row: dict[str, Any]) -> Any:
+        return row.get(key, "")
+
+    def refresh_row(self) -> None:
+        """Update the table line of the current row after an edit."""
+        table = self.query_one(DataTable)
+        row = self.rows()[self.current]
+        for col, value in zip(self.COLUMNS, self.cells(self.current, row)):
+            table.update_cell(str(self.current), col, value, update_width=True)
+
+    # ---------------------------------------------------------------- events
+    @on(DataTable.RowHighlighted)
+    def _row_highlighted(self, event: DataTable.RowHighlighted) -> None:
+        if event.cursor_row is not None and event.cursor_row != self.current and 0 <= event.cursor_row < len(self.rows()):
+            self.current = event.cursor_row
+            self.load_form()
+
+    @on(DataTable.RowSelected)
+    def _row_selected(self, event: DataTable.RowSelected) -> None:
+        self.focus_form()
+
+    def focus_form(self) -> None:
+        if self.rows():
+            self.query_one(f"#{self.NAME}-{self.FIELDS[0].key}-input").focus()
+
+    def entry(self, key: str, text: str, row: dict[str, Any]) -> Entry:
+        """Evaluate one field's text (subclasses)."""
+        raise NotImplementedError
+
+    def store(self, key: str, entry: Entry, row: dict[str, Any]) -> None:
+        row[key] = entry.stored
+
+    @on(Input.Changed)
+    @on(Cycler.Changed)
+    def _field_changed(self, event: Input.Changed | Cycler.Changed) -> None:
+        widget_id = event.control.id or ""
+        if not widget_id.startswith(f"{self.NAME}-") or not self.rows():
+            return
+        event.stop()
+        key = widget_id[len(self.NAME) + 1:].removesuffix("-input")
+        row = self.rows()[self.current]
+        e = self.entry(key, event.value, row)
+        self.store(key, e, row)
+        self.doc.dirty = True
+        self.query_one(f"#{self.NAME}-{key}", FieldRow).show(e.note, e.error)
+        self.refresh_row()
+        self.post_message(CaseEdited(f"{self.NAME}[{self.current}].{key}"))
+
+    # ---------------------------------------------------------------- helpers for subclasses
+    def clock(self):  # noqa: ANN201
+        return case_clock(self.doc.raw)
+
+    def anchor(self) -> float | None:
+        return anchor_for(self.doc.raw, self.NAME, self.current, self.clock())
+
+    def time_of(self, text: Any) -> float | None:
+        return parsed_time(self.clock(), text)
+
+    def qty(self, text: str, kind: str, unit: str, field: str) -> Entry:
+        return quantity_entry(text, kind, unit, field)
+
+    def time(self, text: str, field: str) -> Entry:
+        return time_entry(text, self.anchor(), self.clock(), field)
+
+    def infusion(self, text: str, start: float | None, field: str) -> Entry:
+        return infusion_entry(text, start, self.clock(), field)
+
+    # ---------------------------------------------------------------- actions
+    def new_row(self) -> dict[str, Any]:
+        raise NotImplementedError
+
+    def action_add(self) -> None:
+        """Add a row after the last one, pre-filled from it, and start editing it."""
+        at = len(self.rows())
+        self.doc.insert_rows(self.NAME, at, [self.new_row()])
+        self.current = at
+        self.reload(at)
+        self.post_message(CaseEdited(f"add {self.NAME}"))
+        self.focus_form()
+
+    def action_delete(self) -> None:
+        if not self.rows():
+            return
+        self.doc.delete_row(self.NAME, self.current)
+        self.reload(max(self.current - 1, 0) if self.current >= len(self.rows()) else self.current)
+        self.post_message(CaseEdited(f"delete {self.NAME}"))
+        self.app.notify("Row deleted: press u to undo.", timeout=4)
+
+    def action_undo(self) -> None:
+        what = self.doc.undo()
+        if not what:
+            self.app.notify("Nothing to undo.", timeout=3)
+            return
+        self.reload()
+        self.post_message(CaseEdited("undo"))
+        self.app.notify(f"Undone: {what}", timeout=4)
+
+    def action_to_table(self) -> None:
+        self.query_one(DataTable).focus()

@@ -1,0 +1,94 @@
+"""One entry line: label, field, and a note that gives the unit, the reading or the reason it fails."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+from textual.app import ComposeResult
+from textual.containers import Horizontal
+from textual.widgets import Input, Label
+
+from tdmtui.ui.widgets.cycler import Cycler
+
+
+@dataclass(frozen=True)
+class FieldSpec:
+    """What one field edits.
+
+    Attributes:
+        key: a short id, unique in its section (also the widget id suffix).
+        label: shown left of the field.
+        kind: ``quantity:<unit kind>``, ``time``, ``infusion``, ``text`` or ``choice``.
+        unit: the unit a bare number takes (quantities) or "" .
+        options: the words of a ``choice`` field.
+        hint: shown in the note while the field is empty.
+    """
+
+    key: str
+    label: str
+    kind: str
+    unit: str = ""
+    options: tuple[str, ...] = ()
+    hint: str = ""
+
+
+class FieldRow(Horizontal):
+    """A label, an input (or a choice) and the note beside it."""
+
+    DEFAULT_CSS = """
+    FieldRow { height: 1; }
+    FieldRow > .field-label { width: 12; }
+    FieldRow > Input { width: 20; }
+    FieldRow > Cycler { width: 20; }
+    FieldRow > .field-note { width: 1fr; color: $text-muted; }
+    FieldRow.-bad > .field-note { color: $text-error; text-style: bold; }
+    FieldRow.-bad > .field-note:nocolor { text-style: bold reverse; }
+    """
+
+    def __init__(self, spec: FieldSpec, value: Any = "", *, prefix: str = "f") -> None:
+        super().__init__(id=f"{prefix}-{spec.key}")
+        self.spec = spec
+        self._value = "" if value is None else str(value)
+
+    def compose(self) -> ComposeResult:
+        yield Label(self.spec.label, classes="field-label")
+        if self.spec.kind == "choice":
+            yield Cycler(self.spec.options, self._value, id=f"{self.id}-input")
+        else:
+            yield Input(self._value, placeholder=self.spec.unit or self.spec.hint, compact=True, id=f"{self.id}-input",
+                        select_on_focus=False)
+        yield Label(self._idle_note(), classes="field-note", markup=False)
+
+    def _idle_note(self) -> str:
+        if self.spec.unit:
+            return self.spec.unit
+        try:
+            empty = not self.text
+        except Exception:  # noqa: BLE001 - before mount
+            empty = not self._value
+        return self.spec.hint if empty else ""
+
+    @property
+    def text(self) -> str:
+        """What the field holds now."""
+        widget = self.query_one(f"#{self.id}-input")
+        return widget.value if isinstance(widget, (Input, Cycler)) else ""
+
+    def load(self, value: Any) -> None:
+        """Show a stored value without posting a change that edits the case."""
+        widget = self.query_one(f"#{self.id}-input")
+        text = "" if value is None else str(value)
+        with widget.prevent(Input.Changed, Cycler.Changed):
+            widget.value = text
+        if isinstance(widget, Input):
+            widget.cursor_position = len(text)
+        self.show("", "")
+
+    def show(self, note: str, error: str) -> None:
+        """Show the reading (note) or the reason it fails (error); marks the field."""
+        self.set_class(bool(error), "-bad")
+        widget = self.query_one(f"#{self.id}-input")
+        widget.set_class(bool(error), "-invalid")
+        text = f"! {error}" if error else (note or self._idle_note())
+        self.query_one(".field-note", Label).update(text)

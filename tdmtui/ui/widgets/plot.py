@@ -1,0 +1,120 @@
+"""Concentration-time plot widget: braille curves, glyph markers, a legend.
+
+Monochrome-safe: each element differs by glyph or line pattern, not colour:
+fitted curve solid braille, proposed regimen dashed braille, 90 % band
+sparse dots, levels "o" (used), "x" (set aside), "v" (below the limit of
+quantification), target limits "-" lines, "now" a "|" line.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from rich.text import Text
+from textual.widget import Widget
+
+from tdmtui.ui.widgets.canvas import BrailleCanvas, dashed, solid, sparse
+from tdmtui.ui.widgets.plotdata import PlotData
+
+LEGEND = "o level  x set aside  v <LOQ  \u28c0\u28c0 fitted  \u28c0 \u28c0 plan  \u2801 90% band  - target  | now"
+MARK = {"used": "o", "aside": "x", "blq": "v"}
+Y_LABEL_W = 6
+
+
+def draw(data: PlotData, cols: int, rows: int) -> BrailleCanvas:
+    """Rasterise PlotData onto a canvas of cols x rows cells."""
+    canvas = BrailleCanvas(cols, rows, data.x0, data.x1, 0.0, data.y_max())
+    xs = canvas.dot_xs()
+    if data.target:
+        canvas.hguide(data.target[0], "-", "target")
+        canvas.hguide(data.target[1], "-", "target")
+    canvas.vguide(data.now, "|", "now")
+    if data.band is not None:
+        bt, lo, hi = data.band
+        inside = (xs >= bt[0]) & (xs <= bt[-1])
+        canvas.curve("band", np.interp(xs, bt, lo), sparse, inside)
+        canvas.curve("band", np.interp(xs, bt, hi), sparse, inside)
+    canvas.curve("fit", np.interp(xs, data.t, data.fit, left=np.nan, right=np.nan), solid)
+    if data.plan is not None:
+        canvas.curve("plan", np.interp(xs, data.t, data.plan, left=np.nan, right=np.nan), dashed)
+    for t, c, kind in data.levels:
+        if data.x0 <= t <= data.x1:
+            canvas.marker(t, c, MARK[kind], "level" if kind == "used" else "aside")
+    return canvas
+
+
+def plot_lines(data: PlotData, width: int, height: int) -> list[tuple[str, list[tuple[str, str]]]]:
+    """The whole plot as lines of (axis label, cells): canvas, time axis, legend."""
+    rows = max(height - 2, 2)
+    cols = max(width - Y_LABEL_W - 1, 10)
+    canvas = draw(data, cols, rows)
+    cells = canvas.cells()
+    top = data.y_max()
+    out = []
+    for r, line in enumerate(cells):
+        label = ""
+        if r == 0:
+            label = f"{top:.0f}"
+        elif r == rows // 2:
+            label = f"{top / 2:.0f}"
+        elif r == rows - 1:
+            label = "0"
+        out.append((label, line))
+    fmt = data.fmt or (lambda h: f"{h:.0f} h")
+    left, right = fmt(data.x0)[5:16].replace("T", " "), fmt(data.x1)[5:16].replace("T", " ")
+    now = "now " + fmt(data.now)[11:16]
+    axis = [" "] * cols
+    for i, ch in enumerate(left):
+        if i < cols:
+            axis[i] = ch
+    start = cols - len(right)
+    for i, ch in enumerate(right):
+        if 0 <= start + i < cols:
+            axis[start + i] = ch
+    pos = min(max(canvas.dot_x(data.now) // 2 - len(now) // 2, len(left) + 1), cols - len(right) - len(now) - 1)
+    if pos > len(left):
+        for i, ch in enumerate(now):
+            axis[pos + i] = ch
+    out.append(("mg/L", [(ch, "axis") for ch in axis]))
+    out.append(("", [(ch, "legend") for ch in LEGEND[: width - Y_LABEL_W - 1]]))
+    return out
+
+
+class ConcPlot(Widget, can_focus=True):
+    """The concentration-time plot; call :meth:`show` with PlotData or None."""
+
+    COMPONENT_CLASSES = {"plot--fit", "plot--plan", "plot--band", "plot--level", "plot--aside",
+                         "plot--target", "plot--now", "plot--axis"}
+    DEFAULT_CSS = """
+    ConcPlot { height: 1fr; }
+    ConcPlot .plot--fit { color: $accent; text-style: bold; }
+    ConcPlot .plot--plan { color: $success; }
+    ConcPlot .plot--band { color: $text-muted; }
+    ConcPlot .plot--level { color: $warning; text-style: bold; }
+    ConcPlot .plot--aside { color: $text-muted; }
+    ConcPlot .plot--target { color: $success-darken-2; }
+    ConcPlot .plot--now { color: $text-muted; }
+    ConcPlot .plot--axis { color: $text-muted; }
+    """
+
+    def __init__(self, *, id: str | None = None) -> None:  # noqa: A002
+        super().__init__(id=id)
+        self.data: PlotData | None = None
+
+    def show(self, data: PlotData | None) -> None:
+        """Draw new data (None: no estimate to plot)."""
+        self.data = data
+        self.refresh()
+
+    def render(self) -> Text:
+        w, h = self.size.width, self.size.height
+        if self.data is None:
+            return Text("No fitted curve yet: the plot appears when an estimate exists.")
+        styles = {name.split("--")[1]: self.get_component_rich_style(name) for name in self.COMPONENT_CLASSES}
+        text = Text(no_wrap=True, overflow="crop")
+        for i, (label, cells) in enumerate(plot_lines(self.data, w, h)):
+            if i:
+                text.append("\n")
+            text.append(f"{label:>{Y_LABEL_W}} ")
+            for ch, layer in cells:
+                text.append(ch, styles.get(layer) or "")
+        return text

@@ -1,0 +1,98 @@
+"""The numbers a concentration plot needs, taken from an engine Outcome.
+
+Built in the worker thread (numpy only), so the widget just draws.
+Curves: the fitted model over the real doses up to "now" (as_of), and the
+same model with the proposed regimen added after it; the 90 % band where
+the engine gives one; measured levels; the target concentration band where
+the case or library gives one in mg/L (trough, peak or Css).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+
+#: Hours of history shown before "now" at most, and of plan after it at least.
+HISTORY_H = 72.0
+PLAN_MIN_H = 24.0
+SAMPLES = 480
+
+
+@dataclass
+class PlotData:
+    """Times in hours since the epoch, concentrations in mg/L."""
+
+    x0: float
+    x1: float
+    now: float
+    t: np.ndarray
+    fit: np.ndarray
+    plan: np.ndarray | None
+    band: tuple[np.ndarray, np.ndarray, np.ndarray] | None
+    levels: list[tuple[float, float, str]] = field(default_factory=list)  # (t, conc, "used"|"aside"|"blq")
+    target: tuple[float, float, str] | None = None
+    fmt: Any = None  # clock.format
+
+    def y_max(self) -> float:
+        values = [float(np.nanmax(self.fit))] if self.fit.size else [1.0]
+        if self.plan is not None and self.plan.size:
+            values.append(float(np.nanmax(self.plan)))
+        values += [c for _, c, _ in self.levels]
+        if self.target:
+            values.append(self.target[1])
+        return max(values + [1.0]) * 1.1
+
+
+def _target_band(case: Any, rules: Any) -> tuple[float, float, str] | None:
+    t = case.target
+    for name in ("trough", "peak", "css"):
+        band = getattr(t, name, None)
+        if band:
+            return band[0], band[1], name
+    if rules is not None:
+        for name in ("trough", "peak", "css"):
+            value = rules.get(f"targets.{name}")
+            if isinstance(value, list) and len(value) == 2 and name != "css":
+                return float(value[0]), float(value[1]), name
+    return None
+
+
+def build_plot_data(outcome: Any) -> PlotData | None:
+    """PlotData for an Outcome with a fitted estimate, else None."""
+    if outcome is None or outcome.params is None:
+        return None
+    from tdmtui.core import models
+
+    case = outcome.case
+    now = case.as_of
+    starts = [d.start for d in case.doses] + [lv.time for lv in case.levels]
+    if not starts:
+        return None
+    x0 = max(min(starts), now - HISTORY_H)
+    plan = outcome.plan
+    x1 = now + PLAN_MIN_H
+    if plan is not None and len(plan):
+        x1 = max(x1, float(np.max(plan.start + plan.duration)) + 2.0)
+    x1 = max(x1, max(starts) + 2.0)
+    t = np.linspace(x0, x1, SAMPLES)
+    fit = np.asarray(models.concentration(outcome.params, outcome.history, t), dtype=float)
+    fit = np.where(t <= now, fit, np.nan)
+    plan_c = None
+    if plan is not None and len(plan):
+        both = outcome.history.concat(plan)
+        plan_c = np.asarray(models.concentration(outcome.params, both, t), dtype=float)
+        plan_c = np.where(t >= now, plan_c, np.nan)
+    else:
+        cont = np.asarray(models.concentration(outcome.params, outcome.history, t), dtype=float)
+        plan_c = np.where(t >= now, cont, np.nan)
+    band = None
+    if outcome.band is not None:
+        bt, lo, hi = (np.asarray(a, dtype=float) for a in outcome.band)
+        band = (bt, lo, hi)
+    levels = []
+    for lv in case.levels:
+        kind = "aside" if not lv.use else ("blq" if lv.below_loq else "used")
+        levels.append((lv.time, lv.conc, kind))
+    return PlotData(x0, x1, now, t, fit, plan_c, band, levels, _target_band(case, outcome.rules), case.clock.format)
