@@ -98,6 +98,7 @@ def compute(case: Case, protocol: Protocol | None = None, method: str | None = N
             return _stopped(case, protocol, rules, renal, cur, alerts, failures, ctx)
         raise
     alerts += methods.compare(ctx, estimates, used)
+    alerts += methods.used_alerts(ctx, estimates[used])
     est = estimates[used]
     weight = p.weight
     result = _header(case, protocol, renal, rules, cur)

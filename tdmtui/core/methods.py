@@ -11,14 +11,14 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from tdmtui.core import twolevel
+from tdmtui.core import bayes_method, twolevel
 from tdmtui.core.alerts import Alert
 from tdmtui.core.case import Case, Level
 from tdmtui.core.course import CurrentRegimen, level_exclusion
 from tdmtui.core.errors import ConvergenceError, NoEstimateError
 from tdmtui.core.estimates import Estimate, textbook_population
 from tdmtui.core.library import Rules
-from tdmtui.core.models import DoseArrays, concentration
+from tdmtui.core.models import DoseArrays
 from tdmtui.core.patient import RenalSummary
 
 if TYPE_CHECKING:
@@ -35,6 +35,7 @@ class MethodContext:
     history: DoseArrays
     usable: list[Level]
     current: CurrentRegimen | None
+    model_flags: list[Alert] | None = None
 
 
 def _from_twolevel(r: twolevel.TwoLevelResult) -> Estimate:
@@ -54,15 +55,32 @@ def run_all(ctx: MethodContext) -> tuple[dict[str, Estimate], dict[str, str]]:
         ("population", lambda: textbook_population(ctx.rules, ctx.renal.crcl_ml_min, ctx.case.patient.weight,
                                                    ctx.renal.dosing_weight_kg)),
     ]
+    if len(ctx.usable) >= 3:
+        attempts.insert(2, ("least-squares", lambda: _least_squares(ctx)))
+    else:
+        why["least-squares"] = f"needs three or more usable levels; {len(ctx.usable)} available"
     for name, fn in attempts:
-        if rrt and name != "bayesian":
+        if rrt:
             why[name] = "not valid with renal replacement therapy (Cockcroft-Gault and two-level methods do not apply)"
             continue
         try:
             est[name] = fn()
         except (NoEstimateError, ConvergenceError) as exc:
             why[name] = getattr(exc, "why", str(exc))
+    b_est, b_why, flags = bayes_method.run(ctx)
+    est.update(b_est)
+    why.update(b_why)
+    ctx.model_flags = flags
     return est, why
+
+
+def _least_squares(ctx: MethodContext) -> Estimate:
+    from tdmtui.core import lsq
+
+    obs = [lv for lv in ctx.usable]
+    fit = lsq.least_squares_fit(ctx.history, [lv.time for lv in obs], [lv.conc for lv in obs])
+    return Estimate("least-squares", fit.params, [lv.index for lv in obs], fit.working,
+                    f"weighted least squares through {len(obs)} levels, no prior")
 
 
 def compare(ctx: MethodContext, est: dict[str, Estimate], used: str) -> list[Alert]:
@@ -82,6 +100,13 @@ def compare(ctx: MethodContext, est: dict[str, Estimate], used: str) -> list[Ale
                              f"(over {limit:.0%}): trust Sawchuk-Zaske less when the regimen was not at steady state "
                              f"({b.assumption}); the two-level fit uses the whole dose history"))
     return out
+
+
+def used_alerts(ctx: MethodContext, est: Estimate) -> list[Alert]:
+    """Alerts that belong to the method actually used (model cautions, poor fit)."""
+    if est.method != "bayesian":
+        return []
+    return list(ctx.model_flags or []) + bayes_method.residual_alerts(est, ctx.rules)
 
 
 def level_table(ctx: MethodContext) -> list[dict[str, Any]]:
@@ -126,7 +151,10 @@ def concentration_band(ctx: MethodContext, est: Estimate, plan: DoseArrays | Non
         return None
     t0 = float(doses.start[0])
     t1 = max(ctx.case.as_of, float(doses.start[-1] + doses.duration[-1])) + 24.0
+    from tdmtui.core.bayes import Design, batch_concentration
+
     t = np.linspace(t0, t1, 240)
-    curves = np.array([concentration(s, doses, t) for s in est.samples[:400]])
+    s, n = est.samples, 400
+    curves = batch_concentration(s.cl[:n], s.v1[:n], s.q[:n], s.v2[:n], Design.build(doses, t))
     lo, hi = np.percentile(curves, [5, 95], axis=0)
     return t, lo, hi

@@ -65,8 +65,12 @@ def two_level(doses: DoseArrays, levels: list[Level], clock_fmt=None) -> TwoLeve
     if b.time - a.time < 0.25:
         raise NoEstimateError(m, "the two most recent usable levels are less than 15 min apart; draw them further apart")
     ta, tb = a.time, b.time
-    fa = np.array([onecomp.concentration(k, 1.0, doses, ta) for k in KE_GRID], dtype=float).reshape(-1)
-    fb = np.array([onecomp.concentration(k, 1.0, doses, tb) for k in KE_GRID], dtype=float).reshape(-1)
+    from tdmtui.core.bayes import Design, batch_concentration
+
+    # C(t) for every ke on the grid at once, with V = 1 L (CL = ke)
+    both = batch_concentration(KE_GRID, np.ones_like(KE_GRID), np.zeros_like(KE_GRID), np.zeros_like(KE_GRID),
+                               Design.build(doses, [ta, tb]))
+    fa, fb = both[:, 0], both[:, 1]
     if np.any(fa <= 0) or np.any(fb <= 0):
         raise NoEstimateError(m, "a level lies before any dose could reach it")
     target = math.log(a.conc / b.conc)

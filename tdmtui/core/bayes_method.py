@@ -1,0 +1,165 @@
+"""Bayesian and model-based population estimates in the orchestrator's shape.
+
+For each population model the library offers for the drug (popmodels), a MAP
+fit on the case's levels (bayes) gives one :class:`Estimate` named
+``bayesian:<model id>``, with 90 % intervals from the Laplace posterior, the
+probability that the current regimen meets its target, observed-vs-predicted
+residuals and how far the estimate moved from the population value. The
+primary model (``auto``'s model when one qualifies, else the first offered one
+that is not excluded) is also returned as ``bayesian``; its a priori
+prediction as ``population:<model id>``.
+
+Levels: quantified or censored (below/above limits) levels that are in use,
+drawn after the first dose and not during an infusion. One-compartment models
+leave out levels in the post-distribution window; two-compartment models may
+use them (case-format.md).
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+from tdmtui.core.alerts import Alert
+from tdmtui.core.errors import ConvergenceError, NoEstimateError
+from tdmtui.core.estimates import Estimate
+from tdmtui.core.working import WorkingStep
+
+#: Posterior draws for intervals and target probability (recorded with the seed).
+N_DRAWS = 2000
+
+
+def _levels_for(ctx: Any, two_compartment: bool) -> list:
+    from tdmtui.core.course import level_exclusion
+
+    out = []
+    for lv in ctx.case.levels:
+        if lv.time > ctx.case.as_of:
+            continue
+        why = level_exclusion(ctx.case, lv, ctx.rules)
+        if why is None or why[0] == "level-censored" or (two_compartment and why[0] == "level-in-distribution"):
+            out.append(lv)
+    return out
+
+
+def _target_bands(ctx: Any) -> dict[str, tuple[float, float]]:
+    t = ctx.case.target
+    if t.auc24 or t.peak or t.trough:
+        return {k: v for k, v in (("auc24", t.auc24), ("peak", t.peak), ("trough", t.trough)) if v}
+    r = ctx.rules
+    if "targets.auc24" in r:
+        return {"auc24": tuple(r.value("targets.auc24"))}
+    bands = {}
+    for k in ("peak", "trough"):
+        if f"targets.{k}" in r:
+            bands[k] = tuple(r.value(f"targets.{k}"))
+    return bands
+
+
+def _estimate(name: str, fit: Any, levels: list, ctx: Any, offer: Any, a_priori: bool) -> Estimate:
+    from tdmtui.core import bayes
+
+    model = fit.model
+    samples = bayes.sample_posterior(fit, N_DRAWS)
+    cur = ctx.current
+    iv = bayes.regimen_intervals(samples, cur.dose_mg if cur else None, cur.interval_h if cur else None,
+                                 cur.infusion_h if cur else 0.0)
+    keys = {"ke": "ke_per_h", "vd": "vd_l", "cl": "cl_l_per_h", "auc24": "auc24_mg_h_per_l",
+            "peak": "peak_mg_per_l", "trough": "trough_mg_per_l"}
+    interval90 = {keys[k]: [lo, hi] for k, (lo, hi) in iv.items()}
+    prob = None
+    bands = _target_bands(ctx)
+    if cur is not None and bands:
+        prob = bayes.probability_of_target(samples, cur.dose_mg, cur.interval_h, cur.infusion_h, bands)
+    typ = fit.typical.params
+    steps = [WorkingStep("Model", f"{model.name}: {model.compartments}-compartment population model",
+                         model.citation, "", name)]
+    for note in fit.typical.notes:
+        steps.append(WorkingStep("Covariate", "the model's own covariate rule", note, "", name))
+    steps.append(WorkingStep("Population value", "typical CL and V from the covariates",
+                             f"CL {typ.cl:.4g} L/h, V1 {typ.v1:.4g} L" + (f", Q {typ.q:.4g} L/h, V2 {typ.v2:.4g} L" if typ.is_two_compartment else ""),
+                             f"ke {typ.ke:.4g} /h", name))
+    if not a_priori:
+        steps.append(WorkingStep("MAP estimate", "minimise sum (y - C)^2/Var + ln Var + eta' Omega^-1 eta "
+                                 "(censored levels: -2 ln P(below or above the limit))",
+                                 f"{len(levels)} level(s); {fit.message}; OFV {fit.objective:.4g}",
+                                 f"CL {fit.params.cl:.4g} L/h, Vss {fit.params.vss:.4g} L, ke {fit.params.ke:.4g} /h", name))
+        for r, lv in zip(fit.residuals(), levels):
+            steps.append(WorkingStep("Observed vs predicted", f"levels[{lv.index}] ({r['kind']})",
+                                     f"observed {r['observed']:.3g}, predicted {r['predicted']:.3g} mg/L",
+                                     f"residual {r['residual']:+.3g} mg/L", name))
+    extra: dict[str, Any] = {
+        "auto_eligible": model.status == "paper" and not offer.out_of_population and not offer.excluded,
+        "diagnostics": {
+            "residuals": [dict(r, field=f"levels[{lv.index}]") for r, lv in zip(fit.residuals(), levels)] if not a_priori else [],
+            "movement_sd": fit.movement(), "fold_change": fit.fold_change(), "narrowing": fit.narrowing(),
+            "flags": [a.to_dict() for a in offer.alerts],
+        },
+    }
+    model_info = {"id": model.id, "name": model.name, "citation": model.citation, "verification": model.status,
+                  "caution": model.caution if model.status != "paper" else "", "seed": fit.seed, "draws": N_DRAWS,
+                  "objective": fit.objective, "optimiser": fit.message,
+                  "eta": [float(e) for e in fit.eta], "eta_names": list(model.eta_names),
+                  "typical": {"cl_l_per_h": typ.cl, "v1_l": typ.v1, "q_l_per_h": typ.q, "v2_l": typ.v2},
+                  "covariates": {k: float(v) for k, v in fit.typical.covariates.items()}}
+    assumption = ("a priori: population values from covariates, no level used" if a_priori
+                  else f"MAP on {model.name} with {len(levels)} level(s)")
+    return Estimate("population" if a_priori else "bayesian", fit.params, [lv.index for lv in levels], steps,
+                    assumption, model=model_info, interval90=interval90, target_probability=prob,
+                    samples=samples, extra=extra)
+
+
+def run(ctx: Any) -> tuple[dict[str, Estimate], dict[str, str], list[Alert]]:
+    """Every offered model's MAP and a priori estimates; failures by name; the primary model's flags."""
+    from tdmtui.core import bayes, popmodels
+
+    p = ctx.case.patient
+    scr = ctx.renal.scr_measured_mg_dl
+    cov = popmodels.Covariates(p.age, p.sex, p.weight, p.height, scr, p.renal_replacement, p.conditions)
+    offers = popmodels.offered_models(ctx.case.drug, cov)
+    est: dict[str, Estimate] = {}
+    why: dict[str, str] = {}
+    if not offers:
+        why["bayesian"] = popmodels.not_available_reason(ctx.case.drug)
+        return est, why, []
+    auto, _ = popmodels.auto_model(ctx.case.drug, cov)
+    usable_offers = [o for o in offers if not o.excluded]
+    primary = next((o for o in usable_offers if auto is not None and o.model.id == auto.id),
+                   usable_offers[0] if usable_offers else None)
+    for o in offers:
+        key = f"bayesian:{o.model.id}"
+        if o.excluded:
+            why[key] = "; ".join(a.message for a in o.alerts if a.severity == "stop")
+            continue
+        levels = _levels_for(ctx, o.model.compartments == 2)
+        obs = bayes.Observations.from_lists([lv.time for lv in levels], [lv.conc for lv in levels],
+                                            [lv.below_loq for lv in levels], [lv.above_uloq for lv in levels])
+        try:
+            prior = bayes.population_fit(o.model, cov, ctx.history)
+            est[f"population:{o.model.id}"] = _estimate(f"population:{o.model.id}", prior, [], ctx, o, True)
+            if levels:
+                fit = bayes.map_fit(o.model, cov, ctx.history, obs)
+                est[key] = _estimate(key, fit, levels, ctx, o, False)
+            else:
+                why[key] = "no usable level for a Bayesian fit (the a priori estimate is shown as population)"
+        except (NoEstimateError, ConvergenceError) as exc:
+            why[key] = getattr(exc, "why", str(exc))
+    if primary is None:
+        why["bayesian"] = "every offered model is excluded for this patient"
+    elif f"bayesian:{primary.model.id}" in est:
+        est["bayesian"] = est.pop(f"bayesian:{primary.model.id}")
+    else:
+        why["bayesian"] = why.get(f"bayesian:{primary.model.id}", "no estimate")
+    flags = list(primary.alerts) if primary is not None else []
+    return est, why, flags
+
+
+def residual_alerts(e: Estimate, rules: Any) -> list[Alert]:
+    """A caution when a level is far from the Bayesian prediction (library ``methods.poor_fit_rel``)."""
+    limit = float(rules.value("methods.poor_fit_rel"))
+    out = []
+    for r in e.extra.get("diagnostics", {}).get("residuals", []):
+        if r["kind"] == "quantified" and r["predicted"] > 0 and abs(r["residual"]) / r["predicted"] > limit:
+            out.append(Alert("bayes-poor-fit", "caution", r["field"],
+                             f"observed {r['observed']:.3g} mg/L vs predicted {r['predicted']:.3g}: the model does not "
+                             "fit this level well; check its time and the doses before it"))
+    return out
