@@ -1,0 +1,330 @@
+"""Candidate regimens: the dose grid x the interval set, judged against the targets.
+
+Each candidate is a practical order: a dose on the rounding grid
+(``regimen.rounding_mg``), an interval from the interval set
+(``regimen.intervals_h``), and an infusion time no faster than the rate
+limit (``regimen.max_rate_mg_per_h``), no shorter than
+``regimen.min_infusion_h``, rounded up to ``regimen.infusion_step_h``. Doses
+above ``regimen.max_single_dose_mg`` or daily totals above
+``regimen.max_daily_dose_mg`` are never generated.
+
+Steady-state peak (end of infusion), trough (just before the next dose) and
+AUC24 come from the shared models (:func:`tdmtui.core.models.steady_state`,
+pk-sources.md 2.3); the peak at the target's draw time is the steady-state
+profile at that time (superposition, pk-sources.md 2.2). All are linear in
+the dose, so each (interval, infusion time) pair is evaluated once per mg.
+
+Choice rule (documented for the note):
+    1. A candidate is on target when its judged figure is inside the band:
+       ``auc`` AUC24 in band and trough under the ceiling where there is one;
+       ``peak-trough`` peak (at the reference time) in band and trough inside
+       the trough band (low 0 = a ceiling only); ``extended`` AUC24 and peak
+       in their bands where set, trough under the ceiling; ``continuous`` Css
+       in band.
+    2. The current interval is kept when a candidate on target exists at it
+       (change the dose, keep the interval: common practice, pk-sources.md W5
+       step 6). Extended-interval dosing takes the shortest interval on
+       target: the drug-free time sets the interval (pk-sources.md 2.4 and
+       W4, tau from the time to fall under the trough target).
+    3. Among those, the ones nearest the middle of the band (AUC24 for
+       ``auc``/``extended`` with an AUC band, peak for ``peak-trough`` and
+       ``extended`` without one, Css for ``continuous``) within
+       ``regimen.choice_tie_rel`` of the band width count as equally near.
+    4. Ties go to fewer doses a day, then to the smaller daily dose.
+    5. Alternatives (3 in all): the on-target candidate nearest the middle at
+       each neighbouring interval (nearest interval first), then the next
+       nearest ones.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, replace
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+
+from tdmtui.core.models import DoseArrays, PKParams, concentration, steady_state
+
+if TYPE_CHECKING:
+    from tdmtui.core.library import Rules
+    from tdmtui.core.regimen.targets import Targets
+
+N_ALTERNATIVES = 3
+
+
+@dataclass(frozen=True)
+class Candidate:
+    """One regimen and its predicted steady state.
+
+    Attributes:
+        dose_mg: dose, mg.
+        interval_h: interval, h.
+        infusion_h: infusion time, h.
+        peak: steady-state concentration at the end of infusion, mg/L.
+        trough: steady-state concentration just before the next dose, mg/L.
+        auc24: steady-state AUC24, mg*h/L.
+        peak_ref: steady-state concentration at the target's peak draw time, mg/L.
+        peak_ref_h: that draw time, h after the start of the dose.
+        on_target: judged on target.
+        distance: distance of the judged figure from the band middle / band width.
+        probability: fraction of posterior draws on target (None without draws).
+        interval90: 5th-95th percentile of each figure over the draws, or None.
+    """
+
+    dose_mg: float
+    interval_h: float
+    infusion_h: float
+    peak: float
+    trough: float
+    auc24: float
+    peak_ref: float
+    peak_ref_h: float
+    on_target: bool = False
+    distance: float = math.inf
+    probability: float | None = None
+    interval90: dict[str, list[float]] | None = None
+
+    @property
+    def doses_per_day(self) -> float:
+        return 24.0 / self.interval_h
+
+    @property
+    def daily_mg(self) -> float:
+        return self.dose_mg * 24.0 / self.interval_h
+
+    def predicted(self) -> dict[str, Any]:
+        """The contract's ``predicted`` object."""
+        out: dict[str, Any] = {"auc24_mg_h_per_l": self.auc24, "peak_mg_per_l": self.peak,
+                               "trough_mg_per_l": self.trough}
+        if abs(self.peak_ref_h - self.infusion_h) > 1e-9:
+            out["peak_at_reference_mg_per_l"] = self.peak_ref
+            out["peak_reference_h_after_start"] = self.peak_ref_h
+        if self.interval90:
+            out["interval90"] = self.interval90
+        if self.probability is not None:
+            out["target_probability"] = self.probability
+        return out
+
+    def to_dict(self) -> dict[str, Any]:
+        """A row of the candidate table."""
+        return {"dose_mg": self.dose_mg, "interval_h": self.interval_h, "infusion_h": self.infusion_h,
+                "peak_mg_per_l": self.peak, "trough_mg_per_l": self.trough,
+                "auc24_mg_h_per_l": self.auc24, "peak_at_reference_mg_per_l": self.peak_ref,
+                "on_target": self.on_target, "distance": self.distance, "probability": self.probability}
+
+
+def infusion_time(dose: float, rules: Rules) -> float:
+    """Infusion time, h: the rate limit and the minimum time, rounded up to the step.
+
+    ``max(min_infusion_h, dose / max_rate)`` rounded up to ``infusion_step_h``
+    (rate 0 = no limit). Vancomycin: no faster than 1 g/h (pk-sources.md 3.1).
+    """
+    t = float(rules.value("regimen.min_infusion_h"))
+    rate = float(rules.get("regimen.max_rate_mg_per_h", 0.0) or 0.0)
+    if rate > 0:
+        t = max(t, dose / rate)
+    step = float(rules.get("regimen.infusion_step_h", 0.0) or 0.0)
+    if step > 0:
+        t = math.ceil(t / step - 1e-9) * step
+    return t
+
+
+def dose_grid(rules: Rules, interval: float) -> np.ndarray:
+    """Doses on the rounding grid under the single and daily caps, mg."""
+    step = float(rules.value("regimen.rounding_mg"))
+    top = float(rules.value("regimen.max_single_dose_mg"))
+    top = min(top, float(rules.value("regimen.max_daily_dose_mg")) * interval / 24.0)
+    n = int(math.floor(top / step + 1e-9))
+    return step * np.arange(1, n + 1, dtype=float)
+
+
+def terminal_rate(params: PKParams) -> float:
+    """Slowest disposition rate constant, 1/h (ke, or beta for two compartments)."""
+    if params.is_two_compartment:
+        from tdmtui.core.models.twocomp import macro_constants
+
+        return float(macro_constants(params.cl, params.v1, params.q, params.v2)[1])
+    return params.ke
+
+
+def ss_at(params: PKParams, dose: float, tau: float, tinf: float, u: Any) -> np.ndarray:
+    """Steady-state concentration ``u`` h after the start of a dose (0 <= u <= tau), mg/L.
+
+    Superposition (pk-sources.md 2.2) of the dose at 0 and every earlier dose
+    back until the terminal exponential has decayed by e^-25.
+    """
+    n = int(math.ceil(25.0 / (terminal_rate(params) * tau))) + 1
+    starts = -tau * np.arange(n - 1, -1, -1, dtype=float)
+    hist = DoseArrays(starts, np.full(n, float(tinf)), np.full(n, float(dose)))
+    return concentration(params, hist, np.asarray(u, dtype=float))
+
+
+def unit_values(params: PKParams, tau: float, tinf: float, t_ref: float) -> tuple[float, float, float, float]:
+    """(peak, trough, auc24, peak at t_ref) of 1 mg every tau h over tinf h."""
+    ss = steady_state(params, 1.0, tau, tinf)
+    ref = ss.peak if abs(t_ref - tinf) < 1e-12 else float(ss_at(params, 1.0, tau, tinf, t_ref))
+    return ss.peak, ss.trough, ss.auc24, ref
+
+
+def judge(targets: Targets, peak_ref: np.ndarray, trough: np.ndarray, auc24: np.ndarray,
+          dose: np.ndarray, dose_ref: float | None = None) -> tuple[np.ndarray, np.ndarray]:
+    """On-target flags and distances from the band middle (module docstring, rule 1-2).
+
+    ``dose_ref`` (mg) is the fallback figure for extended-interval dosing with
+    no AUC or peak band: the distance is then from the mg/kg dose.
+    """
+    on = np.ones(np.shape(dose), dtype=bool)
+    t = targets
+
+    def inside(x: np.ndarray, band: tuple[float, float]) -> np.ndarray:
+        return (x >= band[0] - 1e-9) & (x <= band[1] + 1e-9)
+
+    def dist(x: np.ndarray, band: tuple[float, float]) -> np.ndarray:
+        width = max(band[1] - band[0], 1e-9)
+        return np.abs(x - 0.5 * (band[0] + band[1])) / width
+
+    if t.mode == "continuous":
+        css = auc24 / 24.0
+        return inside(css, t.css), dist(css, t.css)
+    if t.trough:
+        on &= inside(trough, t.trough)
+    if t.mode == "auc":
+        return on & inside(auc24, t.auc24), dist(auc24, t.auc24)
+    if t.mode == "peak-trough":
+        return on & inside(peak_ref, t.peak), dist(peak_ref, t.peak)
+    if t.auc24:
+        on &= inside(auc24, t.auc24)
+    if t.peak:
+        on &= inside(peak_ref, t.peak)
+    if t.auc24:
+        return on, dist(auc24, t.auc24)
+    if t.peak:
+        return on, dist(peak_ref, t.peak)
+    ref = dose_ref or 1.0
+    return on, np.abs(dose - ref) / ref
+
+
+def evaluate(params: PKParams, targets: Targets, dose: float, tau: float, tinf: float,
+             dose_ref: float | None = None) -> Candidate:
+    """One regimen's steady state, judged."""
+    t_ref = targets.peak_time(tinf)
+    pk, tr, au, ref = (dose * x for x in unit_values(params, tau, tinf, t_ref))
+    on, d = judge(targets, np.array([ref]), np.array([tr]), np.array([au]), np.array([dose]), dose_ref)
+    return Candidate(dose, tau, tinf, pk, tr, au, ref, t_ref, bool(on[0]), float(d[0]))
+
+
+def search(params: PKParams, targets: Targets, rules: Rules, intervals: list[float],
+           dose_ref: float | None = None) -> list[Candidate]:
+    """Every practical candidate at the given intervals, judged (module docstring)."""
+    out: list[Candidate] = []
+    for tau in intervals:
+        doses = dose_grid(rules, tau)
+        if doses.size == 0:
+            continue
+        tinfs = np.array([infusion_time(d, rules) for d in doses])
+        for tinf in np.unique(tinfs):
+            if tinf > tau:
+                continue
+            sel = doses[tinfs == tinf]
+            t_ref = targets.peak_time(float(tinf))
+            pk, tr, au, ref = unit_values(params, float(tau), float(tinf), t_ref)
+            on, dist = judge(targets, sel * ref, sel * tr, sel * au, sel, dose_ref)
+            for i, d in enumerate(sel):
+                out.append(Candidate(float(d), float(tau), float(tinf), d * pk, d * tr, d * au, d * ref,
+                                     t_ref, bool(on[i]), float(dist[i])))
+    return out
+
+
+def choose(cands: list[Candidate], current_interval: float | None, tie_rel: float,
+           shortest_first: bool = False) -> tuple[Candidate | None, list[Candidate]]:
+    """The chosen candidate and its alternatives (module docstring, rules 2-5)."""
+    on = [c for c in cands if c.on_target]
+    if not on:
+        return None, []
+    pool = on
+    if current_interval is not None:
+        same = [c for c in on if abs(c.interval_h - current_interval) < 1e-9]
+        pool = same or on
+    if shortest_first:
+        low = min(c.interval_h for c in pool)
+        pool = [c for c in pool if c.interval_h == low]
+    best = min(c.distance for c in pool)
+    tied = [c for c in pool if c.distance <= best + tie_rel + 1e-12]
+
+    def pref(c: Candidate) -> tuple:
+        return (c.doses_per_day, c.daily_mg, c.distance)
+
+    chosen = min(tied, key=pref)
+    others = [c for c in on if c is not chosen]
+    near = sorted(others, key=lambda c: (abs(math.log(c.interval_h / chosen.interval_h)), c.distance))
+    alts: list[Candidate] = []
+    seen = {chosen.interval_h}
+    for c in near:
+        if c.interval_h not in seen and len(alts) < N_ALTERNATIVES:
+            alts.append(c)
+            seen.add(c.interval_h)
+    for c in sorted(others, key=lambda c: c.distance):
+        if len(alts) >= N_ALTERNATIVES:
+            break
+        if c not in alts:
+            alts.append(c)
+    return chosen, alts
+
+
+def _draw_values(samples: Any, c: Candidate) -> tuple[np.ndarray, ...]:
+    """(peak, trough, auc24, peak at reference, weights or None) per draw for one candidate.
+
+    Batched draws (an object with ``steady_state(dose, tau, tinf, peak_delay_h)``
+    returning arrays, and ``weights``) are used as they are; a plain list of
+    :class:`PKParams` goes through the shared models one by one.
+    """
+    delay = c.peak_ref_h - c.infusion_h
+    if hasattr(samples, "steady_state") and hasattr(samples, "cl"):
+        ss = samples.steady_state(c.dose_mg, c.interval_h, c.infusion_h)
+        ref = samples.steady_state(c.dose_mg, c.interval_h, c.infusion_h, delay)["peak"] if delay > 1e-12 else ss["peak"]
+        return ss["peak"], ss["trough"], ss["auc24"], ref, getattr(samples, "weights", None)
+    vals = np.array([unit_values(p, c.interval_h, c.infusion_h, c.peak_ref_h) for p in samples]) * c.dose_mg
+    return vals[:, 0], vals[:, 1], vals[:, 2], vals[:, 3], None
+
+
+def _quantiles(x: np.ndarray, w: np.ndarray | None) -> list[float]:
+    """5th and 95th percentiles, weighted (mid-point CDF) when weights are given."""
+    if w is None:
+        return [float(np.percentile(x, 5.0)), float(np.percentile(x, 95.0))]
+    order = np.argsort(x)
+    cdf = np.cumsum(w[order]) - 0.5 * w[order]
+    return [float(np.interp(0.05, cdf, x[order])), float(np.interp(0.95, cdf, x[order]))]
+
+
+def with_draws(cand: Candidate, samples: Any, targets: Targets, dose_ref: float | None = None) -> Candidate:
+    """Add the 90 % interval and probability of target over posterior draws."""
+    if samples is None or len(samples) == 0:
+        return cand
+    pk, tr, au, ref, w = _draw_values(samples, cand)
+    on, _ = judge(targets, ref, tr, au, np.full(len(pk), cand.dose_mg), dose_ref)
+    iv = {"auc24_mg_h_per_l": _quantiles(au, w), "peak_mg_per_l": _quantiles(pk, w),
+          "trough_mg_per_l": _quantiles(tr, w)}
+    if abs(cand.peak_ref_h - cand.infusion_h) > 1e-9:
+        iv["peak_at_reference_mg_per_l"] = _quantiles(ref, w)
+    prob = float(np.mean(on)) if w is None else float(np.sum(w[on]))
+    return replace(cand, probability=prob, interval90=iv)
+
+
+def textbook_redesign(ke: float, v: float, tinf: float, cmax: float, cmin: float,
+                      intervals: list[float], rounding: float) -> dict[str, float]:
+    """Textbook peak/trough redesign (pk-sources.md 2.4, Bauer's form).
+
+    tau = ln(Cmax/Cmin)/ke + t' (rounded to the nearest interval in the set);
+    k0 = Cmax ke V (1 - e^(-ke tau)) / (1 - e^(-ke t')); dose = k0 t' rounded
+    to the grid.
+
+    Returns:
+        ``tau_exact``, ``tau``, ``dose_exact`` (mg) and ``dose`` (mg).
+    """
+    tau_exact = math.log(cmax / cmin) / ke + tinf
+    tau = min(intervals, key=lambda x: (abs(x - tau_exact), x))
+    k0 = cmax * ke * v * -math.expm1(-ke * tau) / -math.expm1(-ke * tinf)
+    dose_exact = k0 * tinf
+    return {"tau_exact": tau_exact, "tau": float(tau), "dose_exact": dose_exact,
+            "dose": round(dose_exact / rounding) * rounding}

@@ -1,0 +1,313 @@
+"""Regimen design: mode, targets, candidates, choice, hand-over, loading (the orchestration).
+
+Mode (how a regimen is judged, targets.py):
+    vancomycin ``continuous`` when the case targets a Css, the standing order is
+    a continuous infusion, or the protocol's ``regimen.default_mode`` says so;
+    else ``auc``. Aminoglycosides: ``extended`` when the method is the
+    nomogram; ``peak-trough`` when the case targets a peak or trough (and no
+    AUC); ``extended`` when the standing order is at >= ``extended.min_interval_h``
+    with at least ``regimen.extended_min_mg_per_kg``; otherwise
+    ``regimen.default_mode``. Extended-interval dosing falls back to
+    ``peak-trough`` (with a caution) when an exclusion applies (CrCl,
+    dialysis, excluded condition; nomogram.exclusions).
+
+Action: ``continue`` when the standing order is predicted on target and
+under the caps; else ``change`` (candidates.py choice rule), or
+``hold-then-change`` when handover.py finds a hold. ``next_dose_at`` is the
+first maintenance dose of the recommended regimen; a loading dose, when
+proposed, is at ``loading_dose.at`` (``as_of`` for a new start, else in place
+of the first dose, which then moves one interval on).
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+
+import numpy as np
+
+from tdmtui.core.alerts import Alert
+from tdmtui.core.models import steady_state
+from tdmtui.core.regimen import continuous, handover, loading, nomogram
+from tdmtui.core.regimen.candidates import Candidate, choose, evaluate, infusion_time, judge, search, with_draws
+from tdmtui.core.regimen.targets import Targets, resolve_targets
+from tdmtui.core.regimen.types import Plan, RegimenInput
+
+
+def choose_mode(inp: RegimenInput, alerts: list[Alert]) -> str:
+    """The regimen mode for this case (module docstring)."""
+    rules, ct, cur = inp.rules, inp.case_target, inp.current
+    default = str(rules.get("regimen.default_mode", "auc"))
+    if rules.get("drug.family") != "aminoglycoside":
+        if (ct and ct.css) or (cur and cur.infusion_h >= cur.interval_h - 1e-9) or default == "continuous":
+            return "continuous"
+        return "auc"
+    if inp.method == "nomogram":
+        return "extended"
+    if ct and (ct.peak or ct.trough) and not ct.auc24:
+        return "peak-trough"
+    if ct and ct.auc24:
+        mode = "extended"
+    elif cur:
+        per_kg = cur.dose_mg / inp.dosing_weight_kg if inp.dosing_weight_kg > 0 else 0.0
+        ext = cur.interval_h >= float(rules.get("extended.min_interval_h", 24.0)) and per_kg >= float(
+            rules.get("regimen.extended_min_mg_per_kg", math.inf))
+        mode = "extended" if ext else "peak-trough"
+    else:
+        mode = default if default in ("extended", "peak-trough") else "peak-trough"
+    if mode == "extended":
+        why = nomogram.exclusions(rules, inp.crcl_ml_min, inp.renal_replacement, inp.conditions)
+        if why:
+            for fld, msg in why:
+                alerts.append(Alert("extended-excluded", "caution", fld, f"{msg}: traditional (peak and trough) dosing designed instead"))
+            return "peak-trough"
+    return mode
+
+
+def _src(rules: Any, key: str) -> str:
+    return rules.source(key) if key in rules else "library"
+
+
+def sources(inp: RegimenInput, targets: Targets) -> dict[str, Any]:
+    """Where each target, limit and rule came from (library, protocol, case)."""
+    r = inp.rules
+    caps = [_src(r, k) for k in ("regimen.max_single_dose_mg", "regimen.max_daily_dose_mg", "loading.max_mg") if k in r]
+    out: dict[str, Any] = {
+        "target": targets.main_source, "targets": dict(targets.sources),
+        "rounding": _src(r, "regimen.rounding_mg"), "intervals": _src(r, "regimen.intervals_h"),
+        "max_rate": _src(r, "regimen.max_rate_mg_per_h"), "min_infusion": _src(r, "regimen.min_infusion_h"),
+        "caps": "protocol" if "protocol" in caps else "library", "admin_times": _src(r, "regimen.admin_times"),
+        "choice": _src(r, "regimen.choice_tie_rel"), "next_levels": _src(r, "monitoring.levels"),
+    }
+    if "loading.mg_per_kg" in r or "loading.target_peak_mg_l" in r:
+        out["loading"] = _src(r, "loading.mg_per_kg" if "loading.mg_per_kg" in r else "loading.target_peak_mg_l")
+    return out
+
+
+def _intervals(inp: RegimenInput, mode: str) -> list[float]:
+    every = [float(x) for x in inp.rules.value("regimen.intervals_h")]
+    if mode == "extended":
+        low = float(inp.rules.get("extended.min_interval_h", 24.0))
+        return [x for x in every if x >= low]
+    return every
+
+
+def _dose_ref(inp: RegimenInput, mode: str) -> float | None:
+    if mode != "extended" or inp.dosing_weight_kg <= 0:
+        return None
+    return float(inp.rules.value("extended.mg_per_kg")) * inp.dosing_weight_kg
+
+
+def _current(inp: RegimenInput, targets: Targets, mode: str) -> Candidate | None:
+    cur, params = inp.current, inp.params
+    if cur is None or params is None or cur.dose_mg <= 0 or cur.interval_h <= 0:
+        return None
+    is_cont = cur.infusion_h >= cur.interval_h - 1e-9
+    if is_cont != (mode == "continuous"):
+        return None
+    if is_cont:
+        daily = cur.dose_mg * 24.0 / cur.interval_h
+        ss = steady_state(params, daily, 24.0, 24.0)
+        on, d = judge(targets, np.array([ss.trough]), np.array([ss.trough]), np.array([ss.auc24]), np.array([daily]))
+        return Candidate(daily, 24.0, 24.0, ss.peak, ss.trough, ss.auc24, ss.trough, 24.0, bool(on[0]), float(d[0]))
+    return evaluate(params, targets, cur.dose_mg, cur.interval_h, min(cur.infusion_h, cur.interval_h),
+                    _dose_ref(inp, mode))
+
+
+def _within_caps(c: Candidate, rules: Any) -> bool:
+    return (c.dose_mg <= float(rules.value("regimen.max_single_dose_mg")) + 1e-9 or c.infusion_h >= 24.0) and \
+        c.daily_mg <= float(rules.value("regimen.max_daily_dose_mg")) + 1e-9
+
+
+def _timing(inp: RegimenInput, c: Candidate, continuing: bool, threshold: float) -> tuple[float, float | None, float]:
+    """(first maintenance dose h, hold_until h or None, t_due h) per handover.py."""
+    hist = inp.history
+    t_last = float(hist.start[-1]) if len(hist) else None
+    if t_last is None:
+        t_due = inp.as_of
+    elif continuing and inp.current:
+        t_due = t_last + inp.current.interval_h
+    else:
+        t_due = t_last + c.interval_h
+    t_due = max(t_due, inp.as_of)
+    held = None
+    if not continuing and inp.params is not None:
+        held = handover.hold(inp.params, hist, t_due, threshold)
+    start = held if held is not None else t_due
+    if continuing and t_last is not None and t_due > inp.as_of:
+        return start, None, t_due
+    if c.infusion_h >= c.interval_h:
+        return start, held, t_due
+    return handover.align(start, handover.admin_times(inp.rules, c.interval_h), inp.clock), held, t_due
+
+
+def _threshold(c: Candidate, targets: Targets) -> float:
+    return max(c.trough, targets.trough_ceiling or 0.0)
+
+
+def _shape(inp: RegimenInput, c: Candidate, targets: Targets, mode: str, continuing: bool) -> dict[str, Any]:
+    """The contract's regimen shape for one candidate (no loading dose)."""
+    first, held, _ = _timing(inp, c, continuing, _threshold(c, targets))
+    action = "continue" if continuing else ("hold-then-change" if held is not None else "change")
+    out: dict[str, Any] = {
+        "action": action, "mode": mode, "dose_mg": c.dose_mg, "interval_h": c.interval_h, "infusion_h": c.infusion_h,
+        "daily_dose_mg": c.daily_mg, "next_dose_at": inp.clock.format(first),
+        "hold_until": inp.clock.format(held) if held is not None else None, "loading_dose": None,
+        "predicted": c.predicted(),
+        "next_levels": handover.next_levels(inp.rules, targets, mode, inp.method, first, c.interval_h,
+                                            c.infusion_h, inp.clock),
+    }
+    if mode == "continuous":
+        out.update(continuous.describe(c))
+    out["_first"] = first
+    return out
+
+
+def design(inp: RegimenInput) -> Plan:
+    """Design the regimen for one case (see the package docstring for the shape)."""
+    alerts: list[Alert] = []
+    mode = choose_mode(inp, alerts)
+    targets = resolve_targets(inp.rules, inp.case_target, mode)
+    plan = Plan(regimen=None, targets=targets.to_dict(), sources=sources(inp, targets), alerts=alerts)
+    if mode == "extended" and inp.method == "nomogram":
+        from tdmtui.core.regimen.extended import nomogram_plan
+
+        return nomogram_plan(inp, targets, plan)
+    if inp.params is None:
+        alerts.append(Alert("regimen-no-estimate", "caution", "", "no estimate of the patient's kinetics: no regimen designed"))
+        return plan
+    return finish(inp, targets, mode, plan, search_candidates(inp, targets, mode))
+
+
+def search_candidates(inp: RegimenInput, targets: Targets, mode: str) -> list[Candidate]:
+    """The candidate grid for this mode."""
+    assert inp.params is not None
+    if mode == "continuous":
+        return continuous.candidates(inp.params, targets, inp.rules)
+    return search(inp.params, targets, inp.rules, _intervals(inp, mode), _dose_ref(inp, mode))
+
+
+def finish(inp: RegimenInput, targets: Targets, mode: str, plan: Plan, cands: list[Candidate],
+           fixed: Candidate | None = None, extra: dict[str, Any] | None = None) -> Plan:
+    """Choose, hand over, load and forecast; fill ``plan``."""
+    rules, params, alerts = inp.rules, inp.params, plan.alerts
+    assert params is not None
+    plan.candidates = [c.to_dict() for c in cands]
+    current = _current(inp, targets, mode)
+    tie = float(rules.get("regimen.choice_tie_rel", 0.0))
+    best, alts = choose(cands, inp.current.interval_h if inp.current else None, tie, shortest_first=mode == "extended")
+    continuing = False
+    if fixed is not None:
+        chosen = fixed
+        continuing = current is not None and abs(current.dose_mg - fixed.dose_mg) < 1e-6 and \
+            abs(current.interval_h - fixed.interval_h) < 1e-6
+    elif current is not None and current.on_target and _within_caps(current, rules):
+        chosen, continuing = current, True
+        alts = [c for c in ([best] if best else []) + alts
+                if not (c.dose_mg == current.dose_mg and c.interval_h == current.interval_h)][:3]
+    elif best is not None:
+        chosen = best
+    elif cands:
+        chosen = min(cands, key=lambda c: c.distance)
+        alts = sorted((c for c in cands if c is not chosen), key=lambda c: c.distance)[:3]
+        alerts.append(Alert("regimen-off-target", "caution", "target",
+                            "no practical regimen is predicted on target under the caps and rounding; "
+                            "the nearest is shown: review the targets, caps or interval set"))
+    else:
+        alerts.append(Alert("regimen-no-candidate", "caution", "target", "no candidate regimen under the caps"))
+        return plan
+    if current is not None and not _within_caps(current, rules):
+        alerts.append(Alert("current-over-cap", "caution", "schedule", "the standing order is above the single or daily dose cap"))
+    _cap_alert(inp, targets, chosen, alerts)
+    if inp.samples:
+        dref = _dose_ref(inp, mode)
+        chosen = with_draws(chosen, inp.samples, targets, dref)
+        alts = [with_draws(a, inp.samples, targets, dref) for a in alts]
+    reg = _shape(inp, chosen, targets, mode, continuing)
+    first = reg.pop("_first")
+    if current is not None:
+        reg["current_predicted"] = current.predicted()
+        reg["current_on_target"] = current.on_target
+    reg["alternatives"] = []
+    for a in alts:
+        shaped = _shape(inp, a, targets, mode, False)
+        shaped.pop("_first")
+        reg["alternatives"].append(shaped)
+    if extra:
+        reg.update(extra)
+    load = _loading(inp, targets, mode, chosen, continuing, reg["hold_until"] is not None, first, alerts)
+    if load is not None:
+        t_load, ld, ld_tinf = load
+        reg["loading_dose"] = {"dose_mg": ld.dose_mg, "infusion_h": ld_tinf, "at": inp.clock.format(t_load),
+                               "exact_mg": ld.exact_mg, "capped": ld.capped, "basis": ld.basis}
+        if mode == "continuous":
+            first = t_load + ld_tinf
+        else:
+            first = handover.align(t_load + chosen.interval_h, handover.admin_times(rules, chosen.interval_h),
+                                   inp.clock)
+        reg["next_dose_at"] = inp.clock.format(first)
+        reg["next_levels"] = handover.next_levels(rules, targets, mode, inp.method, first, chosen.interval_h,
+                                                  chosen.infusion_h, inp.clock)
+    until = inp.as_of + handover.FORECAST_H
+    ld_tuple = (t_load, ld.dose_mg, ld_tinf) if load is not None else None
+    plan.doses = handover.proposed_doses(first, chosen.dose_mg, chosen.interval_h, chosen.infusion_h, until, ld_tuple)
+    times, conc, aucs = handover.forecast(params, inp.history, plan.doses, inp.as_of)
+    plan.forecast = (times, conc)
+    reg["forecast_auc"] = {"from": inp.clock.format(inp.as_of), **aucs}
+    reg["choice_rule"] = ("continue: the standing order is predicted on target" if continuing else
+                          "practical candidate on target nearest the middle of the band, at the current interval where "
+                          "one is on target (extended-interval: the shortest interval on target); ties to fewer doses "
+                          "a day (regimen/candidates.py)")
+    plan.regimen = reg
+    return plan
+
+
+def _cap_alert(inp: RegimenInput, targets: Targets, chosen: Candidate, alerts: list[Alert]) -> None:
+    band = targets.auc24
+    if band is None or inp.params is None:
+        return
+    need = 0.5 * (band[0] + band[1]) * inp.params.cl
+    cap = float(inp.rules.value("regimen.max_daily_dose_mg"))
+    if need > cap:
+        alerts.append(Alert("regimen-cap", "caution", "target",
+                            f"the middle of the AUC24 target needs about {need:.0f} mg/day; the daily cap is "
+                            f"{cap:g} mg ({inp.rules.citation('regimen.max_daily_dose_mg')})"))
+
+
+def _loading(inp: RegimenInput, targets: Targets, mode: str, chosen: Candidate, continuing: bool, held: bool,
+             first: float, alerts: list[Alert]) -> tuple[float, loading.Loading, float] | None:
+    """(time h, loading, infusion h) or None (loading.py rules)."""
+    rules, params = inp.rules, inp.params
+    assert params is not None
+    if continuing or held:
+        return None
+    step = float(rules.value("regimen.rounding_mg"))
+    new_start = len(inp.history) == 0
+    aminoglycoside = rules.get("drug.family") == "aminoglycoside"
+    if new_start and not aminoglycoside:
+        ld = loading.weight_based(rules, inp.tbw_kg, inp.bmi, continuous=mode == "continuous")
+        t0 = inp.as_of
+    else:
+        if new_start and mode != "peak-trough":
+            return None
+        if new_start:
+            goal = 0.5 * (targets.peak[0] + targets.peak[1]) if targets.peak else float(rules.value("loading.target_peak_mg_l"))
+        else:
+            goal = chosen.trough if mode == "continuous" else chosen.peak
+        t0 = inp.as_of if new_start else first
+        tinf = infusion_time(chosen.dose_mg, rules)
+        ld = None
+        for _ in range(3):  # infusion time depends on the dose
+            ld = loading.to_target(params, rules, goal, tinf, None if new_start else inp.history, t0)
+            if ld is None or infusion_time(ld.dose_mg, rules) == tinf:
+                break
+            tinf = infusion_time(ld.dose_mg, rules)
+        if ld is None:
+            return None
+    if mode != "continuous" and not (new_start and not aminoglycoside):
+        rel = float(rules.get("loading.topup_min_rel", 0.0))
+        if ld.dose_mg < max(chosen.dose_mg * (1.0 + rel), chosen.dose_mg + step) - 1e-9:
+            return None
+    if ld.capped:
+        alerts.append(Alert("loading-capped", "info", "", f"loading dose {ld.basis}"))
+    return t0, ld, infusion_time(ld.dose_mg, rules)

@@ -1,0 +1,109 @@
+"""Plain data carried in and out of regimen design.
+
+Units (canonical, as everywhere in the core): dose mg, time h (hours since
+the epoch for clock times, durations in h), concentration mg/L, exposure
+mg*h/L, weight kg, CrCl mL/min.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import TYPE_CHECKING, Any
+
+if TYPE_CHECKING:
+    import numpy as np
+
+    from tdmtui.core.alerts import Alert
+    from tdmtui.core.case import Dose, Level, Target
+    from tdmtui.core.clock import Clock
+    from tdmtui.core.library import Rules
+    from tdmtui.core.models import DoseArrays, PKParams
+
+
+@dataclass(frozen=True)
+class CurrentRegimen:
+    """The standing order as the case gives it (case-format.md "current regimen").
+
+    Attributes:
+        dose_mg: amount per dose, mg (for a continuous infusion: mg per interval).
+        interval_h: interval between starts, h.
+        infusion_h: infusion duration, h (== interval for a continuous infusion).
+        source_text: where it came from (``schedule`` or the last maintenance doses).
+    """
+
+    dose_mg: float
+    interval_h: float
+    infusion_h: float
+    source_text: str = ""
+
+
+@dataclass(frozen=True)
+class RegimenInput:
+    """Everything :func:`tdmtui.core.regimen.design` needs.
+
+    Attributes:
+        drug: library drug id.
+        rules: library values with the local protocol on top.
+        case_target: targets written in the case (None fields = library/protocol).
+        params: the individual estimate (None when no estimate exists, e.g. a
+            nomogram-only reading).
+        history: the real doses given.
+        as_of: "now", h since the epoch.
+        clock: the case clock (formats times in the input's style).
+        current: the standing order, or None.
+        dosing_weight_kg: dosing weight per the library rule, kg.
+        tbw_kg: actual (total) body weight, kg.
+        bmi: body-mass index, kg/m^2.
+        crcl_ml_min: Cockcroft-Gault CrCl, mL/min.
+        renal_replacement: ``none``, ``ihd``, ``crrt`` or ``pd``.
+        conditions: the case's condition ids.
+        samples: posterior (or population) draws, for intervals and probability of target:
+            a list of PKParams, or batched draws (arrays cl, v1, q, v2, optional weights,
+            and a vectorised ``steady_state(dose, tau, tinf, peak_delay_h)``).
+        method: method of the estimate (two-level, bayesian, population, nomogram, ...).
+        levels: the case's levels.
+        doses: the case's doses (kind tells a loading dose; the nomogram finds its dose here).
+    """
+
+    drug: str
+    rules: Rules
+    case_target: Target
+    params: PKParams | None
+    history: DoseArrays
+    as_of: float
+    clock: Clock
+    current: CurrentRegimen | None = None
+    dosing_weight_kg: float = 0.0
+    tbw_kg: float = 0.0
+    bmi: float = 0.0
+    crcl_ml_min: float = 0.0
+    renal_replacement: str = "none"
+    conditions: tuple[str, ...] = ()
+    samples: Any = None
+    method: str = "population"
+    levels: tuple[Level, ...] = ()
+    doses: tuple[Dose, ...] = ()
+
+
+@dataclass
+class Plan:
+    """The design's answer.
+
+    Attributes:
+        regimen: the contract's ``regimen`` object (JSON-ready), or None when
+            a stop leaves nothing to recommend.
+        targets: resolved targets (JSON-ready) for the result's ``target``.
+        sources: where each target, limit and rule came from.
+        alerts: warnings raised by the design.
+        doses: the proposed doses from ``next_dose_at`` (loading included), or None.
+        forecast: (times h, conc mg/L) over the history and the next 72 h, or None.
+        candidates: the candidate table (JSON-ready dicts).
+    """
+
+    regimen: dict[str, Any] | None
+    targets: dict[str, Any]
+    sources: dict[str, Any]
+    alerts: list[Alert] = field(default_factory=list)
+    doses: DoseArrays | None = None
+    forecast: tuple[np.ndarray, np.ndarray] | None = None
+    candidates: list[dict[str, Any]] = field(default_factory=list)
