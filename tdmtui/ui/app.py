@@ -259,8 +259,9 @@ class TdmApp(App[int]):
         self.refresh_note()
         self.show_warnings(result.get("warnings", []))
         state = "STOP stands" if result.get("status") == "stop" else "ok"
-        self.set_status(f"Computed ({result.get('method') or 'no method'}, {state}) in {event.seconds:.2f} s "
-                        f"for as-of {result.get('as_of')}.")
+        self.last_seconds = event.seconds
+        self.set_status(f"Computed: method {result.get('method') or 'none'}, status {state}, "
+                        f"as of {result.get('as_of')}.")
 
     @on(EstimateFailed)
     def estimate_failed(self, event: EstimateFailed) -> None:

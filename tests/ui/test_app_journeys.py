@@ -1,0 +1,238 @@
+"""Whole journeys through the app with Textual's pilot at 80x24.
+
+Numbers on screen are checked against the engine's result dict (what
+``tdmtui compute --json`` prints) rounded by the display rules written out
+here (ke 3 decimals, Vd 1, CL 2, AUC whole, levels 1), not by the app's
+own formatter.
+"""
+
+from __future__ import annotations
+
+import json
+import re
+
+from textual.widgets import DataTable, Static
+
+from tdmtui.ui.app import TdmApp
+from tdmtui.ui.dialogs import AskDialog
+from tdmtui.ui.document import new_case_raw
+from tdmtui.ui.recovery import read_recovery, recovery_path, write_recovery
+from tdmtui.ui.widgets.form import FieldRow
+from uihelpers import SAMPLES, settle
+
+
+async def type_into(pilot, selector: str, text: str) -> None:
+    await pilot.pause()  # let the start-up focus settle first
+    widget = pilot.app.screen.query_one(selector)
+    widget.focus()
+    widget.value = ""
+    await pilot.press(*list(text))
+
+
+def table_rows(table: DataTable) -> list[list[str]]:
+    return [[str(c) for c in table.get_row_at(i)] for i in range(table.row_count)]
+
+
+async def test_type_a_new_vancomycin_case_fit_choose_and_copy_note(state):
+    app = TdmApp(None, None, state=state)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        assert app.doc.raw["drug"] == "vancomycin"
+        await type_into(pilot, "#pt-age-input", "67")
+        await pilot.press("tab", "m")  # sex: first letter chooses
+        await type_into(pilot, "#pt-weight-input", "92")
+        await type_into(pilot, "#pt-height-input", "178")
+        await type_into(pilot, "#pt-scr-input", "97 umol/L")
+        p = app.doc.raw["patient"]
+        assert (p["age"], p["sex"], p["weight"], p["height"], p["scr"]) == ("67 yr", "male", "92 kg", "178 cm", "97 umol/L")
+        # derived values as typed: CrCl shown in the header
+        assert "CrCl" in str(app.screen.query_one("#header", Static).content)
+
+        await pilot.press("f3")
+        await pilot.press("a")  # first dose row, form focused
+        await pilot.press(*"2026-03-02T08:00", "tab", *"1500", "tab", *"90")
+        await pilot.press("escape", "r")  # repeat every 12 h x 5 from the dialog
+        dialog = app.screen
+        dialog.query_one("Input").value = ""
+        await pilot.press(*"12h x 5", "enter")
+        await pilot.pause()
+        starts = [d["start"] for d in app.doc.raw["doses"]]
+        assert starts == ["2026-03-02T08:00", "2026-03-02T20:00", "2026-03-03T08:00", "2026-03-03T20:00",
+                          "2026-03-04T08:00", "2026-03-04T20:00"]
+        assert app.doc.raw["doses"][0] == {"start": "2026-03-02T08:00", "amount": "1500 mg", "duration": "90 min"}
+
+        await pilot.press("f4", "a")
+        await pilot.press(*"2026-03-04T10:30", "tab", *"35")
+        await pilot.press("escape", "a")
+        await pilot.press(*"19:30", "tab", *"15")  # clock time: same day as the row above
+        assert app.doc.raw["levels"] == [{"time": "2026-03-04T10:30", "conc": "35 mg/L"},
+                                         {"time": "2026-03-04T19:30", "conc": "15 mg/L"}]
+        await settle(pilot)
+        assert app.outcome is not None, app.screen.query_one("#status", Static).content
+        assert app.outcome.result["method"] == "two-level"
+
+        await pilot.press("f6")
+        await settle(pilot)
+        plan_table = app.screen.query_one("#plan-table", DataTable)
+        assert plan_table.row_count >= 2
+        plan_table.focus()
+        await pilot.press("down", "enter")
+        assert app.chosen is not None
+        second = app.outcome.result["regimen"].get("candidates") or [None, *app.outcome.result["regimen"]["alternatives"]]
+        assert app.chosen["dose_mg"] == second[1]["dose_mg"]
+        await pilot.press("f7", "c")
+        assert app.clipboard == app.note
+        assert "Regimen chosen in review" in app.clipboard
+        assert f"{app.chosen['dose_mg']:.0f} mg" in app.clipboard
+
+
+async def test_open_sample_case_screen_matches_the_engine(state, sample_copy):
+    from tdmtui.core.compute import compute_raw
+
+    path = sample_copy("vanc-steady-state.json")
+    expected = compute_raw(json.loads(path.read_text()), path.read_bytes()).result
+    app = TdmApp(str(path), None, state=state)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        assert app.screen.query_one("#pt-weight-input").value == "74 kg"
+        await pilot.press("f5")
+        table = app.screen.query_one("#est-table", DataTable)
+        rows = {r[0]: r[1:] for r in table_rows(table)}
+        est = expected["estimate"]
+        # display rounding written out independently of the app's formatter
+        assert rows["ke (1/h)"][0] == f"{est['ke_per_h']:.3f}"
+        assert rows["half-life (h)"][0] == f"{est['half_life_h']:.1f}"
+        assert rows["Vd (L)"][0] == f"{est['vd_l']:.1f}"
+        assert rows["CL (L/h)"][0] == f"{est['cl_l_per_h']:.2f}"
+        assert rows["AUC24 (mg*h/L)"][0] == f"{est['current']['auc24_mg_h_per_l']:.0f}"
+        assert rows["ss trough (mg/L)"][0] == f"{est['current']['trough_mg_per_l']:.1f}"
+        for j, (name, other) in enumerate(expected["methods"].items(), start=1):
+            shown = rows["ke (1/h)"][j].split()
+            assert shown[0] == f"{other['ke_per_h']:.3f}", name
+            iv = (other.get("interval90") or {}).get("ke_per_h")
+            if iv:  # the 90 % interval beside it, same rounding
+                assert shown[1] == f"[{iv[0]:.3f}-{iv[1]:.3f}]", name
+        header = str(app.screen.query_one("#header", Static).content)
+        assert f"CrCl {expected['patient']['crcl_ml_min']:.0f} mL/min" in header
+
+
+async def test_show_working_recomputes_from_its_own_numbers(state, sample_copy):
+    path = sample_copy("vanc-steady-state.json")
+    app = TdmApp(str(path), None, state=state)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        await pilot.press("f5", "w")
+        text = str(app.screen.query_one("#est-working-text", Static).content)
+    checked = 0
+    # each "= a / b" or "= a x b" line, recomputed here, must give the "-> value" under it
+    for sub, value in re.findall(r"= ([0-9.]+ [/x] [0-9.]+)\n\s+-> (?:[a-zA-Z0-9/ ]+ = )?([0-9.]+)", text):
+        a, op, b = sub.split()
+        got = float(a) / float(b) if op == "/" else float(a) * float(b)
+        assert abs(got - float(value)) <= 0.002 * abs(float(value)) + 1e-9, (sub, value)
+        checked += 1
+    assert checked >= 2, text
+
+
+async def test_recover_after_a_crash(state, sample_copy):
+    path = sample_copy("vanc-steady-state.json")
+    raw = json.loads(path.read_text())
+    raw["patient"]["weight"] = "81 kg"
+    rp = recovery_path(str(path), state)
+    write_recovery(rp, str(path), raw)  # as if the last session died after this edit
+    app = TdmApp(str(path), None, state=state)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.pause()
+        assert isinstance(app.screen, AskDialog)
+        await pilot.press("r")
+        await settle(pilot)
+        assert app.doc.raw["patient"]["weight"] == "81 kg"
+        assert app.screen.query_one("#pt-weight-input").value == "81 kg"
+        assert "UNSAVED" in str(app.screen.query_one("#header", Static).content)
+        await pilot.press("ctrl+s")
+        await pilot.pause()
+        assert json.loads(path.read_text())["patient"]["weight"] == "81 kg"
+        assert read_recovery(rp) is None  # a successful save removes it
+
+
+async def test_bad_input_shows_its_reason_and_keeps_the_text(state):
+    app = TdmApp(None, None, state=state)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        await type_into(pilot, "#pt-weight-input", "92 stone")
+        row = app.screen.query_one("#pt-weight", FieldRow)
+        assert row.has_class("-bad")
+        note = str(row.query_one(".field-note").content)
+        assert note.startswith("! unknown unit 'stone'")
+        assert app.doc.raw["patient"]["weight"] == "92 stone"
+        await settle(pilot)
+        rec = read_recovery(recovery_path(None, state))
+        assert rec is not None and rec.raw["patient"]["weight"] == "92 stone"  # nothing typed is lost
+        status = str(app.screen.query_one("#status", Static).content)
+        assert status.startswith("INPUT patient.")
+
+
+async def test_clock_time_rolls_to_next_day_and_says_so(state):
+    app = TdmApp(None, None, state=state)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("f3", "a")
+        await pilot.press(*"2026-03-02T20:00", "tab", *"1 g", "tab", *"60")
+        await pilot.press("escape", "a")
+        start = app.screen.query_one("#doses-start-input")
+        start.value = ""
+        await pilot.press(*"08:00")
+        assert app.doc.raw["doses"][1]["start"] == "2026-03-03T08:00"
+        note = str(app.screen.query_one("#doses-start", FieldRow).query_one(".field-note").content)
+        assert note == "next day: 2026-03-03T08:00"
+
+
+async def test_delete_and_undo_a_dose(state, sample_copy):
+    path = sample_copy("vanc-steady-state.json")
+    app = TdmApp(str(path), None, state=state)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("f3")
+        n = len(app.doc.raw["doses"])
+        await pilot.press("x")
+        assert len(app.doc.raw["doses"]) == n - 1
+        await pilot.press("u")
+        assert len(app.doc.raw["doses"]) == n
+        assert app.screen.query_one("#doses-table", DataTable).row_count == n
+
+
+async def test_save_refuses_a_file_changed_by_another_session(state, sample_copy):
+    path = sample_copy("vanc-steady-state.json")
+    app = TdmApp(str(path), None, state=state)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await type_into(pilot, "#pt-weight-input", "75 kg")
+        other = json.loads(path.read_text())
+        other["label"] = "changed elsewhere"
+        path.write_text(json.dumps(other))
+        await pilot.press("ctrl+s")
+        await pilot.pause()
+        assert isinstance(app.screen, AskDialog)
+        assert json.loads(path.read_text())["label"] == "changed elsewhere"
+        await pilot.press("a")  # save as
+        await pilot.pause()
+        field = app.screen.query_one("Input")
+        field.value = str(path.with_name("mine.json"))
+        await pilot.press("enter")
+        await pilot.pause()
+        assert json.loads(path.with_name("mine.json").read_text())["patient"]["weight"] == "75 kg"
+        assert json.loads(path.read_text())["label"] == "changed elsewhere"
+
+
+async def test_quit_with_unsaved_changes_asks_first(state):
+    app = TdmApp(None, None, state=state)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await type_into(pilot, "#pt-age-input", "50")
+        await pilot.press("ctrl+q")
+        await pilot.pause()
+        assert isinstance(app.screen, AskDialog)
+        await pilot.press("escape")
+        await pilot.pause()
+        assert app.is_running
+
+
+async def test_new_case_raw_is_the_default(state):
+    app = TdmApp(None, None, state=state)
+    assert app.doc.raw == new_case_raw()
+    assert SAMPLES.exists()
