@@ -22,10 +22,17 @@ Choice rule (documented for the note):
        in their bands where set, trough under the ceiling; ``continuous`` Css
        in band.
     2. The current interval is kept when a candidate on target exists at it
+       (not for extended-interval dosing, whose interval follows from rule 2's
+       last sentence)
        (change the dose, keep the interval: common practice, pk-sources.md W5
-       step 6). Extended-interval dosing takes the shortest interval on
-       target: the drug-free time sets the interval (pk-sources.md 2.4 and
-       W4, tau from the time to fall under the trough target).
+       step 6). Otherwise intervals up to ``regimen.max_interval_half_lives``
+       terminal half-lives are preferred where one is on target (a design
+       choice against long intervals with very large doses).
+       Extended-interval dosing takes the shortest interval on target: the
+       drug-free time sets the interval (pk-sources.md 2.4 and W4, tau from
+       the time to fall under the trough target); without an AUC or peak
+       band it takes the ``extended.mg_per_kg`` dose and, among ties, the
+       shortest interval on which the trough falls under the ceiling.
     3. Among those, the ones nearest the middle of the band (AUC24 for
        ``auc``/``extended`` with an AUC band, peak for ``peak-trough`` and
        ``extended`` without one, Css for ``continuous``) within
@@ -230,22 +237,24 @@ def search(params: PKParams, targets: Targets, rules: Rules, intervals: list[flo
             t_ref = targets.peak_time(float(tinf))
             pk, tr, au, ref = unit_values(params, float(tau), float(tinf), t_ref)
             on, dist = judge(targets, sel * ref, sel * tr, sel * au, sel, dose_ref)
-            for i, d in enumerate(sel):
-                out.append(Candidate(float(d), float(tau), float(tinf), d * pk, d * tr, d * au, d * ref,
+            for i, d in enumerate(sel.tolist()):
+                out.append(Candidate(d, float(tau), float(tinf), d * pk, d * tr, d * au, d * ref,
                                      t_ref, bool(on[i]), float(dist[i])))
     return out
 
 
 def choose(cands: list[Candidate], current_interval: float | None, tie_rel: float,
-           shortest_first: bool = False) -> tuple[Candidate | None, list[Candidate]]:
+           shortest_first: bool = False, max_interval: float | None = None,
+           shortest_tie: bool = False) -> tuple[Candidate | None, list[Candidate]]:
     """The chosen candidate and its alternatives (module docstring, rules 2-5)."""
     on = [c for c in cands if c.on_target]
     if not on:
         return None, []
-    pool = on
-    if current_interval is not None:
-        same = [c for c in on if abs(c.interval_h - current_interval) < 1e-9]
-        pool = same or on
+    same = [c for c in on if current_interval is not None and abs(c.interval_h - current_interval) < 1e-9]
+    pool = same
+    if not pool and max_interval is not None:
+        pool = [c for c in on if c.interval_h <= max_interval + 1e-9]
+    pool = pool or on
     if shortest_first:
         low = min(c.interval_h for c in pool)
         pool = [c for c in pool if c.interval_h == low]
@@ -253,6 +262,8 @@ def choose(cands: list[Candidate], current_interval: float | None, tie_rel: floa
     tied = [c for c in pool if c.distance <= best + tie_rel + 1e-12]
 
     def pref(c: Candidate) -> tuple:
+        if shortest_tie:
+            return (c.interval_h, c.distance, c.daily_mg)
         return (c.doses_per_day, c.daily_mg, c.distance)
 
     chosen = min(tied, key=pref)

@@ -29,7 +29,8 @@ import numpy as np
 from tdmtui.core.alerts import Alert
 from tdmtui.core.models import steady_state
 from tdmtui.core.regimen import continuous, handover, loading, nomogram
-from tdmtui.core.regimen.candidates import Candidate, choose, evaluate, infusion_time, judge, search, with_draws
+from tdmtui.core.regimen.candidates import (Candidate, choose, evaluate, infusion_time, judge, search,
+                                            terminal_rate, with_draws)
 from tdmtui.core.regimen.targets import Targets, resolve_targets
 from tdmtui.core.regimen.types import Plan, RegimenInput
 
@@ -195,7 +196,13 @@ def finish(inp: RegimenInput, targets: Targets, mode: str, plan: Plan, cands: li
     plan.candidates = [c.to_dict() for c in cands]
     current = _current(inp, targets, mode)
     tie = float(rules.get("regimen.choice_tie_rel", 0.0))
-    best, alts = choose(cands, inp.current.interval_h if inp.current else None, tie, shortest_first=mode == "extended")
+    span = rules.get("regimen.max_interval_half_lives")
+    longest = float(span) * math.log(2.0) / terminal_rate(params) if span and mode != "extended" else None
+    banded = bool(targets.auc24 or targets.peak)
+    keep = inp.current.interval_h if inp.current and mode != "extended" else None
+    best, alts = choose(cands, keep, tie,
+                        shortest_first=mode == "extended" and banded, max_interval=longest,
+                        shortest_tie=mode == "extended" and not banded)
     continuing = False
     if fixed is not None:
         chosen = fixed
