@@ -30,7 +30,7 @@ def nomogram_plan(inp: RegimenInput, targets: Targets, plan: Plan) -> Plan:
     chart = nomogram.lines(rules)
     plan.sources["nomogram_lines"] = {f"{n}h": d["source"] for n, d in chart.items()}
     if "q24" not in chart:
-        plan.alerts.append(Alert(nomogram.CODE, "stop", "method",
+        plan.alerts.append(Alert(nomogram.CODE, "stop", "drug",
                                  f"nomogram entry check failed: no nomogram for {rules.drug} in the library or the local protocol"))
         return plan
     dose = nomogram.extended_dose(rules, inp.dosing_weight_kg)
