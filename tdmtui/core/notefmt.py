@@ -1,0 +1,283 @@
+"""Formatting helpers for the chart note (:mod:`tdmtui.core.note`).
+
+Plain text only, at most :data:`WIDTH` columns. Every rounding rule the note
+uses for a printed figure lives here, so the note and its tests agree on one
+rule per figure:
+
+========== ============================ =====================
+figure     rule                         example
+========== ============================ =====================
+ke         3 significant figures        0.0827 /h
+t1/2       1 decimal place              8.4 h
+Vd         1 decimal place              51.6 L
+CL         2 decimal places             4.27 L/h
+AUC24      whole number                 703 mg*h/L
+conc.      1 decimal (2 below 1 mg/L)   18.2 mg/L, 0.16 mg/L
+CrCl       whole number                 92 mL/min
+weight     1 decimal place              70.5 kg
+SCr        up to 2 decimals             0.9 mg/dL
+========== ============================ =====================
+
+Steady-state share (:func:`steady_state_share`) follows the superposition and
+steady-state equations of pk-sources.md 2.2-2.3 through :mod:`tdmtui.core.models`.
+"""
+
+from __future__ import annotations
+
+import math
+import textwrap
+from typing import Any
+
+import numpy as np
+
+from tdmtui.core.models import DoseArrays, PKParams, concentration
+
+WIDTH = 80
+
+
+# --- numbers -------------------------------------------------------------------
+
+def ke(x: float | None) -> str:
+    """Elimination rate constant, 1/h: 3 significant figures."""
+    return "-" if x is None else f"{x:.3g}"
+
+
+def hours(x: float | None) -> str:
+    """Half-life, h: 1 decimal place."""
+    return "-" if x is None else f"{x:.1f}"
+
+
+def litres(x: float | None) -> str:
+    """Volume, L: 1 decimal place."""
+    return "-" if x is None else f"{x:.1f}"
+
+
+def clearance(x: float | None) -> str:
+    """Clearance, L/h: 2 decimal places."""
+    return "-" if x is None else f"{x:.2f}"
+
+
+def auc(x: float | None) -> str:
+    """AUC24, mg*h/L: whole number."""
+    return "-" if x is None else f"{x:.0f}"
+
+
+def conc(x: float | None) -> str:
+    """Concentration, mg/L: 1 decimal place, 2 below 1 mg/L."""
+    if x is None:
+        return "-"
+    if x == 0:
+        return "0"
+    return f"{x:.2f}" if abs(x) < 1.0 else f"{x:.1f}"
+
+
+def mg(x: float | None) -> str:
+    """Dose, mg: as given, without trailing zeros (at most 1 decimal)."""
+    if x is None:
+        return "-"
+    return f"{round(float(x), 1):g}"
+
+
+def scr(x: float) -> str:
+    """Serum creatinine, mg/dL: up to 2 decimals, trailing zeros dropped."""
+    return f"{x:.2f}".rstrip("0").rstrip(".")
+
+
+def kg(x: float) -> str:
+    """Weight, kg: 1 decimal place."""
+    return f"{x:.1f}"
+
+
+def pct(x: float) -> str:
+    """A share as a whole percentage."""
+    return f"{100.0 * x:.0f} %"
+
+
+def duration(h: float) -> str:
+    """A span of time to the minute: ``35 min``, ``1 h 05 min``, ``12 h``."""
+    total = int(round(abs(h) * 60.0))
+    hh, mm = divmod(total, 60)
+    if hh == 0:
+        return f"{mm} min"
+    return f"{hh} h" if mm == 0 else f"{hh} h {mm:02d} min"
+
+
+def every(tau: float) -> str:
+    """A dosing interval: ``every 12 h``, ``every 36 h``."""
+    return f"every {duration(tau)}"
+
+
+def when(text: str | None) -> str:
+    """A contract time (``YYYY-MM-DDTHH:MM[offset]``) written for people."""
+    return "-" if not text else str(text).replace("T", " ", 1)
+
+
+# --- text layout ----------------------------------------------------------------
+
+def wrap(text: str, indent: str = "", hang: str = "  ") -> list[str]:
+    """Wrap one paragraph to :data:`WIDTH` columns with a hanging indent."""
+    return textwrap.wrap(text, WIDTH, initial_indent=indent, subsequent_indent=indent + hang,
+                         break_long_words=True, break_on_hyphens=False) or [indent.rstrip()]
+
+
+def heading(title: str) -> list[str]:
+    """A section heading preceded by a blank line."""
+    return ["", title.upper(), "-" * len(title)]
+
+
+def fit(lines: list[str]) -> list[str]:
+    """Every line within :data:`WIDTH` columns (an overlong line is wrapped, never cut)."""
+    out: list[str] = []
+    for line in lines:
+        if len(line) <= WIDTH:
+            out.append(line.rstrip())
+        else:
+            lead = line[: len(line) - len(line.lstrip())]
+            out += wrap(line.strip(), lead)
+    return out
+
+
+def table(header: tuple[str, ...], rows: list[tuple[str, ...]], first_width: int) -> list[str]:
+    """A left-labelled table with right-aligned number columns of width 8."""
+    def row(cells: tuple[str, ...]) -> str:
+        return f"{cells[0]:<{first_width}}" + "".join(f"{c:>8}" for c in cells[1:])
+
+    out = [row(header)]
+    for r in rows:
+        if len(r[0]) > first_width:
+            out.append(r[0])
+            out.append(row(("",) + r[1:]))
+        else:
+            out.append(row(r))
+    return out
+
+
+# --- timing of levels -------------------------------------------------------------
+
+def level_timing(t: float, doses: list[Any], interval_h: float | None) -> str:
+    """Where a level falls against the doses: ``1 h 05 min after the end of dose 8``.
+
+    Args:
+        t: level time, h.
+        doses: the case's doses sorted by start (``start``, ``end``, ``duration`` h).
+        interval_h: the current interval, h, to name the next dose when none is recorded.
+    """
+    before = [k for k, d in enumerate(doses) if d.start <= t]
+    if not before:
+        if not doses:
+            return "no dose recorded"
+        return f"before the first dose (baseline; {duration(doses[0].start - t)} before dose 1)"
+    k = before[-1]
+    d = doses[k]
+    if d.duration <= 0.0:
+        text = f"{duration(t - d.start)} after dose {k + 1} (bolus)"
+    elif t < d.end:
+        text = f"during the infusion of dose {k + 1}, {duration(t - d.start)} after its start"
+    else:
+        text = f"{duration(t - d.end)} after the end of the infusion of dose {k + 1}"
+    if k + 1 < len(doses):
+        text += f"; {duration(doses[k + 1].start - t)} before dose {k + 2}"
+    elif interval_h and d.start + interval_h > t:
+        text += f"; {duration(d.start + interval_h - t)} before the next dose due ({every(interval_h)})"
+    return text
+
+
+def terminal_half_life(params: PKParams) -> float:
+    """ln 2 over the slowest disposition rate, h (beta for two compartments, pk-sources.md 2.6)."""
+    if not params.is_two_compartment:
+        return params.half_life
+    k10, k12, k21 = params.cl / params.v1, params.q / params.v1, params.q / params.v2
+    a = k10 + k12 + k21
+    beta = 0.5 * (a - math.sqrt(a * a - 4.0 * k10 * k21))
+    return math.log(2.0) / beta
+
+
+def steady_state_share(params: PKParams, doses: list[Any], t: float, regimen: dict[str, Any]) -> float | None:
+    """The model's concentration at ``t`` over its steady-state value at the same point.
+
+    The model concentration at ``t`` from the real doses (superposition,
+    pk-sources.md 2.2) is divided by the concentration the current regimen
+    gives at steady state the same time after its latest dose start (2.3),
+    simulated over enough doses to be within 1e-6 of steady state.
+
+    Returns:
+        The share (1.0 = at steady state), or None without a dose before ``t``.
+    """
+    before = [d for d in doses if d.start <= t]
+    if not before:
+        return None
+    hist = DoseArrays.from_lists([d.start for d in before], [d.duration for d in before],
+                                 [d.amount for d in before])
+    now = float(concentration(params, hist, np.array([t]))[0])
+    tau, dose, tinf = float(regimen["interval_h"]), float(regimen["dose_mg"]), float(regimen["infusion_h"])
+    n = int(min(5000, max(2, math.ceil(20.0 * terminal_half_life(params) / tau) + 1)))
+    ss = DoseArrays.regimen(0.0, dose, tau, tinf, n)
+    ref = float(concentration(params, ss, np.array([(n - 1) * tau + (t - before[-1].start)]))[0])
+    return now / ref if ref > 0 else None
+
+
+# --- phrases shared by the note's sections -------------------------------------------
+
+MODES = {"auc": "AUC-guided", "peak-trough": "peak and trough, traditional dosing",
+         "extended": "extended-interval", "continuous": "continuous infusion"}
+
+
+def raw_scr(case: Any, index: int | None) -> str:
+    """`` (entered 601 umol/L)`` when the SCr was entered in another unit than mg/dL, else ''."""
+    raw = (case.raw.get("patient") or {}).get("scr")
+    text = raw if index is None else (raw[index] or {}).get("value") if isinstance(raw, list) else None
+    return f" (entered {text})" if isinstance(text, str) and "mg/dL" not in text else ""
+
+
+def target_lines(result: dict[str, Any], case: Any, default_mic: float | None) -> list[str]:
+    """Target bands with their reasons, and the MIC."""
+    tg = result.get("target")
+    lines: list[str] = []
+    if tg:
+        bands = []
+        for key, label, fmt, unit in (("auc24_mg_h_per_l", "AUC24", auc, "mg*h/L"),
+                                      ("peak_mg_per_l", "peak", conc, "mg/L"),
+                                      ("trough_mg_per_l", "trough", conc, "mg/L"),
+                                      ("css_mg_per_l", "Css", conc, "mg/L")):
+            if tg.get(key):
+                lo, hi = tg[key]
+                src = key.split("_")[0]
+                why = (tg.get("citations") or {}).get(src) or (tg.get("sources") or {}).get(src, "")
+                bands.append(f"{label} {fmt(lo)}-{fmt(hi)} {unit} ({why})")
+        ref = str(tg.get("peak_reference") or "")
+        if ref.startswith("start+"):
+            bands.append(f"peak read {ref[6:].replace('h', ' h').replace('  ', ' ')} after the start of the dose")
+        mode = MODES.get(str(tg.get("mode")), str(tg.get("mode", "-")))
+        lines += wrap(f"Target ({mode}): " + "; ".join(bands) + ".")
+        mic = tg.get("mic_mg_per_l")
+    else:
+        lines.append("Target: not assessed (no regimen is designed while a stop stands).")
+        mic = case.target.mic
+    given = case.target.mic is not None
+    if mic is None and default_mic is not None:
+        mic = default_mic
+    lines.append(f"MIC: {mic:g} mg/L" + ("." if given else " (assumed: library default; none given in the case).")
+                 if mic is not None else "MIC: not given.")
+    return lines
+
+
+def estimate_cells(e: dict[str, Any]) -> tuple[str, ...]:
+    """ke, t1/2, Vd, CL and current AUC24 of one estimate, rounded for the table."""
+    cur = e.get("current") or {}
+    return (ke(e.get("ke_per_h")), hours(e.get("half_life_h")), litres(e.get("vd_l")),
+            clearance(e.get("cl_l_per_h")), auc(cur.get("auc24_mg_h_per_l")))
+
+
+def predicted(p: dict[str, Any]) -> str:
+    """Predicted steady-state peak, trough and AUC24 in words."""
+    text = (f"peak {conc(p.get('peak_mg_per_l'))} mg/L, trough {conc(p.get('trough_mg_per_l'))} mg/L, "
+            f"AUC24 {auc(p.get('auc24_mg_h_per_l'))} mg*h/L")
+    if p.get("peak_at_reference_mg_per_l") is not None:
+        text += (f"; {conc(p['peak_at_reference_mg_per_l'])} mg/L at "
+                 f"{duration(p.get('peak_reference_h_after_start', 0))} after the start")
+    return text
+
+
+def regimen_words(r: dict[str, Any]) -> str:
+    """``1000 mg every 12 h, infused over 1 h``."""
+    return f"{mg(r['dose_mg'])} mg {every(r['interval_h'])}, infused over {duration(r['infusion_h'])}"
