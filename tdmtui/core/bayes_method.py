@@ -163,3 +163,23 @@ def residual_alerts(e: Estimate, rules: Any) -> list[Alert]:
                              f"observed {r['observed']:.3g} mg/L vs predicted {r['predicted']:.3g}: the model does not "
                              "fit this level well; check its time and the doses before it"))
     return out
+
+
+def refit(ctx: Any, model_id: str) -> Estimate | None:
+    """MAP again on one model (for the timing sensitivity); None when it does not converge."""
+    from tdmtui.core import bayes, popmodels
+
+    p = ctx.case.patient
+    cov = popmodels.Covariates(p.age, p.sex, p.weight, p.height, ctx.renal.scr_measured_mg_dl,
+                               p.renal_replacement, p.conditions)
+    model = popmodels.get_model(model_id)
+    levels = _levels_for(ctx, model.compartments == 2)
+    if not levels:
+        return None
+    obs = bayes.Observations.from_lists([lv.time for lv in levels], [lv.conc for lv in levels],
+                                        [lv.below_loq for lv in levels], [lv.above_uloq for lv in levels])
+    try:
+        fit = bayes.map_fit(model, cov, ctx.history, obs)
+    except (NoEstimateError, ConvergenceError):
+        return None
+    return Estimate("bayesian", fit.params, [lv.index for lv in levels])

@@ -99,6 +99,10 @@ def compute(case: Case, protocol: Protocol | None = None, method: str | None = N
         raise
     alerts += methods.compare(ctx, estimates, used)
     alerts += methods.used_alerts(ctx, estimates[used])
+    from tdmtui.core.sensitivity import timing_sensitivity
+
+    sens_rows, sens_alerts = timing_sensitivity(ctx, estimates[used])
+    alerts += sens_alerts
     est = estimates[used]
     weight = p.weight
     result = _header(case, protocol, renal, rules, cur)
@@ -108,6 +112,7 @@ def compute(case: Case, protocol: Protocol | None = None, method: str | None = N
         "methods": {k: v.to_dict(cur, weight) for k, v in estimates.items() if k != used},
         "methods_unavailable": failures,
         "levels": methods.level_table(ctx),
+        "timing_sensitivity": sens_rows,
     })
     outcome = Outcome(case, result, est.params, history, working=list(est.working), renal=renal,
                       estimates=estimates, rules=rules)
