@@ -106,3 +106,22 @@ def test_extended_excluded_falls_back_to_traditional() -> None:
     plan = design(inp("gentamicin", PKParams.one_compartment(0.05, 20.0), crcl_ml_min=15.0))
     assert plan.regimen["mode"] == "peak-trough"
     assert "extended-excluded" in [a.code for a in plan.alerts]
+
+
+def test_protocol_example_names_only_real_keys() -> None:
+    """docs/protocol-example.toml: every key it overrides exists in the library (no typos),
+    except the nomogram lines the library deliberately lacks (pk-sources.md 4.3)."""
+    from pathlib import Path
+
+    from tdmtui.core.library import Rules, load_protocol
+
+    proto = load_protocol(Path(__file__).resolve().parents[2] / "docs" / "protocol-example.toml")
+    only_local = {"nomogram.q36_line", "nomogram.q48_line", "nomogram.q36_shape_confirmed",
+                  "nomogram.q48_shape_confirmed"}
+    for section, flat in proto.overrides.items():
+        lib = Rules("vancomycin" if section == "common" else section)
+        for key in flat:
+            if key in only_local:
+                continue
+            assert key in lib, f"{section}.{key}"
+            assert Rules(lib.drug, proto).source(key) == "protocol"
