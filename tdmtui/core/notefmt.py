@@ -198,7 +198,7 @@ def steady_state_share(params: PKParams, doses: list[Any], t: float, regimen: di
     The model concentration at ``t`` from the real doses (superposition,
     pk-sources.md 2.2) is divided by the concentration the current regimen
     gives at steady state the same time after its latest dose start (2.3),
-    simulated over enough doses to be within 1e-6 of steady state.
+    simulated over 40 terminal half-lives (within 1e-12 of steady state).
 
     Returns:
         The share (1.0 = at steady state), or None without a dose before ``t``.
@@ -210,7 +210,7 @@ def steady_state_share(params: PKParams, doses: list[Any], t: float, regimen: di
                                  [d.amount for d in before])
     now = float(concentration(params, hist, np.array([t]))[0])
     tau, dose, tinf = float(regimen["interval_h"]), float(regimen["dose_mg"]), float(regimen["infusion_h"])
-    n = int(min(5000, max(2, math.ceil(20.0 * terminal_half_life(params) / tau) + 1)))
+    n = int(min(5000, max(2, math.ceil(40.0 * terminal_half_life(params) / tau) + 1)))
     ss = DoseArrays.regimen(0.0, dose, tau, tinf, n)
     ref = float(concentration(params, ss, np.array([(n - 1) * tau + (t - before[-1].start)]))[0])
     return now / ref if ref > 0 else None

@@ -1,0 +1,250 @@
+"""The chart note: golden files, printed numbers against the result, layout and the CLI.
+
+Sources of the expected values:
+- golden files: tests/golden/*.txt, written by tests/golden/regenerate.py and
+  read by a person before commit (a change in them must be intended);
+- printed figures: the result dict, with the note's documented rounding rule
+  (tdmtui/core/notefmt.py) restated here as a number of decimals per figure;
+- level timing: clock arithmetic on the case times, worked by hand below;
+- steady-state share: the accumulation factor 1 - e^(-n ke tau) of a constant
+  regimen (pk-sources.md 2.3, standard one-compartment equations);
+- digests: hashlib.sha256 over the case bytes.
+"""
+
+from __future__ import annotations
+
+import difflib
+import hashlib
+import json
+import math
+import os
+import re
+import subprocess
+import sys
+from functools import lru_cache
+from pathlib import Path
+from types import SimpleNamespace
+
+import pytest
+
+from conftest import ROOT, SAMPLES, base_case
+from tdmtui.cli import main
+from tdmtui.core import notefmt
+from tdmtui.core.case import load_case
+from tdmtui.core.compute import compute, compute_raw
+from tdmtui.core.models import PKParams
+from tdmtui.core.note import render_note
+from tdmtui.core.safety import NOTE_LINE
+
+GOLDEN = ROOT / "tests" / "golden"
+GOLDEN_CASES = ("vanc-steady-state", "gent-peak-trough", "vanc-loading-early")
+ALL_SAMPLES = sorted(SAMPLES.glob("*.json"))
+
+
+@lru_cache(maxsize=None)
+def outcome_of(name: str):
+    return compute(load_case(SAMPLES / f"{name}.json"))
+
+
+@lru_cache(maxsize=None)
+def note_of(name: str) -> str:
+    return render_note(outcome_of(name))
+
+
+def flat(text: str) -> str:
+    """Whitespace-normalised text (the note wraps sentences at 80 columns)."""
+    return " ".join(text.split())
+
+
+def close_to_printed(printed: str, value: float) -> bool:
+    """True when ``printed`` is ``value`` rounded to the printed number of decimals."""
+    decimals = len(printed.split(".")[1]) if "." in printed else 0
+    return abs(float(printed) - value) <= 0.5 * 10.0 ** -decimals + 1e-9 * abs(value)
+
+
+def decimals(printed: str) -> int:
+    return len(printed.split(".")[1]) if "." in printed else 0
+
+
+def significant(printed: str) -> int:
+    return len(printed.replace(".", "").lstrip("0"))
+
+
+# --- golden files ----------------------------------------------------------------
+
+@pytest.mark.parametrize("name", GOLDEN_CASES)
+def test_note_matches_golden_file(name):
+    expected = (GOLDEN / f"{name}.txt").read_text(encoding="utf-8")
+    got = note_of(name)
+    diff = "\n".join(difflib.unified_diff(expected.splitlines(), got.splitlines(), "golden", "now", lineterm=""))
+    assert got == expected, (f"note of {name} differs from tests/golden/{name}.txt; if the change is intended, "
+                             f"run tests/golden/regenerate.py and review the diff:\n{diff}")
+
+
+# --- every printed estimate figure is the engine's, rounded as documented ----------
+
+def table_rows(note: str) -> dict[str, list[str]]:
+    """The methods table: label -> [ke, t1/2, Vd, CL, AUC24] as printed."""
+    lines = note.splitlines()
+    start = next(i for i, line in enumerate(lines) if line.startswith("Method ") and "ke /h" in line)
+    rows: dict[str, list[str]] = {}
+    pending = ""
+    for line in lines[start + 1:]:
+        if line.startswith("AUC24 in mg*h/L"):
+            break
+        if len(line) < 40 or not line[-40:].strip():
+            pending = line.strip()
+            continue
+        label = line[:-40].strip() or pending
+        rows[label] = line[-40:].split()
+        pending = ""
+    return rows
+
+
+def result_for(res: dict, label: str) -> dict:
+    if label.endswith(" (used)"):
+        return res["estimate"]
+    if label in res["methods"]:
+        return res["methods"][label]
+    return res["methods"][label.split(":")[0]]  # a method id shown with its model
+
+
+@pytest.mark.parametrize("name", [p.stem for p in ALL_SAMPLES])
+def test_printed_estimates_equal_result_rounded(name):
+    res = outcome_of(name).result
+    if not res.get("estimate"):
+        pytest.skip(f"{name}: no estimate (status {res['status']})")
+    rows = table_rows(note_of(name))
+    assert len(rows) == 1 + len(res["methods"])
+    for label, cells in rows.items():
+        e = result_for(res, label)
+        ke, t_half, vd, cl, auc24 = cells
+        # rounding rule (notefmt docstring): ke 3 significant figures, t1/2 and Vd 1 decimal,
+        # CL 2 decimals, AUC24 whole number
+        assert significant(ke) == 3 or float(ke) == pytest.approx(e["ke_per_h"], abs=5e-4), label
+        assert (decimals(t_half), decimals(vd), decimals(cl), decimals(auc24)) == (1, 1, 2, 0), label
+        for printed, value in ((ke, e["ke_per_h"]), (t_half, e["half_life_h"]), (vd, e["vd_l"]),
+                               (cl, e["cl_l_per_h"])):
+            assert close_to_printed(printed, value), (label, printed, value)
+        cur = (e.get("current") or {}).get("auc24_mg_h_per_l")
+        if cur is None:
+            assert auc24 == "-"
+        else:
+            assert close_to_printed(auc24, cur), (label, auc24, cur)
+
+
+PREDICTED = re.compile(r"Predicted at steady state: peak ([\d.]+) mg/L, trough ([\d.]+) mg/L, "
+                       r"AUC24 ([\d.]+) mg\*h/L")
+
+
+@pytest.mark.parametrize("name", GOLDEN_CASES)
+def test_printed_regimen_predictions_equal_result(name):
+    res = outcome_of(name).result
+    found = PREDICTED.findall(flat(note_of(name)))
+    expected = [res["estimate"]["current"]]
+    if "regimen" in res:
+        expected.append(res["regimen"]["predicted"])
+    assert len(found) == len(expected)
+    for (peak, trough, auc24), pred in zip(found, expected):
+        assert close_to_printed(peak, pred["peak_mg_per_l"])
+        assert close_to_printed(trough, pred["trough_mg_per_l"])
+        assert close_to_printed(auc24, pred["auc24_mg_h_per_l"])
+
+
+def test_bayesian_intervals_printed_from_result():
+    res = outcome_of("vanc-trough-only").result
+    iv = (res.get("estimate") or {}).get("interval90")
+    if not iv:
+        pytest.skip("vanc-trough-only has no Bayesian interval in its result")
+    m = re.search(r"90 % intervals: ke ([\d.]+)-([\d.]+) /h, Vd ([\d.]+)-([\d.]+) L, "
+                  r"CL ([\d.]+)-([\d.]+) L/h, AUC24 ([\d.]+)-([\d.]+) mg\*h/L", flat(note_of("vanc-trough-only")))
+    assert m, "interval line missing"
+    values = [*iv["ke_per_h"], *iv["vd_l"], *iv["cl_l_per_h"], *iv["auc24_mg_h_per_l"]]
+    for printed, value in zip(m.groups(), values):
+        assert close_to_printed(printed, value), (printed, value)
+    assert f"seed {res['estimate']['model']['seed']}" in flat(note_of("vanc-trough-only"))
+
+
+# --- layout and the standing elements, for every sample case -------------------------
+
+@pytest.mark.parametrize("path", ALL_SAMPLES, ids=lambda p: p.name)
+def test_cli_note_for_every_sample(path, capsys):
+    assert main(["note", str(path)]) == 0
+    text = capsys.readouterr().out
+    lines = text.splitlines()
+    assert max(len(line) for line in lines) <= 80
+    assert "\x1b" not in text and "\t" not in text
+    assert flat(NOTE_LINE) in flat(text)
+    for label in ("Pharmacist:", "Date/time:", "Prescriber contacted:"):
+        assert any(re.fullmatch(rf"{re.escape(label)}\s*_{{20,}}", line) for line in lines), label
+    digest = hashlib.sha256(path.read_bytes()).hexdigest()
+    assert f"  {digest}" in lines
+
+
+def test_stop_case_says_no_regimen_and_why():
+    res = outcome_of("vanc-stop-dialysis").result
+    assert res["status"] == "stop"
+    text = flat(note_of("vanc-stop-dialysis"))
+    assert "No regimen proposed: a stop-level warning stands" in text
+    assert "STOP: renal replacement" in text
+    assert "intermittent haemodialysis" in text
+    assert "(entered 601 umol/L)" in text  # SCr shown as entered beside mg/dL
+
+
+def test_note_out_file_mode_0600(tmp_path):
+    out = tmp_path / "note.txt"
+    assert main(["note", str(SAMPLES / "vanc-steady-state.json"), "--out", str(out)]) == 0
+    assert os.stat(out).st_mode & 0o777 == 0o600
+    assert out.read_text(encoding="utf-8") == note_of("vanc-steady-state")
+
+
+def test_note_command_in_a_fresh_process():
+    r = subprocess.run([sys.executable, "-m", "tdmtui", "note", str(SAMPLES / "gent-peak-trough.json")],
+                       capture_output=True, text=True, timeout=300, cwd=ROOT)
+    assert r.returncode == 0, r.stderr
+    assert r.stdout.startswith("GENTAMICIN PHARMACOKINETIC CONSULT")
+
+
+def test_unsaved_case_is_marked_and_digested_canonically():
+    raw = base_case()
+    text = render_note(compute_raw(raw))
+    canonical = (json.dumps(raw, ensure_ascii=False, indent=2) + "\n").encode("utf-8")
+    assert "UNSAVED" in text
+    assert f"  {hashlib.sha256(canonical).hexdigest()}" in text.splitlines()
+
+
+# --- level timing and steady state ------------------------------------------------------
+
+def test_level_times_relative_to_doses():
+    # base_case: dose 2 20:00-21:30 on 03-02, dose 3 08:00-09:30 on 03-03; levels 07:35 and 11:00
+    # 07:35 - 21:30 = 10 h 05 min; 08:00 - 07:35 = 25 min; 11:00 - 09:30 = 1 h 30 min (worked by hand)
+    text = flat(render_note(compute_raw(base_case())))
+    assert "14.2 mg/L: drawn 10 h 05 min after the end of the infusion of dose 2; 25 min before dose 3" in text
+    assert "31.2 mg/L: drawn 1 h 30 min after the end of the infusion of dose 3" in text
+
+
+def test_level_during_infusion_and_set_aside():
+    raw = base_case()
+    raw["levels"].append({"time": "2026-03-03T09:05", "conc": "48.0 mg/L", "use": False,
+                          "reason": "drawn from the infusion line"})
+    text = flat(render_note(compute_raw(raw)))
+    # 09:05 - 08:00 = 1 h 05 min into the 90 min infusion of dose 3 (by hand)
+    assert "48.0 mg/L: drawn during the infusion of dose 3, 1 h 05 min after its start" in text
+    assert "SET ASIDE: drawn from the infusion line" in text
+
+
+@pytest.mark.parametrize("n", [1, 3, 6])
+def test_steady_state_share_is_the_accumulation_factor(n):
+    # constant regimen from t = 0, level 4 h after the n-th start (after the 1 h infusion):
+    # C_n / C_ss = 1 - exp(-n ke tau) (pk-sources.md 2.3, one-compartment accumulation)
+    ke, v, tau = 0.1, 50.0, 12.0
+    doses = [SimpleNamespace(start=k * tau, duration=1.0, amount=1000.0, end=k * tau + 1.0) for k in range(n)]
+    share = notefmt.steady_state_share(PKParams.one_compartment(ke, v), doses, (n - 1) * tau + 4.0,
+                                       {"dose_mg": 1000.0, "interval_h": tau, "infusion_h": 1.0})
+    assert share == pytest.approx(1.0 - math.exp(-n * ke * tau), rel=1e-9)
+
+
+def test_duration_wording():
+    # the note's clock wording: minutes below an hour, zero-padded minutes after hours
+    assert [notefmt.duration(h) for h in (35 / 60, 65 / 60, 12.0, 9.75)] == ["35 min", "1 h 05 min", "12 h",
+                                                                            "9 h 45 min"]
