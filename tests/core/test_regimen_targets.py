@@ -125,3 +125,13 @@ def test_protocol_example_names_only_real_keys() -> None:
                 continue
             assert key in lib, f"{section}.{key}"
             assert Rules(lib.drug, proto).source(key) == "protocol"
+
+
+def test_overdue_dose_is_flagged_and_never_scheduled_in_the_past() -> None:
+    params = PKParams.one_compartment(0.0827, 51.6)
+    hist = DoseArrays.regimen(T0, 1000.0, 12.0, 1.0, 6)
+    as_of = float(hist.start[-1]) + 15.0  # the 12 h dose is 3 h late
+    plan = design(inp("vancomycin", params, hist, as_of=as_of, current=CurrentRegimen(1000.0, 12.0, 1.0)))
+    assert plan.regimen["action"] == "continue"
+    assert "dose-overdue" in [a.code for a in plan.alerts]
+    assert CLOCK.parse(plan.regimen["next_dose_at"], "t") >= as_of - 1.0 / 120.0

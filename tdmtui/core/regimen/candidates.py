@@ -322,6 +322,30 @@ def with_draws(cand: Candidate, samples: Any, targets: Targets, dose_ref: float 
     return replace(cand, probability=prob, interval90=iv)
 
 
+def table_probabilities(cands: list[Candidate], samples: Any, targets: Targets,
+                        dose_ref: float | None = None) -> list[float | None]:
+    """Probability of target for every candidate, from batched draws (None for other draws).
+
+    Figures are linear in the dose, so each (interval, infusion) pair is
+    evaluated once per draw for 1 mg and scaled.
+    """
+    if samples is None or not (hasattr(samples, "steady_state") and hasattr(samples, "cl")):
+        return [None] * len(cands)
+    w = getattr(samples, "weights", None)
+    cache: dict[tuple[float, float, float], tuple[np.ndarray, ...]] = {}
+    out: list[float | None] = []
+    for c in cands:
+        key = (c.interval_h, c.infusion_h, c.peak_ref_h)
+        if key not in cache:
+            ss = samples.steady_state(1.0, c.interval_h, c.infusion_h, c.peak_ref_h - c.infusion_h)
+            cache[key] = (ss["peak"], ss["trough"], ss["auc24"])
+        ref, tr, au = cache[key]
+        d = c.dose_mg
+        on, _ = judge(targets, d * ref, d * tr, d * au, np.full(ref.shape, d), dose_ref)
+        out.append(float(np.mean(on)) if w is None else float(np.sum(w[on])))
+    return out
+
+
 def textbook_redesign(ke: float, v: float, tinf: float, cmax: float, cmin: float,
                       intervals: list[float], rounding: float) -> dict[str, float]:
     """Textbook peak/trough redesign (pk-sources.md 2.4, Bauer's form).

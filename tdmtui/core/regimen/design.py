@@ -30,7 +30,7 @@ from tdmtui.core.alerts import Alert
 from tdmtui.core.models import steady_state
 from tdmtui.core.regimen import continuous, handover, loading, nomogram
 from tdmtui.core.regimen.candidates import (Candidate, choose, evaluate, infusion_time, judge, search,
-                                            terminal_rate, with_draws)
+                                            table_probabilities, terminal_rate, with_draws)
 from tdmtui.core.regimen.targets import Targets, resolve_targets
 from tdmtui.core.regimen.types import Plan, RegimenInput
 
@@ -194,6 +194,9 @@ def finish(inp: RegimenInput, targets: Targets, mode: str, plan: Plan, cands: li
     rules, params, alerts = inp.rules, inp.params, plan.alerts
     assert params is not None
     plan.candidates = [c.to_dict() for c in cands]
+    if inp.samples is not None and len(inp.samples):
+        for row, prob in zip(plan.candidates, table_probabilities(cands, inp.samples, targets, _dose_ref(inp, mode))):
+            row["probability"] = prob
     current = _current(inp, targets, mode)
     tie = float(rules.get("regimen.choice_tie_rel", 0.0))
     span = rules.get("regimen.max_interval_half_lives")
@@ -223,6 +226,12 @@ def finish(inp: RegimenInput, targets: Targets, mode: str, plan: Plan, cands: li
     else:
         alerts.append(Alert("regimen-no-candidate", "caution", "target", "no candidate regimen under the caps"))
         return plan
+    if continuing and len(inp.history) and inp.current is not None:
+        due = float(inp.history.start[-1]) + inp.current.interval_h
+        if due < inp.as_of - 1.0 / 60.0:
+            alerts.append(Alert("dose-overdue", "caution", "doses",
+                                f"the next dose of the standing order was due at {inp.clock.format(due)}, before the "
+                                f"assessment time; no later dose is recorded"))
     if current is not None and not _within_caps(current, rules):
         alerts.append(Alert("current-over-cap", "caution", "schedule", "the standing order is above the single or daily dose cap"))
     _cap_alert(inp, targets, chosen, alerts)
