@@ -129,20 +129,6 @@ def _levels(outcome: Any) -> list[str]:
     return lines
 
 
-def _level_name(case: Any, field: str) -> str:
-    """``levels[1]`` as ``19.0 mg/L at 2026-01-15 19:30``."""
-    for lv in case.levels:
-        if field == f"levels[{lv.index}]":
-            return f"{f.conc(lv.conc)} mg/L at {f.when(case.clock.format(lv.time))}"
-    return field
-
-
-def _row_name(name: str, e: dict[str, Any]) -> str:
-    """A method's table label, naming its model when the method id does not."""
-    model = (e.get("model") or {}).get("id")
-    return f"{name}:{model}" if model and ":" not in name and name != "population" else name
-
-
 def _estimates(outcome: Any) -> list[str]:
     res = outcome.result
     est, method = res.get("estimate"), res.get("method")
@@ -156,7 +142,7 @@ def _estimates(outcome: Any) -> list[str]:
         if est.get("assumption"):
             lines += f.wrap(f"Assumption: {est['assumption']}.")
         if est.get("levels_used"):
-            lines += f.wrap("Levels used: " + ", ".join(_level_name(outcome.case, x) for x in est["levels_used"]) + ".")
+            lines += f.wrap("Levels used: " + ", ".join(f.level_name(outcome.case, x) for x in est["levels_used"]) + ".")
         model = est.get("model") or {}
         if model:
             lines += f.wrap(f"Model: {model.get('id')}: {model.get('citation', '')}")
@@ -166,8 +152,8 @@ def _estimates(outcome: Any) -> list[str]:
             if model.get("covariates"):
                 cov = ", ".join(f"{k} {v:.4g}" for k, v in model["covariates"].items())
                 lines += f.wrap(f"Covariates: {cov}.")
-        rows = [(_row_name(est.get("method", method), est) + " (used)",) + f.estimate_cells(est)]
-        rows += [(_row_name(name, e),) + f.estimate_cells(e) for name, e in res.get("methods", {}).items()]
+        rows = [(f.row_name(est.get("method", method), est) + " (used)",) + f.estimate_cells(est)]
+        rows += [(f.row_name(name, e),) + f.estimate_cells(e) for name, e in res.get("methods", {}).items()]
         width = max(16, min(36, max(len(r[0]) for r in rows) + 1))
         lines.append("")
         lines += f.table(("Method", "ke /h", "t1/2 h", "Vd L", "CL L/h", "AUC24"), rows, width)
@@ -191,7 +177,16 @@ def _estimates(outcome: Any) -> list[str]:
     return lines
 
 
-def _regimen(outcome: Any) -> list[str]:
+def _chosen(reg: dict[str, Any], chosen: dict[str, Any] | None) -> list[str]:
+    """The regimen picked in review, when it is not the proposal."""
+    keys = ("dose_mg", "interval_h", "infusion_h")
+    if not chosen or all(chosen.get(k) == reg.get(k) for k in keys):
+        return []
+    return f.wrap(f"Chosen in review instead: {f.regimen_words(chosen)}; predicted at steady state: "
+                  + f.predicted(chosen.get("predicted") or {}) + ".")
+
+
+def _regimen(outcome: Any, chosen: dict[str, Any] | None = None) -> list[str]:
     res = outcome.result
     est, cur, reg = res.get("estimate") or {}, res.get("current_regimen"), res.get("regimen")
     lines = f.heading("Regimen")
@@ -209,6 +204,7 @@ def _regimen(outcome: Any) -> list[str]:
     lines += f.wrap(f"Proposed: {verb.get(reg['action'], reg['action'])} {f.regimen_words(reg)}"
                     + (f" ({f.mg(reg['daily_dose_mg'])} mg a day)." if reg.get("daily_dose_mg") else "."))
     lines += f.wrap("Predicted at steady state: " + f.predicted(reg.get("predicted") or {}) + ".", "  ")
+    lines += _chosen(reg, chosen)
     fc = reg.get("forecast_auc")
     if fc:
         lines += f.wrap(f"Predicted AUC from {f.when(fc.get('from'))}: first 24 h "
@@ -269,12 +265,15 @@ def _record(outcome: Any) -> list[str]:
     return lines
 
 
-def render_note(outcome: Any) -> str:
+def render_note(outcome: Any, chosen: dict[str, Any] | None = None) -> str:
     """The chart note for a computed case, plain text within 80 columns.
 
     Args:
         outcome: a :class:`~tdmtui.core.compute.Outcome` (its ``result``,
             ``case``, ``renal``, ``rules``, ``params``).
+        chosen: optional regimen picked in review (shaped like
+            ``result["regimen"]``: ``dose_mg``, ``interval_h``, ``infusion_h``,
+            ``predicted``), printed beside the proposal when it differs.
 
     Returns:
         The note, lines joined with newlines, ending with a newline.
@@ -288,6 +287,6 @@ def render_note(outcome: Any) -> str:
     lines += f.wrap(f"Indication: {case.target.indication or 'not given'}.")
     lines += f.target_lines(res, case, outcome.rules.get("mic.default_mg_l") if outcome.rules else None)
     lines += _patient(outcome) + _doses(outcome) + _levels(outcome) + _estimates(outcome)
-    lines += _regimen(outcome) + _monitoring(outcome) + _warnings(res)
+    lines += _regimen(outcome, chosen) + _monitoring(outcome) + _warnings(res)
     lines += [""] + f.wrap(NOTE_LINE, "", "") + [""] + list(SIGNATURE) + _record(outcome)
     return "\n".join(f.fit(lines)) + "\n"

@@ -12,7 +12,7 @@ t1/2       1 decimal place              8.4 h
 Vd         1 decimal place              51.6 L
 CL         2 decimal places             4.27 L/h
 AUC24      whole number                 703 mg*h/L
-conc.      1 decimal (2 below 1 mg/L)   18.2 mg/L, 0.16 mg/L
+conc.      1 decimal (2 below 1 mg/L)   18.2 mg/L, 0.16 mg/L, <0.01
 CrCl       whole number                 92 mL/min
 weight     1 decimal place              70.5 kg
 SCr        up to 2 decimals             0.9 mg/dL
@@ -63,11 +63,13 @@ def auc(x: float | None) -> str:
 
 
 def conc(x: float | None) -> str:
-    """Concentration, mg/L: 1 decimal place, 2 below 1 mg/L."""
+    """Concentration, mg/L: 1 decimal place, 2 below 1 mg/L, ``<0.01`` below 0.005."""
     if x is None:
         return "-"
     if x == 0:
         return "0"
+    if 0 < x < 0.005:
+        return "<0.01"
     return f"{x:.2f}" if abs(x) < 1.0 else f"{x:.1f}"
 
 
@@ -236,19 +238,20 @@ def target_lines(result: dict[str, Any], case: Any, default_mic: float | None) -
     if tg:
         bands = []
         for key, label, fmt, unit in (("auc24_mg_h_per_l", "AUC24", auc, "mg*h/L"),
-                                      ("peak_mg_per_l", "peak", conc, "mg/L"),
-                                      ("trough_mg_per_l", "trough", conc, "mg/L"),
+                                      ("peak_mg_per_l", "Peak", conc, "mg/L"),
+                                      ("trough_mg_per_l", "Trough", conc, "mg/L"),
                                       ("css_mg_per_l", "Css", conc, "mg/L")):
             if tg.get(key):
                 lo, hi = tg[key]
                 src = key.split("_")[0]
                 why = (tg.get("citations") or {}).get(src) or (tg.get("sources") or {}).get(src, "")
-                bands.append(f"{label} {fmt(lo)}-{fmt(hi)} {unit} ({why})")
+                bands.append(f"{label} {fmt(lo)}-{fmt(hi)} {unit}: {why}.")
         ref = str(tg.get("peak_reference") or "")
         if ref.startswith("start+"):
-            bands.append(f"peak read {ref[6:].replace('h', ' h').replace('  ', ' ')} after the start of the dose")
-        mode = MODES.get(str(tg.get("mode")), str(tg.get("mode", "-")))
-        lines += wrap(f"Target ({mode}): " + "; ".join(bands) + ".")
+            bands.append(f"Peak read {ref[6:].replace('h', ' h').replace('  ', ' ')} after the start of the dose.")
+        lines.append(f"Target ({MODES.get(str(tg.get('mode')), str(tg.get('mode', '-')))}):")
+        for band in bands:
+            lines += wrap(band, "  ", "  ")
         mic = tg.get("mic_mg_per_l")
     else:
         lines.append("Target: not assessed (no regimen is designed while a stop stands).")
@@ -281,3 +284,17 @@ def predicted(p: dict[str, Any]) -> str:
 def regimen_words(r: dict[str, Any]) -> str:
     """``1000 mg every 12 h, infused over 1 h``."""
     return f"{mg(r['dose_mg'])} mg {every(r['interval_h'])}, infused over {duration(r['infusion_h'])}"
+
+
+def level_name(case: Any, field: str) -> str:
+    """``levels[1]`` as ``19.0 mg/L at 2026-01-15 19:30``."""
+    for lv in case.levels:
+        if field == f"levels[{lv.index}]":
+            return f"{conc(lv.conc)} mg/L at {when(case.clock.format(lv.time))}"
+    return field
+
+
+def row_name(name: str, e: dict[str, Any]) -> str:
+    """A method's table label, naming its model when the method id does not."""
+    model = (e.get("model") or {}).get("id")
+    return f"{name}:{model}" if model and ":" not in name and name != "population" else name

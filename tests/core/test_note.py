@@ -248,3 +248,17 @@ def test_duration_wording():
     # the note's clock wording: minutes below an hour, zero-padded minutes after hours
     assert [notefmt.duration(h) for h in (35 / 60, 65 / 60, 12.0, 9.75)] == ["35 min", "1 h 05 min", "12 h",
                                                                             "9 h 45 min"]
+
+
+def test_regimen_chosen_in_review_is_printed_beside_the_proposal():
+    out = outcome_of("vanc-steady-state")
+    alts = (out.result.get("regimen") or {}).get("alternatives") or []
+    if not alts:
+        pytest.skip("no alternative regimen in the result of vanc-steady-state")
+    alt = alts[0]
+    text = flat(render_note(out, chosen=alt))
+    m = re.search(r"Chosen in review instead: ([\d.]+) mg every .*?AUC24 ([\d.]+) mg\*h/L", text)
+    assert m, "chosen regimen missing"
+    assert float(m.group(1)) == pytest.approx(alt["dose_mg"])
+    assert close_to_printed(m.group(2), alt["predicted"]["auc24_mg_h_per_l"])
+    assert "Chosen in review" not in render_note(out, chosen=out.result["regimen"])
