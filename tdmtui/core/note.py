@@ -64,7 +64,7 @@ def _patient(outcome: Any) -> list[str]:
             lines.append(f"  SCr trend: unchanged over {span}, first to latest.")
         else:
             lines += f.wrap(f"SCr trend: {'up' if change > 0 else 'down'} {f.scr(abs(change))} mg/dL "
-                            f"({change / a.value:+.0%}) over {span}, first to latest.", "  ")
+                            f"({100.0 * change / a.value:+.0f} %) over {span}, first to latest.", "  ")
     floor = float(rules.value("renal.scr_floor_mg_dl")) if rules else 0.0
     if floor > 0:
         used = renal.scr_used_mg_dl if renal else rp.get("scr_used_mg_dl")

@@ -38,8 +38,8 @@ WIDTH = 80
 # --- numbers -------------------------------------------------------------------
 
 def ke(x: float | None) -> str:
-    """Elimination rate constant, 1/h: 3 significant figures."""
-    return "-" if x is None else f"{x:.3g}"
+    """Elimination rate constant, 1/h: 3 significant figures, trailing zeros kept."""
+    return "-" if x is None else f"{x:#.3g}".rstrip(".")
 
 
 def hours(x: float | None) -> str:
