@@ -93,18 +93,20 @@ def exponentials(cl, v1, q, v2) -> tuple[np.ndarray, np.ndarray]:  # noqa: ANN00
     A', B', written without cancellation: alpha - beta = sqrt((k10 + k12 - k21)^2
     + 4 k12 k21), beta = k10 k21 / alpha.
     """
-    cl, v1, q, v2 = (np.atleast_1d(np.asarray(x, dtype=float)) for x in (cl, v1, q, v2))
+    cl, v1, q, v2 = (x if isinstance(x, np.ndarray) and x.ndim == 1 else np.atleast_1d(np.asarray(x, float))
+                     for x in (cl, v1, q, v2))
     if not np.any(q > 0):
         return (cl / v1)[:, None], np.ones((cl.size, 1))
     k10, k12, k21 = cl / v1, q / v1, q / v2
     x = k10 + k12 - k21
-    root = np.sqrt(x * x + 4.0 * k12 * k21)
-    alpha = 0.5 * (k10 + k12 + k21 + root)
-    beta = k10 * k21 / alpha
-    four = 4.0 * k12 * k21  # (root + x)(root - x) = four, and root > |x|
-    num_a = np.where(x >= 0, 0.5 * (x + root), four / (2.0 * (root - x)))  # alpha - k21
-    num_b = np.where(x <= 0, 0.5 * (root - x), four / (2.0 * (root + x)))  # k21 - beta
-    return np.stack([alpha, beta], 1), np.stack([num_a, num_b], 1) / root[:, None]
+    half_four = 2.0 * k12 * k21  # (root + x)(root - x) = 4 k12 k21, and root > |x|
+    root = np.sqrt(x * x + 2.0 * half_four)
+    out = np.empty((cl.size, 2, 2))  # [:, 0] exponents alpha, beta; [:, 1] weights A', B'
+    out[:, 0, 0] = 0.5 * (k10 + k12 + k21 + root)
+    out[:, 0, 1] = k10 * k21 / out[:, 0, 0]
+    out[:, 1, 0] = np.where(x >= 0, 0.5 * (x + root), half_four / (root - x)) / root  # (alpha - k21)/root
+    out[:, 1, 1] = np.where(x <= 0, 0.5 * (root - x), half_four / (root + x)) / root  # (k21 - beta)/root
+    return out[:, 0], out[:, 1]
 
 
 @dataclass(frozen=True)
@@ -172,18 +174,21 @@ def batch_steady_state(cl, v1, q, v2, dose: float, tau: float, tinf: float,  # n
 
 
 def _stencil(p: int, h: float) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Central-difference points (npts, p) and the linear maps from OFV values to gradient and Hessian."""
+    """Central-difference points (npts, p) and the linear maps from OFV values to gradient and Hessian.
+
+    Gradient to fourth order, (8 (f(h) - f(-h)) - (f(2h) - f(-2h))) / 12h; Hessian to second order.
+    """
     eye = np.eye(p)
     pairs = [(i, j) for i in range(p) for j in range(i + 1, p)]
-    pts = [np.zeros((1, p)), eye, -eye] + [np.array([eye[i] + eye[j], eye[i] - eye[j], eye[j] - eye[i],
-                                                      -eye[i] - eye[j]]) for i, j in pairs]
-    n = 1 + 2 * p + 4 * len(pairs)
+    pts = [np.zeros((1, p)), eye, -eye, 2 * eye, -2 * eye] + [
+        np.array([eye[i] + eye[j], eye[i] - eye[j], eye[j] - eye[i], -eye[i] - eye[j]]) for i, j in pairs]
+    n = 1 + 4 * p + 4 * len(pairs)
     grad, hess = np.zeros((p, n)), np.zeros((p, p, n))
     for i in range(p):
-        grad[i, 1 + i], grad[i, 1 + p + i] = 0.5 / h, -0.5 / h
+        grad[i, [1 + i, 1 + p + i, 1 + 2 * p + i, 1 + 3 * p + i]] = np.array([8.0, -8.0, -1.0, 1.0]) / (12.0 * h)
         hess[i, i, [0, 1 + i, 1 + p + i]] = np.array([-2.0, 1.0, 1.0]) / h ** 2
     for k, (i, j) in enumerate(pairs):
-        hess[i, j, 1 + 2 * p + 4 * k:5 + 2 * p + 4 * k] = np.array([1.0, -1.0, -1.0, 1.0]) / (4.0 * h * h)
+        hess[i, j, 1 + 4 * p + 4 * k:5 + 4 * p + 4 * k] = np.array([1.0, -1.0, -1.0, 1.0]) / (4.0 * h * h)
         hess[j, i] = hess[i, j]
     return h * np.vstack(pts), grad, hess.reshape(p * p, n)
 
@@ -228,8 +233,8 @@ class Posterior:
     def value_and_grad(self, eta: np.ndarray) -> tuple[float, np.ndarray]:
         """OFV and its central-difference gradient (step 1e-3 in eta), one batch."""
         pts, grad, _ = self.stencil
-        f = self(eta + pts[:1 + 2 * eta.size])
-        return float(f[0]), grad[:, :1 + 2 * eta.size] @ f
+        f = self(eta + pts[:1 + 4 * eta.size])
+        return float(f[0]), grad[:, :1 + 4 * eta.size] @ f
 
     def derivatives(self, eta: np.ndarray) -> tuple[float, np.ndarray, np.ndarray]:
         """OFV, gradient and Hessian by central differences (step 1e-3 in eta), one batch."""
@@ -260,8 +265,9 @@ def _newton(post: Posterior, x: np.ndarray, bound: np.ndarray, max_iter: int = 6
             steps = 0.5 ** np.arange(1, 20)
             cand = np.clip(x + steps[:, None] * step, -bound, bound)
             ok = np.flatnonzero(post(cand) <= f + 1e-4 * steps * slope)
-            if ok.size == 0:
-                return None
+            if ok.size == 0:  # no decrease left: converged if within rounding of the minimum
+                done = shift == 0.0 and -slope < 1e-7 and np.all(np.abs(x) < bound * (1 - 1e-6))
+                return (x, f, hess, it) if done else None
             trial = cand[ok[0]]
             f_t, g_t, h_t = post.derivatives(trial)
         x, f, g, hess = trial, f_t, g_t, h_t
