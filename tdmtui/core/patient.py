@@ -333,7 +333,7 @@ def scr_alerts(series: list[tuple[float, float, int | None]], rules: Rules,
         out.append(Alert(
             "scr-unstable", "caution", f"{_scr_field(ij)}.value",
             f"SCr {verb} from {_mg_dl(vi)} mg/dL ({_when(ti, clock)}) to {_mg_dl(vj)} mg/dL ({_when(tj, clock)}): "
-            f"{vj - vi:+.2f} mg/dL ({100 * (vj - vi) / vi:+.0f} %) in {tj - ti:g} h; "
+            f"{vj - vi:+.2f} mg/dL ({100 * (vj - vi) / vi:+.0f} %) in {f"{tj - ti:.1f}".removesuffix(".0")} h; "
             "Cockcroft-Gault and eGFR assume stable renal function"))
     return out
 
