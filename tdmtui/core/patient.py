@@ -303,6 +303,11 @@ def _mg_dl(v: float) -> str:
     return text[:-1] if text.endswith("0") else text
 
 
+def _hours(h: float) -> str:
+    """A duration for text, to 0.1 h (24, 23.8)."""
+    return f"{h:.1f}".removesuffix(".0")
+
+
 def _when(t: float, clock: Clock | None) -> str:
     return clock.format(t) if clock is not None else f"{t:g} h"
 
@@ -333,7 +338,7 @@ def scr_alerts(series: list[tuple[float, float, int | None]], rules: Rules,
         out.append(Alert(
             "scr-unstable", "caution", f"{_scr_field(ij)}.value",
             f"SCr {verb} from {_mg_dl(vi)} mg/dL ({_when(ti, clock)}) to {_mg_dl(vj)} mg/dL ({_when(tj, clock)}): "
-            f"{vj - vi:+.2f} mg/dL ({100 * (vj - vi) / vi:+.0f} %) in {f"{tj - ti:.1f}".removesuffix(".0")} h; "
+            f"{vj - vi:+.2f} mg/dL ({100 * (vj - vi) / vi:+.0f} %) in {_hours(tj - ti)} h; "
             "Cockcroft-Gault and eGFR assume stable renal function"))
     return out
 
