@@ -10,20 +10,18 @@ residual Var_j = a^2 + (b C_pred,j)^2 as the model states. The objective is
 
 Censored levels enter as the probability of lying beyond the limit (Beal's
 M3, Beal 2001 - from memory for the citation), never as the limit itself.
-The MAP is found by L-BFGS-B on eta within +-5 SD of the population value,
-from eta = 0 and, if that fails, from the best point of a +-2 SD grid; an
-estimate that does not converge, or that lands on the bound, raises
-ConvergenceError. Uncertainty: the Laplace approximation (covariance of eta =
-2 H^-1, H the finite-difference Hessian of OFV at the MAP), sampled with a
-recorded seed; :func:`importance_intervals` re-weights draws by
-posterior/proposal to check it.
+The MAP: damped Newton from eta = 0 (gradient and Hessian by central
+differences, one batch per step) within +-5 SD of the population value, then
+L-BFGS-B from the best point of a +-2 SD grid if that fails; no convergence,
+or an answer on the bound, raises ConvergenceError. Uncertainty: Laplace
+(cov(eta) = 2 H^-1 at the MAP), sampled with a recorded seed;
+:func:`importance_samples` re-weights draws by posterior/proposal to check it.
 
 Speed: the shared predictor (:mod:`tdmtui.core.models`) takes one parameter
-set per call (about 260 us for 20 doses and 4 levels, 140 us per steady
-state, measured), too slow for a fit under 2 ms or 2,000 posterior draws, so
-this module evaluates the same closed forms (pk-sources.md 2.2, 2.3, 2.6)
-for a whole batch of parameter sets at once (:func:`batch_concentration`,
-:func:`batch_steady_state`). scipy is imported inside functions.
+set per call (measured about 260 us for 20 doses and 4 levels, 140 us per
+steady state): too slow for a 2 ms fit or 2,000 draws, so the same closed
+forms (pk-sources.md 2.2, 2.3, 2.6) are evaluated here for a whole batch of
+parameter sets (:func:`batch_concentration`, :func:`batch_steady_state`).
 """
 
 from __future__ import annotations
@@ -81,9 +79,6 @@ class Observations:
 
 Observation = Observations
 NO_LEVELS = Observations.from_lists([], [])
-
-
-# --- batch closed forms (pk-sources.md 2.2, 2.3, 2.6) -----------------------
 
 
 def exponentials(cl, v1, q, v2) -> tuple[np.ndarray, np.ndarray]:  # noqa: ANN001
@@ -170,9 +165,6 @@ def batch_steady_state(cl, v1, q, v2, dose: float, tau: float, tinf: float,  # n
             "auc24": 24.0 * dose / (tau * np.atleast_1d(np.asarray(cl, dtype=float)))}
 
 
-# --- the posterior ----------------------------------------------------------
-
-
 def _stencil(p: int, h: float) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Central-difference points (npts, p) and the linear maps from OFV values to gradient and Hessian.
 
@@ -203,6 +195,7 @@ class Posterior:
         self.omega_inv = np.linalg.inv(model.omega)
         self.design = Design.build(doses, obs.time)
         self.stencil = _stencil(len(self.index), 1e-3)
+        self.all_quantified = bool(np.all(obs.quantified))
 
     def params(self, eta: np.ndarray) -> list[np.ndarray]:
         """Parameter arrays (cl, v1, q, v2) for eta of shape (m, p)."""
@@ -215,20 +208,20 @@ class Posterior:
     def __call__(self, eta: np.ndarray) -> np.ndarray:
         """OFV for eta of shape (m, p); shape (m,)."""
         eta = np.atleast_2d(eta)
-        ofv = np.einsum("mi,ij,mj->m", eta, self.omega_inv, eta)
+        ofv = np.sum((eta @ self.omega_inv) * eta, 1)
         if len(self.obs) == 0:
             return ofv
         o = self.obs
         pred = batch_concentration(*self.params(eta), self.design)
         var = np.maximum(self.model.additive_sd ** 2 + (self.model.proportional_sd * pred) ** 2, _VAR_FLOOR)
+        if self.all_quantified:
+            return ofv + np.sum((o.conc - pred) ** 2 / var + np.log(var), 1)
         q = o.quantified
         ofv = ofv + np.sum((o.conc[q] - pred[:, q]) ** 2 / var[:, q] + np.log(var[:, q]), 1)
-        if not np.all(q):
-            from scipy.special import log_ndtr
+        from scipy.special import log_ndtr
 
-            z = (o.conc - pred) / np.sqrt(var)  # Beal M3: P(below LOQ) = Phi(z), P(above ULOQ) = Phi(-z)
-            ofv = ofv - 2.0 * np.sum(log_ndtr(z[:, o.below_loq]), 1) - 2.0 * np.sum(log_ndtr(-z[:, o.above_uloq]), 1)
-        return ofv
+        z = (o.conc - pred) / np.sqrt(var)  # Beal M3: P(below LOQ) = Phi(z), P(above ULOQ) = Phi(-z)
+        return ofv - 2.0 * np.sum(log_ndtr(z[:, o.below_loq]), 1) - 2.0 * np.sum(log_ndtr(-z[:, o.above_uloq]), 1)
 
     def value_and_grad(self, eta: np.ndarray) -> tuple[float, np.ndarray]:
         """OFV and its central-difference gradient (step 1e-3 in eta), one batch."""
@@ -272,9 +265,6 @@ def _newton(post: Posterior, x: np.ndarray, bound: np.ndarray, max_iter: int = 6
             f_t, g_t, h_t = post.derivatives(trial)
         x, f, g, hess = trial, f_t, g_t, h_t
     return None
-
-
-# --- fits -------------------------------------------------------------------
 
 
 @dataclass(frozen=True, eq=False)
@@ -391,9 +381,6 @@ def map_fit(model: PopModel, covariates: Covariates, doses: DoseArrays, observat
         raise ConvergenceError(f"{model.name}: the MAP objective is not at a minimum (curvature not positive)")
     return _make_fit(post, typical, doses, eta.copy(), 2.0 * np.linalg.inv(hess), ofv,
                      f"{message}, {nit} iterations", seed)
-
-
-# --- uncertainty ------------------------------------------------------------
 
 
 @dataclass(frozen=True, eq=False)
