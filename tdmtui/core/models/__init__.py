@@ -119,3 +119,51 @@ class SteadyState:
     peak: float
     trough: float
     auc24: float
+
+
+# --- dispatch on the model structure (one- or two-compartment) ---------------
+# The model modules import this package's dataclasses, so they are imported
+# inside the functions to keep the import order free of cycles.
+
+
+def _structure(params: PKParams) -> tuple:
+    """Validate ``params`` and return the positional parameters of its model."""
+    if not (math.isfinite(params.q) and math.isfinite(params.v2)) or params.q < 0.0 or params.v2 < 0.0:
+        raise ValueError(f"q and v2 must be finite and >= 0, got q={params.q!r}, v2={params.v2!r}")
+    if (params.q > 0.0) != (params.v2 > 0.0):
+        raise ValueError("q and v2 must both be > 0 (two-compartment) or both 0 (one-compartment)")
+    if params.is_two_compartment:
+        return (params.cl, params.v1, params.q, params.v2)
+    if not (math.isfinite(params.cl) and params.cl > 0.0 and math.isfinite(params.v1) and params.v1 > 0.0):
+        raise ValueError(f"cl and v1 must be finite and > 0, got cl={params.cl!r}, v1={params.v1!r}")
+    return (params.cl / params.v1, params.v1)
+
+
+def _module(params: PKParams):  # noqa: ANN202
+    if params.is_two_compartment:
+        from tdmtui.core.models import twocomp
+
+        return twocomp
+    from tdmtui.core.models import onecomp
+
+    return onecomp
+
+
+def concentration(params: PKParams, doses: DoseArrays, t) -> np.ndarray:  # noqa: ANN001
+    """Central concentration, mg/L, at times ``t`` (h, any shape); see onecomp/twocomp."""
+    return _module(params).concentration(*_structure(params), doses, t)
+
+
+def auc(params: PKParams, doses: DoseArrays, a: float, b: float) -> float:
+    """Exact AUC, mg*h/L, over [a, b] h; see onecomp/twocomp."""
+    return _module(params).auc(*_structure(params), doses, a, b)
+
+
+def steady_state(params: PKParams, dose: float, tau: float, tinf: float) -> SteadyState:
+    """Steady-state peak, trough and AUC24 for ``dose`` mg every ``tau`` h over ``tinf`` h."""
+    return _module(params).steady_state(*_structure(params), dose, tau, tinf)
+
+
+def time_to_fall(params: PKParams, doses: DoseArrays, t0: float, level: float) -> float | None:
+    """First time >= t0, h, when the concentration is <= ``level`` mg/L (None if never)."""
+    return _module(params).time_to_fall(*_structure(params), doses, t0, level)
