@@ -35,7 +35,7 @@ from tdmtui.ui.sections.plan import PlanSection
 
 SECTIONS = (("patient", "Patient"), ("doses", "Doses"), ("levels", "Levels"),
             ("estimate", "Estimate"), ("plan", "Plan"), ("note", "Note"))
-DEBOUNCE_S = 0.25
+DEBOUNCE_S = 0.5
 SPINNER_AFTER_S = 0.1
 
 
@@ -208,7 +208,23 @@ class TdmApp(App[int]):
             self._debounce = self.set_timer(DEBOUNCE_S, self.start_compute)
 
     def start_compute(self) -> None:
+        """Check the case here (cheap, no scipy); only a case that reads goes to the worker.
+
+        The engine holds the interpreter for seconds on a busy machine, so it is
+        not started while the case is still half typed.
+        """
+        from tdmtui.core.case import parse_case
+        from tdmtui.core.errors import InputError
+
         self.generation += 1
+        try:
+            parse_case(self.doc.raw)
+        except InputError as exc:
+            self.post_message(EstimateFailed(self.generation, "input", exc.field, exc.message))
+            return
+        except Exception as exc:  # noqa: BLE001 - shown, never a crash
+            self.post_message(EstimateFailed(self.generation, "error", "", f"{type(exc).__name__}: {exc}"))
+            return
         self.computing = True
         if self._spinner is not None:
             self._spinner.stop()
@@ -272,10 +288,20 @@ class TdmApp(App[int]):
         self.query_one(EstimateSection).show(None, None)
         self.query_one(PlanSection).show(None)
         where = f"{event.field}: " if event.field else ""
+        if event.kind == "input" and self.field_is_empty(event.field):
+            event.message = "still to fill in"
         label = {"input": "INPUT", "no-estimate": "NO ESTIMATE", "error": "ERROR"}[event.kind]
         self.set_status(f"{label} {where}{event.message}", error=True)
         self.show_warnings([])
         self.query_one(NoteSection).show("No note: the case does not compute yet.\n" + f"{label} {where}{event.message}")
+
+    def field_is_empty(self, field: str) -> bool:
+        """True when the case path the engine named holds nothing yet ("" or missing)."""
+        import re
+
+        path: list[Any] = [int(p) if p.isdigit() else p for p in re.split(r"[.\[\]]+", field) if p]
+        value = self.doc.get(tuple(path), None)
+        return value == ""
 
     @on(PlanSection.RegimenChosen)
     def regimen_chosen(self, event: PlanSection.RegimenChosen) -> None:

@@ -64,6 +64,9 @@ def derived_text(raw: dict[str, Any]) -> tuple[str, str, float | None]:
     from tdmtui.core.units import parse_quantity
 
     p = raw.get("patient", {})
+    missing = [k for k in ("age", "sex", "weight", "height", "scr") if not p.get(k)]
+    if missing:
+        return "Derived values (IBW, AdjBW, BMI, CrCl, eGFR) appear as you type.", f"Still to fill in: {', '.join(missing)}.", None
     try:
         age = parse_quantity(p.get("age"), "age", "patient.age")
         weight = parse_quantity(p.get("weight"), "weight", "patient.weight")
@@ -154,7 +157,10 @@ class PatientSection(Vertical):
             return
         event.stop()
         key = wid[3:].removesuffix("-input")
-        e = self.entry(key, event.value)
+        e = self.entry(key, event.control.value)  # the field as it is now (a queued event may be stale)
+        if e.stored == self.value_of(key) or (e.stored is None and not self.value_of(key)):
+            self.query_one(f"#pt-{key}", FieldRow).show(e.note, e.error)
+            return
         if key in _PATHS:
             self.doc.set(_PATHS[key], e.stored)
         else:

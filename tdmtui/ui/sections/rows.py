@@ -78,8 +78,10 @@ class RowsSection(Vertical):
         title = self.query_one(f"#{self.NAME}-form-title", Label)
         form = self.query_one(f"#{self.NAME}-form")
         if not rows:
-            title.update(f"No {self.NAME} yet: press a to add one.")
+            title.update(f"No {self.NAME} yet: press a (or just type below) to add one.")
             form.set_class(True, "-empty")
+            for spec in self.FIELDS:
+                self.query_one(f"#{self.NAME}-{spec.key}", FieldRow).load(self.form_value(spec.key, {}))
             return
         form.set_class(False, "-empty")
         title.update(f"{self.TITLE} row {self.current + 1} of {len(rows)}  (Enter edit, Esc table)")
@@ -109,7 +111,7 @@ class RowsSection(Vertical):
         self.focus_form()
 
     def focus_form(self) -> None:
-        if self.rows():
+        if self.FIELDS:
             self.query_one(f"#{self.NAME}-{self.FIELDS[0].key}-input").focus()
 
     def entry(self, key: str, text: str, row: dict[str, Any]) -> Entry:
@@ -123,12 +125,21 @@ class RowsSection(Vertical):
     @on(Cycler.Changed)
     def _field_changed(self, event: Input.Changed | Cycler.Changed) -> None:
         widget_id = event.control.id or ""
-        if not widget_id.startswith(f"{self.NAME}-") or not self.rows():
+        if not widget_id.startswith(f"{self.NAME}-"):
             return
         event.stop()
+        if not self.rows():  # typing into the empty form starts the first row: nothing typed is dropped
+            self.doc.insert_rows(self.NAME, 0, [self.new_row()])
+            self.current = 0
+            table = self.query_one(DataTable)
+            table.add_row(*self.cells(0, self.rows()[0]), key="0")
+            self.query_one(f"#{self.NAME}-form-title", Label).update(f"{self.TITLE} row 1 of 1  (Esc table)")
         key = widget_id[len(self.NAME) + 1:].removesuffix("-input")
         row = self.rows()[self.current]
-        e = self.entry(key, event.value, row)
+        e = self.entry(key, event.control.value, row)  # the field as it is now (a queued event may be stale)
+        if not e.key and e.stored == self.form_value(key, row):
+            self.query_one(f"#{self.NAME}-{key}", FieldRow).show(e.note, e.error)
+            return
         self.store(key, e, row)
         self.doc.dirty = True
         self.query_one(f"#{self.NAME}-{key}", FieldRow).show(e.note, e.error)

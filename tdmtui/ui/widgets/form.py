@@ -56,7 +56,7 @@ class FieldRow(Horizontal):
         if self.spec.kind == "choice":
             yield Cycler(self.spec.options, self._value, id=f"{self.id}-input")
         else:
-            yield Input(self._value, placeholder=self.spec.unit or self.spec.hint, compact=True, id=f"{self.id}-input",
+            yield Input(self._value, placeholder=self.spec.unit, compact=True, id=f"{self.id}-input",
                         select_on_focus=False)
         yield Label(self._idle_note(), classes="field-note", markup=False)
 

@@ -8,12 +8,14 @@ quantification), target limits "-" lines, "now" a "|" line.
 
 from __future__ import annotations
 
-import numpy as np
+from typing import TYPE_CHECKING
+
 from rich.text import Text
 from textual.widget import Widget
 
-from tdmtui.ui.widgets.canvas import BrailleCanvas, dashed, solid, sparse
-from tdmtui.ui.widgets.plotdata import PlotData
+if TYPE_CHECKING:  # numpy stays off the path to the first paint
+    from tdmtui.ui.widgets.canvas import BrailleCanvas
+    from tdmtui.ui.widgets.plotdata import PlotData
 
 LEGEND = "o level  x set aside  v <LOQ  \u28c0\u28c0 fitted  \u28c0 \u28c0 plan  \u2801 90% band  - target  | now"
 MARK = {"used": "o", "aside": "x", "blq": "v"}
@@ -22,6 +24,10 @@ Y_LABEL_W = 6
 
 def draw(data: PlotData, cols: int, rows: int) -> BrailleCanvas:
     """Rasterise PlotData onto a canvas of cols x rows cells."""
+    import numpy as np
+
+    from tdmtui.ui.widgets.canvas import BrailleCanvas, dashed, solid, sparse
+
     canvas = BrailleCanvas(cols, rows, data.x0, data.x1, 0.0, data.y_max())
     xs = canvas.dot_xs()
     if data.target:
