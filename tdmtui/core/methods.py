@@ -83,22 +83,55 @@ def _least_squares(ctx: MethodContext) -> Estimate:
                     f"weighted least squares through {len(obs)} levels, no prior")
 
 
+def _gap(a: Estimate, b: Estimate, cur: CurrentRegimen | None) -> tuple[float, str]:
+    """Relative difference on AUC24 (current regimen) where there is one, else on ke."""
+    ca, cb = a.current(cur), b.current(cur)
+    if ca and cb:
+        x, y, what = ca["auc24_mg_h_per_l"], cb["auc24_mg_h_per_l"], "AUC24"
+    else:
+        x, y, what = a.params.ke, b.params.ke, "ke"
+    return abs(x - y) / max(abs(x), abs(y)), what
+
+
 def compare(ctx: MethodContext, est: dict[str, Estimate], used: str) -> list[Alert]:
-    """Warn where methods disagree by more than the library's threshold (on AUC24, else ke)."""
+    """Warn where methods disagree by more than the library's threshold, saying which to trust less.
+
+    Pairs judged (issue rules): two-level vs Sawchuk-Zaske; two-level vs the
+    primary Bayesian estimate (on AUC24); and, against a two-compartment
+    Bayesian model, the two-level ke vs that model's terminal rate (beta).
+    """
     out: list[Alert] = []
     limit = float(ctx.rules.value("methods.disagreement_rel"))
-    a, b = est.get("two-level"), est.get("sawchuk-zaske")
+    a, b, bay = est.get("two-level"), est.get("sawchuk-zaske"), est.get("bayesian")
     if a and b:
-        ca, cb = a.current(ctx.current), b.current(ctx.current)
-        if ca and cb:
-            x, y, what = ca["auc24_mg_h_per_l"], cb["auc24_mg_h_per_l"], "AUC24"
-        else:
-            x, y, what = a.params.ke, b.params.ke, "ke"
-        if abs(x - y) / max(abs(x), abs(y)) > limit:
+        gap, what = _gap(a, b, ctx.current)
+        if gap > limit:
             out.append(Alert("methods-disagree", "caution", "levels",
-                             f"two-level and Sawchuk-Zaske differ on {what} by {abs(x - y) / max(abs(x), abs(y)):.0%} "
-                             f"(over {limit:.0%}): trust Sawchuk-Zaske less when the regimen was not at steady state "
-                             f"({b.assumption}); the two-level fit uses the whole dose history"))
+                             f"two-level and Sawchuk-Zaske differ on {what} by {gap:.0%} (over {limit:.0%}): "
+                             f"trust Sawchuk-Zaske less when the regimen was not at steady state ({b.assumption}); "
+                             "the two-level fit uses the whole dose history"))
+    if a and bay:
+        gap, what = _gap(a, bay, ctx.current)
+        if gap > limit:
+            model = (bay.model or {}).get("name", "the population model")
+            secondary = (bay.model or {}).get("verification") != "paper"
+            out.append(Alert("methods-disagree-bayesian", "caution", "levels",
+                             f"two-level and Bayesian ({model}) differ on {what} by {gap:.0%} (over {limit:.0%}): "
+                             + ("trust the Bayesian estimate less: its model is verified from a secondary source only "
+                                "and its prior pulls towards the model's population"
+                                if secondary else
+                                "trust the two-level estimate less when a level time is uncertain or the levels are "
+                                "close together; trust the Bayesian one less when the patient is outside its population")))
+        if bay.params.is_two_compartment:
+            from tdmtui.core.estimates import two_compartment_figures
+
+            beta = two_compartment_figures(bay.params)["beta_per_h"]
+            rel = abs(a.params.ke - beta) / max(a.params.ke, beta)
+            if rel > limit:
+                out.append(Alert("ke-vs-terminal-rate", "info", "levels",
+                                 f"two-level ke {a.params.ke:.4f} /h differs from the two-compartment model's terminal "
+                                 f"rate {beta:.4f} /h by {rel:.0%}: the one-compartment ke mixes distribution and "
+                                 "elimination when levels are drawn early; trust it less for long-interval predictions"))
     return out
 
 

@@ -22,10 +22,18 @@ def _wrap(text: str, indent: str = "") -> list[str]:
     return textwrap.wrap(text, WIDTH, initial_indent=indent, subsequent_indent=indent + "  ") or [indent]
 
 
+def short_name(name: str, drug: str, e: dict[str, Any]) -> str:
+    """A method name that fits the table: ``bayesian:vancomycin-goti-2018`` -> ``MAP goti-2018``."""
+    if name == "bayesian" and e.get("model"):
+        name = f"bayesian:{e['model']['id']}"
+    name = name.replace(f"{drug}-", "")
+    return name.replace("population:", "prior ").replace("bayesian:", "MAP ")[:19]
+
+
 def estimate_line(name: str, e: dict[str, Any]) -> str:
     """One row of the methods table."""
     cur = e.get("current") or {}
-    return (f"{name:<15}{_n(e['ke_per_h']):>8}{_n(e['half_life_h']):>7}{_n(e['vd_l']):>7}"
+    return (f"{name:<19}{_n(e['ke_per_h']):>8}{_n(e['half_life_h']):>7}{_n(e['vd_l']):>7}"
             f"{_n(e['vd_l_per_kg']):>6}{_n(e['cl_l_per_h']):>7}{_n(cur.get('auc24_mg_h_per_l')):>8}"
             f"{_n(cur.get('peak_mg_per_l')):>7}{_n(cur.get('trough_mg_per_l')):>7}")
 
@@ -45,10 +53,10 @@ def summary_text(result: dict[str, Any]) -> str:
     if est:
         lines.append("")
         lines.append(f"Method used: {result['method']}" + (f" - {est.get('assumption')}" if est.get("assumption") else ""))
-        lines.append(f"{'method':<15}{'ke /h':>8}{'t1/2 h':>7}{'Vd L':>7}{'L/kg':>6}{'CL L/h':>7}{'AUC24':>8}{'peak':>7}{'trough':>7}")
-        lines.append(estimate_line(est.get("method", result["method"]), est))
+        lines.append(f"{'method':<19}{'ke /h':>8}{'t1/2 h':>7}{'Vd L':>7}{'L/kg':>6}{'CL L/h':>7}{'AUC24':>8}{'peak':>7}{'trough':>7}")
+        lines.append(estimate_line(short_name(result["method"], result["drug"], est), est))
         for name, e in result.get("methods", {}).items():
-            lines.append(estimate_line(name, e))
+            lines.append(estimate_line(short_name(name, result["drug"], e), e))
         iv = est.get("interval90") or {}
         for key, (lo, hi) in iv.items():
             lines.append(f"  90 % interval {key}: {_n(lo)} to {_n(hi)}")
