@@ -223,12 +223,6 @@ class Posterior:
         z = (o.conc - pred) / np.sqrt(var)  # Beal M3: P(below LOQ) = Phi(z), P(above ULOQ) = Phi(-z)
         return ofv - 2.0 * np.sum(log_ndtr(z[:, o.below_loq]), 1) - 2.0 * np.sum(log_ndtr(-z[:, o.above_uloq]), 1)
 
-    def value_and_grad(self, eta: np.ndarray) -> tuple[float, np.ndarray]:
-        """OFV and its central-difference gradient (step 1e-3 in eta), one batch."""
-        pts, grad, _ = self.stencil
-        f = self(eta + pts[:1 + 4 * eta.size])
-        return float(f[0]), grad[:, :1 + 4 * eta.size] @ f
-
     def derivatives(self, eta: np.ndarray) -> tuple[float, np.ndarray, np.ndarray]:
         """OFV, gradient and Hessian by central differences (step 1e-3 in eta), one batch."""
         pts, grad, hess = self.stencil
@@ -364,8 +358,9 @@ def map_fit(model: PopModel, covariates: Covariates, doses: DoseArrays, observat
     if found is None:  # second start: L-BFGS-B from the best point of a +-2 SD grid
         axes = np.meshgrid(*[np.array([-2.0, 0.0, 2.0]) * s for s in sd], indexing="ij")
         grid = np.stack([a.reshape(-1) for a in axes], 1)
-        res = minimize(post.value_and_grad, grid[int(np.argmin(post(grid)))], jac=True, method="L-BFGS-B",
-                       bounds=list(zip(-bound, bound)), options={"maxiter": 500, "ftol": 1e-14, "gtol": 1e-7})
+        res = minimize(lambda e: post.derivatives(e)[:2], grid[int(np.argmin(post(grid)))], jac=True,
+                       method="L-BFGS-B", bounds=list(zip(-bound, bound)),
+                       options={"maxiter": 500, "ftol": 1e-14, "gtol": 1e-7})
         on_bound = bool(np.any(np.abs(res.x) >= bound * (1.0 - 1e-6)))
         if not res.success or on_bound or not np.all(np.isfinite(res.x)):
             why = "the estimate lies on the +-5 SD search bound" if on_bound else str(res.message)
@@ -451,7 +446,8 @@ def effective_sample_size(samples: ParamSamples) -> float:
     return float(len(samples) if samples.weights is None else 1.0 / np.sum(samples.weights ** 2))
 
 
-def intervals(samples: ParamSamples, fn: Callable[[ParamSamples], np.ndarray], level: float = 0.90) -> tuple[float, float]:
+def intervals(samples: ParamSamples, fn: Callable[[ParamSamples], np.ndarray],
+              level: float = 0.90) -> tuple[float, float]:
     """Central ``level`` interval of ``fn(samples)`` (an array per draw), weighted when the draws are."""
     x, probs, w = np.asarray(fn(samples), float), ((1 - level) / 2, (1 + level) / 2), samples.weights
     if w is None:
@@ -471,6 +467,17 @@ def regimen_intervals(samples: ParamSamples, dose: float | None = None, tau: flo
         for key in ("auc24", "peak", "trough"):
             out[key] = intervals(samples, lambda s, k=key: ss[k], level)
     return out
+
+
+def two_compartment_intervals(samples: ParamSamples, level: float = 0.90) -> dict[str, tuple[float, float]]:
+    """Intervals for V1, V2, Q and the alpha and beta half-lives, h (pk-sources.md 2.6); {} for one compartment."""
+    if not np.any(samples.q > 0):
+        return {}
+    lam, _ = exponentials(samples.cl, samples.v1, samples.q, samples.v2)
+    return {"v1": intervals(samples, lambda s: s.v1, level), "v2": intervals(samples, lambda s: s.v2, level),
+            "q": intervals(samples, lambda s: s.q, level),
+            "alpha_half_life": intervals(samples, lambda s: math.log(2) / lam[:, 0], level),
+            "beta_half_life": intervals(samples, lambda s: math.log(2) / lam[:, 1], level)}
 
 
 def probability_of_target(samples: ParamSamples, dose: float, tau: float, tinf: float,

@@ -203,7 +203,8 @@ def _build(data: dict[str, Any]) -> PopModel:
     for p, spec in data["parameters"].items():
         unknown = set(spec) - {"theta", "linear_mode", "linear", "power", "factor", "source"}
         used = {t["covariate"] for k in ("linear", "power", "factor") for t in spec.get(k, [])}
-        if unknown or not used <= set(COVARIATES) or spec.get("linear_mode", "relative") not in ("relative", "absolute"):
+        mode = spec.get("linear_mode", "relative")
+        if unknown or not used <= set(COVARIATES) or mode not in ("relative", "absolute"):
             raise ValueError(f"{mid}: bad parameters.{p}")
     rules = data["covariates"]
     if rules["crcl_formula"] != "cockcroft-gault" or rules["crcl_weight"] != "tbw":
@@ -322,7 +323,8 @@ def population_alerts(model: PopModel, cov: Covariates, x: dict[str, float]) -> 
     for c in pop.get("required_conditions", []):
         if c not in cov.conditions:
             out.append(Alert("model-out-of-population", "caution", "patient.conditions",
-                             f"{model.name} was built on patients with {c.replace('-', ' ')}; none is recorded for this patient"))
+                             f"{model.name} was built on patients with {c.replace('-', ' ')}; "
+                             "none is recorded for this patient"))
     return out
 
 
