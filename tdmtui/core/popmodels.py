@@ -57,6 +57,7 @@ import numpy as np
 from tdmtui.core.alerts import Alert
 from tdmtui.core.errors import InputError, NoEstimateError
 from tdmtui.core.models import PKParams
+from tdmtui.core.patient import cockcroft_gault
 
 #: mg/dL -> micromol/L for creatinine (pk-sources.md 1.4).
 UMOL_PER_MG_DL = 88.4
@@ -140,8 +141,8 @@ class PopModel:
         if floor > 0 and scr < floor and (min_age <= 0 or cov.age > min_age):
             notes.append(f"SCr {cov.scr:.2f} mg/dL raised to {floor:.2f} mg/dL by the model's rule")
             scr = floor
-        weight = cov.weight  # crcl_weight is "tbw" for every model (checked on load)
-        crcl = (140.0 - cov.age) * weight / (72.0 * scr) * (0.85 if cov.sex == "female" else 1.0)
+        # crcl_weight is "tbw" for every model (checked on load)
+        crcl = cockcroft_gault(cov.age, cov.sex, cov.weight, scr)
         cap = float(rules.get("crcl_cap_ml_min", 0.0))
         if cap > 0 and crcl > cap:
             notes.append(f"CrCl {crcl:.0f} mL/min capped at {cap:.0f} mL/min by the model's rule")
