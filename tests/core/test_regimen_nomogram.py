@@ -111,6 +111,12 @@ def test_initial_interval_by_crcl(crcl: float, interval: float) -> None:
     assert plan.regimen["dose_mg"] == DOSE
 
 
+def test_vancomycin_has_no_nomogram() -> None:
+    plan = design(inp("vancomycin", PKParams.one_compartment(0.08, 50.0), method="nomogram"))
+    assert plan.regimen is None
+    assert ("nomogram-entry", "stop", "method") in _codes(plan)
+
+
 def test_new_start_below_20_is_refused() -> None:
     case = inp("gentamicin", PKParams.one_compartment(0.05, 25.0), method="nomogram", dosing_weight_kg=WEIGHT,
                crcl_ml_min=18.0)

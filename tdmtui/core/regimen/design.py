@@ -40,6 +40,10 @@ def choose_mode(inp: RegimenInput, alerts: list[Alert]) -> str:
     rules, ct, cur = inp.rules, inp.case_target, inp.current
     default = str(rules.get("regimen.default_mode", "auc"))
     if rules.get("drug.family") != "aminoglycoside":
+        if inp.method == "nomogram":
+            alerts.append(Alert("nomogram-entry", "stop", "method",
+                                f"nomogram entry check failed: no nomogram for {inp.drug} (extended-interval "
+                                "aminoglycosides only)"))
         if (ct and ct.css) or (cur and cur.infusion_h >= cur.interval_h - 1e-9) or default == "continuous":
             return "continuous"
         return "auc"
@@ -170,6 +174,8 @@ def design(inp: RegimenInput) -> Plan:
     mode = choose_mode(inp, alerts)
     targets = resolve_targets(inp.rules, inp.case_target, mode)
     plan = Plan(regimen=None, targets=targets.to_dict(), sources=sources(inp, targets), alerts=alerts)
+    if any(a.severity == "stop" for a in alerts):
+        return plan
     if mode == "extended" and inp.method == "nomogram":
         from tdmtui.core.regimen.extended import nomogram_plan
 
