@@ -45,7 +45,10 @@ def method_columns(result: dict[str, Any]) -> list[tuple[str, dict[str, Any]]]:
     if result.get("estimate"):
         cols.append((f"{result.get('method')}*", result["estimate"]))
     for name, est in (result.get("methods") or {}).items():
-        cols.append((name, est))
+        if ":" in name:  # "population:vancomycin-some-model" -> "pop:some-model"
+            family, model = name.split(":", 1)
+            name = f"{family[:3]}:{model.split('-', 1)[-1]}"
+        cols.append((name[:18], est))
     return cols
 
 
@@ -61,7 +64,7 @@ class EstimateSection(Vertical):
     def compose(self) -> ComposeResult:
         yield Label("No estimate yet.", id="est-title", classes="section-title", markup=False)
         with ContentSwitcher(initial="est-table", id="est-views"):
-            yield DataTable(cursor_type="row", id="est-table", zebra_stripes=True)
+            yield DataTable(cursor_type="cell", id="est-table", zebra_stripes=True, fixed_columns=1)
             with VerticalScroll(id="est-working"):
                 yield Static("", id="est-working-text", markup=False)
             yield ConcPlot(id="est-graph")
@@ -85,7 +88,7 @@ class EstimateSection(Vertical):
             extra = ""
             if used.get("target_probability") is not None:
                 extra = f"; P(target) {fm.qty(used['target_probability'], 'probability')}"
-            title.update(f"Method used: {result.get('method')} (* column){extra}.  t table  w working  g graph")
+            title.update(f"Used: {result.get('method')} (*){extra}. Arrows scroll; t table w working g graph")
         table.add_column("", key="label")
         for name, _ in cols:
             table.add_column(name, key=name)
