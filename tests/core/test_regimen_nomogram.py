@@ -130,3 +130,14 @@ def test_nomogram_without_an_estimate_still_reads() -> None:
     plan = design(_case(1.5, 12.0, params=None))
     assert plan.regimen["interval_h"] == 24.0
     assert plan.regimen["predicted"] == {}
+
+
+def test_standing_order_on_the_read_interval_continues() -> None:
+    """7 mg/kg q24h and a level under the q24h line: carry on with the order as written."""
+    from tdmtui.core.regimen import CurrentRegimen
+
+    plan = design(_case(4.2, 9.0, current=CurrentRegimen(DOSE, 24.0, 1.0)))
+    reg = plan.regimen
+    assert reg["action"] == "continue"
+    assert (reg["dose_mg"], reg["interval_h"], reg["infusion_h"]) == (DOSE, 24.0, 1.0)
+    assert reg["next_dose_at"] == "2026-03-02T08:00"

@@ -217,6 +217,8 @@ def finish(inp: RegimenInput, targets: Targets, mode: str, plan: Plan, cands: li
         chosen = fixed
         continuing = current is not None and abs(current.dose_mg - fixed.dose_mg) < 1e-6 and \
             abs(current.interval_h - fixed.interval_h) < 1e-6
+        if continuing:
+            chosen = current  # the standing order as given (its own infusion time)
     elif current is not None and current.on_target and _within_caps(current, rules):
         chosen, continuing = current, True
         alts = [c for c in ([best] if best else []) + alts
