@@ -110,3 +110,27 @@ def test_w5_vancomycin_auc_redesign() -> None:
     assert row["auc24_mg_h_per_l"] == pytest.approx(586.0, abs=0.5)  # W5 step 5: 1250 mg -> 586
     assert row["peak_mg_per_l"] == pytest.approx(36.2, abs=0.05)     # W5 step 5: Cmax 36.2
     assert row["trough_mg_per_l"] == pytest.approx(15.2, abs=0.05)   # W5 step 5: Cmin 15.2
+
+
+def test_w6_individualised_extended_interval() -> None:
+    """W6 (pk-sources.md 5, constructed): ke 0.194, V 25.7 L (CL 4.98 L/h) after 560 mg.
+    AUC 560 mg -> 112 (above 70-100); 480 mg (6 mg/kg) -> ~96; q24h (under 0.5 mg/L by 20 h)."""
+    params = PKParams.one_compartment(0.194, 25.7)
+    hist = DoseArrays.from_lists([T0], [1.0], [560.0])
+    plan = design(inp("gentamicin", params, hist, as_of=T0 + 9.5, method="two-level",
+                      current=CurrentRegimen(560.0, 24.0, 1.0), dosing_weight_kg=80.0))
+    reg = plan.regimen
+    assert reg["mode"] == "extended" and reg["interval_h"] == 24.0
+    assert 70.0 <= reg["predicted"]["auc24_mg_h_per_l"] <= 100.0  # Plajer 2015 band (pk-sources.md 4.3)
+    assert reg["current_predicted"]["auc24_mg_h_per_l"] == pytest.approx(112.0, abs=0.5)  # W6: 112
+    row = next(c for c in plan.candidates if c["dose_mg"] == 480.0 and c["interval_h"] == 24.0)
+    assert row["auc24_mg_h_per_l"] == pytest.approx(96.0, abs=0.5)  # W6: 6 mg/kg -> ~96
+
+
+def test_cap_and_no_candidate_on_target() -> None:
+    """AUC24 = daily dose / CL (pk-sources.md 2.3): with CL 12 L/h the 4,500 mg/day cap
+    (library, pk-sources.md 3.1 from memory) reaches 375 < 400: no candidate on target."""
+    plan = design(inp("vancomycin", PKParams(cl=12.0, v1=70.0), tbw_kg=90.0))
+    codes = [a.code for a in plan.alerts]
+    assert "regimen-cap" in codes and "regimen-off-target" in codes
+    assert plan.regimen["predicted"]["auc24_mg_h_per_l"] == pytest.approx(4500.0 / 12.0)
