@@ -166,7 +166,8 @@ def attach_regimen(ctx: MethodContext, outcome: Outcome, est: Estimate) -> list[
         as_of=ctx.case.as_of, clock=ctx.case.clock, current=ctx.current,
         dosing_weight_kg=ctx.renal.dosing_weight_kg, tbw_kg=p.weight, bmi=ctx.renal.bmi,
         crcl_ml_min=ctx.renal.crcl_ml_min, renal_replacement=p.renal_replacement, conditions=p.conditions,
-        samples=est.samples, method=est.method, levels=ctx.case.levels, doses=ctx.case.doses))
+        samples=est.samples, method=outcome.result.get("method") or est.method, levels=ctx.case.levels,
+        doses=ctx.case.doses))
     outcome.result["regimen"] = plan.regimen
     outcome.result["target"] = plan.targets
     outcome.result["sources"].update(plan.sources)
