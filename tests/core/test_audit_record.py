@@ -20,7 +20,7 @@ import shutil
 
 import pytest
 
-from conftest import SAMPLES
+from casedata import SAMPLES
 from tdmtui import __version__
 from tdmtui.cli import main
 from tdmtui.core.library import LIBRARY_VERSION

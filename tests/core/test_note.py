@@ -27,7 +27,7 @@ from types import SimpleNamespace
 
 import pytest
 
-from conftest import ROOT, SAMPLES, base_case
+from casedata import ROOT, SAMPLES, base_case
 from tdmtui.cli import main
 from tdmtui.core import notefmt
 from tdmtui.core.case import load_case
