@@ -59,25 +59,21 @@ class Observations:
     @classmethod
     def from_lists(cls, time, conc, below_loq=None, above_uloq=None) -> Observations:  # noqa: ANN001
         """Build and check (finite times, concentrations >= 0, at most one flag per level)."""
-        t = np.asarray(time, dtype=float).reshape(-1)
-        c = np.asarray(conc, dtype=float).reshape(-1)
-        lo = np.zeros(t.size, bool) if below_loq is None else np.asarray(below_loq, bool).reshape(-1)
-        hi = np.zeros(t.size, bool) if above_uloq is None else np.asarray(above_uloq, bool).reshape(-1)
+        t, c = (np.asarray(x, dtype=float).reshape(-1) for x in (time, conc))
+        lo, hi = (np.zeros(t.size, bool) if f is None else np.asarray(f, bool).reshape(-1)
+                  for f in (below_loq, above_uloq))
         if not (t.size == c.size == lo.size == hi.size):
             raise ValueError("observation arrays differ in length")
         if not (np.all(np.isfinite(t)) and np.all(np.isfinite(c)) and np.all(c >= 0)) or np.any(lo & hi):
             raise ValueError("observations need finite times, concentrations >= 0 and at most one limit flag")
         return cls(t, c, lo, hi)
 
-    @property
-    def quantified(self) -> np.ndarray:
-        return ~(self.below_loq | self.above_uloq)
+    quantified = property(lambda self: ~(self.below_loq | self.above_uloq), doc="True where quantified")
 
     def __len__(self) -> int:
         return int(self.time.size)
 
 
-Observation = Observations
 NO_LEVELS = Observations.from_lists([], [])
 
 
@@ -402,9 +398,7 @@ class ParamSamples:
     def __getitem__(self, i: int) -> PKParams:
         return PKParams(float(self.cl[i]), float(self.v1[i]), float(self.q[i]), float(self.v2[i]))
 
-    @property
-    def vss(self) -> np.ndarray:
-        return self.v1 + self.v2
+    vss = property(lambda self: self.v1 + self.v2, doc="V1 + V2, L")
 
     @property
     def ke(self) -> np.ndarray:
@@ -427,18 +421,25 @@ def sample_posterior(fit: Fit, n: int = 2000, seed: int | None = None) -> ParamS
     return _samples(fit, fit.eta + z @ np.linalg.cholesky(fit.cov_eta).T, seed)
 
 
-def importance_samples(fit: Fit, n: int = 4000, seed: int | None = None, inflate: float = 1.5) -> ParamSamples:
+def importance_samples(fit: Fit, n: int = 4000, seed: int | None = None, inflate: float = 1.5,
+                       resample: bool = False) -> ParamSamples:
     """Draws from a widened Laplace proposal, weighted by posterior / proposal.
 
     Proposal N(eta_MAP, inflate^2 cov_eta); weight ~ exp(-OFV/2) / q(eta), so
     the weighted draws follow the exact posterior (within sampling error).
+    ``resample``: return n equal-weight draws by systematic resampling instead.
     """
     seed = fit.seed if seed is None else seed
-    z = np.random.default_rng(seed).standard_normal((n, fit.eta.size))
+    rng = np.random.default_rng(seed)
+    z = rng.standard_normal((n, fit.eta.size))
     eta = fit.eta + inflate * z @ np.linalg.cholesky(fit.cov_eta).T
     logw = -0.5 * fit.posterior(eta) + 0.5 * np.sum(z * z, 1)
     w = np.exp(logw - np.max(logw))
-    return _samples(fit, eta, seed, w / w.sum())
+    w /= w.sum()
+    if resample:
+        idx = np.minimum(np.searchsorted(np.cumsum(w), (rng.random() + np.arange(n)) / n), n - 1)
+        return _samples(fit, eta[idx], seed)
+    return _samples(fit, eta, seed, w)
 
 
 def effective_sample_size(samples: ParamSamples) -> float:
@@ -474,10 +475,9 @@ def two_compartment_intervals(samples: ParamSamples, level: float = 0.90) -> dic
     if not np.any(samples.q > 0):
         return {}
     lam, _ = exponentials(samples.cl, samples.v1, samples.q, samples.v2)
-    return {"v1": intervals(samples, lambda s: s.v1, level), "v2": intervals(samples, lambda s: s.v2, level),
-            "q": intervals(samples, lambda s: s.q, level),
-            "alpha_half_life": intervals(samples, lambda s: math.log(2) / lam[:, 0], level),
-            "beta_half_life": intervals(samples, lambda s: math.log(2) / lam[:, 1], level)}
+    values = {"v1": samples.v1, "v2": samples.v2, "q": samples.q, "alpha_half_life": math.log(2) / lam[:, 0],
+              "beta_half_life": math.log(2) / lam[:, 1]}
+    return {k: intervals(samples, lambda s, v=v: v, level) for k, v in values.items()}
 
 
 def probability_of_target(samples: ParamSamples, dose: float, tau: float, tinf: float,

@@ -261,6 +261,9 @@ def test_laplace_and_importance_sampling_agree_with_the_exact_posterior():
     imp = intervals(weighted, auc24)
     np.testing.assert_allclose(laplace, imp, rtol=0.10)
     np.testing.assert_allclose(imp, exact, rtol=0.02)
+    resampled = importance_samples(fit, 20000, resample=True)
+    assert resampled.weights is None
+    np.testing.assert_allclose(intervals(resampled, auc24), exact, rtol=0.03)
 
 
 def test_laplace_and_importance_sampling_agree_two_compartment():
@@ -358,8 +361,9 @@ def test_coverage_of_90_percent_auc24_intervals(mid):
     # (400 patients: standard error about 1.5 points). Peak + trough, 4 doses, the model's own IIV and error.
     bench, m = _bench(), get_model(mid)
     tau, tinf = bench.REGIMEN[m.drug][1], bench.REGIMEN[m.drug][2]
-    cover, _, _, _, failed = bench.study(m, m, 400, 1, np.array([2 * tau + tinf + 1.0, 3 * tau - 0.5]))
+    cover, _, _, _, failed, cover_is = bench.study(m, m, 400, 1, np.array([2 * tau + tinf + 1.0, 3 * tau - 0.5]))
     assert 0.85 <= cover <= 0.95 and failed == 0
+    assert 0.85 <= cover_is <= 0.95  # importance-resampled draws (exact posterior)
 
 
 @pytest.mark.slow
@@ -373,7 +377,7 @@ def test_trough_only_auc24_bias_and_error(mid):
     # issue 3: trough-only Bayesian AUC24 vs truth: median bias within +-10 %, median absolute error < 20 %.
     bench, m = _bench(), get_model(mid)
     tau = bench.REGIMEN[m.drug][1]
-    cover, _, bias, mae, failed = bench.study(m, m, 400, 2, np.array([3 * tau - 0.5]))
+    _, _, bias, mae, failed, _ = bench.study(m, m, 400, 2, np.array([3 * tau - 0.5]))
     assert abs(bias) < 0.10 and failed == 0
     assert mae < 0.20
 
