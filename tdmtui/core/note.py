@@ -68,8 +68,11 @@ def _patient(outcome: Any) -> list[str]:
     floor = float(rules.value("renal.scr_floor_mg_dl")) if rules else 0.0
     if floor > 0:
         used = renal.scr_used_mg_dl if renal else rp.get("scr_used_mg_dl")
-        lines += f.wrap(f"SCr floor {f.scr(floor)} mg/dL ({rules.source('renal.scr_floor_mg_dl')}): "
-                        f"CrCl computed with {f.scr(used)} mg/dL.")
+        measured = series[-1].value
+        how = (f"CrCl computed with the floor instead of the measured {f.scr(measured)} mg/dL" if used > measured
+               else "the measured SCr is at or above it")
+        lines += f.wrap(f"SCr floor {f.scr(floor)} mg/dL ({rules.source('renal.scr_floor_mg_dl')}: "
+                        f"{rules.citation('renal.scr_floor_mg_dl')}); {how}.")
     else:
         lines.append("SCr floor: none applied.")
     rrt = {"none": "none", "ihd": "intermittent haemodialysis", "crrt": "continuous renal replacement",

@@ -262,3 +262,16 @@ def test_regimen_chosen_in_review_is_printed_beside_the_proposal():
     assert float(m.group(1)) == pytest.approx(alt["dose_mg"])
     assert close_to_printed(m.group(2), alt["predicted"]["auc24_mg_h_per_l"])
     assert "Chosen in review" not in render_note(out, chosen=out.result["regimen"])
+
+
+def test_protocol_floor_and_record(tmp_path, capsys):
+    proto = tmp_path / "ward.toml"
+    proto.write_text('name = "Demo ward"\n[common.renal.scr_floor_mg_dl]\nvalue = 1.0\n'
+                     'source = "demo local rule"\n', encoding="utf-8")
+    assert main(["note", str(SAMPLES / "vanc-loading-early.json"), "--protocol", str(proto)]) == 0
+    text = capsys.readouterr().out
+    # latest measured SCr 0.9 mg/dL is below the 1.0 floor (sample case file)
+    assert "SCr floor 1 mg/dL (protocol: demo local rule); CrCl computed with the floor instead of the " \
+           "measured 0.9 mg/dL." in flat(text)
+    assert "Local protocol: Demo ward, sha256:" in text
+    assert f"  {hashlib.sha256(proto.read_bytes()).hexdigest()}" in text.splitlines()
