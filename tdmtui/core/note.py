@@ -160,7 +160,8 @@ def _estimates(outcome: Any) -> list[str]:
         width = max(16, min(36, max(len(r[0]) for r in rows) + 1))
         lines.append("")
         lines += f.table(("Method", "ke /h", "t1/2 h", "Vd L", "CL L/h", "AUC24"), rows, width)
-        lines.append("AUC24 in mg*h/L for the current regimen at steady state.")
+        lines.append("AUC24 in mg*h/L for the current regimen at steady state." if res.get("current_regimen")
+                     else "AUC24 in mg*h/L: none shown, no current regimen to predict.")
         iv = est.get("interval90") or {}
         if iv:
             parts = [f"{label} {fmt(iv[k][0])}-{fmt(iv[k][1])}{unit}"
