@@ -9,6 +9,6 @@ SAMPLES = Path(__file__).resolve().parents[2] / "sample_cases"
 
 async def settle(pilot) -> None:
     """Let debounced edits start their compute, and wait for every worker."""
-    await pilot.pause(0.35)
+    await pilot.pause(0.6)
     await pilot.app.workers.wait_for_complete()
     await pilot.pause()

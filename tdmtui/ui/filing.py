@@ -1,0 +1,142 @@
+"""Saving, recovery, quitting and the note's copy/write: the workspace's file side.
+
+A mixin of :class:`tdmtui.ui.app.TdmApp` (kept apart so the app module holds
+wiring only). Save refuses to overwrite a file someone else changed since it
+was opened and offers save-as; a successful save removes the recovery file;
+quitting with unsaved changes asks first.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Any
+
+from tdmtui.ui.dialogs import AskDialog, TextDialog
+from tdmtui.ui.document import ChangedOnDisk, new_case_raw
+from tdmtui.ui.recovery import find_recovery, recovery_path, remove_recovery
+
+
+class FilingMixin:
+    """Save, save-as, recovery offer, quit prompt, note copy and write."""
+
+    doc: Any
+    state: Path
+    note: str
+
+
+    def offer_recovery(self) -> None:
+        current = None if not self.doc.path or not Path(self.doc.path).exists() else self.doc.raw
+        rec = find_recovery(self.doc.path, self.state, current if current is not None else new_case_raw())
+        if rec is None:
+            return
+
+        def answer(word: str | None) -> None:
+            if word == "restore":
+                self.doc.raw = rec.raw
+                self.doc.dirty = True
+                self.reload_sections()
+                self.update_header()
+                self.request_compute(now=True)
+                self.notify("Restored the unsaved work. Save with ctrl+s.", timeout=5)
+            elif word == "discard":
+                remove_recovery(rec.path)
+
+        self.push_screen(AskDialog(
+            f"Unsaved work from {rec.saved_at} was found for "
+            f"{Path(self.doc.path).name if self.doc.path else 'a new case'} (the app stopped before saving).\n"
+            "Restore it?", [("r", "restore"), ("d", "discard")]), answer)
+
+
+    def action_save(self) -> None:
+        if not self.doc.path:
+            self.save_as()
+            return
+        try:
+            self.doc.save()
+        except ChangedOnDisk:
+            self.push_screen(AskDialog(
+                f"{self.doc.path} was changed by someone else since you opened it (another session?).\n"
+                "It is NOT overwritten. Save your version under another name?",
+                [("a", "save as")]), lambda w: self.save_as() if w == "save as" else None)
+            return
+        except OSError as exc:
+            self.notify(f"Not saved: {exc}", severity="error", markup=False)
+            return
+        self.saved()
+
+    def save_as(self, then_quit: bool = False) -> None:
+        def check(text: str) -> str:
+            if text and Path(text).expanduser().exists():
+                return "that file exists: choose another name"
+            if text and not Path(text).expanduser().parent.exists():
+                return "that folder does not exist"
+            return ""
+
+        def done(text: str | None) -> None:
+            if not text:
+                return
+            old = recovery_path(self.doc.path, self.state)
+            try:
+                self.doc.save(str(Path(text).expanduser()))
+            except OSError as exc:
+                self.notify(f"Not saved: {exc}", severity="error", markup=False)
+                return
+            remove_recovery(old)
+            self.saved()
+            if then_quit:
+                self.exit(0)
+
+        suggestion = str(Path(self.doc.path).with_name(Path(self.doc.path).stem + "-mine.json")) if self.doc.path else "case.json"
+        self.push_screen(TextDialog("Save the case as (a new file; mode 0600):", suggestion, check), done)
+
+    def saved(self) -> None:
+        remove_recovery(recovery_path(self.doc.path, self.state))
+        self.update_header()
+        self.notify(f"Saved {self.doc.path}", timeout=3, markup=False)
+
+    def action_quit_app(self) -> None:
+        if not self.doc.dirty:
+            self.exit(0)
+            return
+
+        def answer(word: str | None) -> None:
+            if word == "save":
+                if self.doc.path:
+                    self.action_save()
+                    if not self.doc.dirty:
+                        self.exit(0)
+                else:
+                    self.save_as(then_quit=True)
+            elif word == "quit":
+                self.exit(0)
+
+        self.push_screen(AskDialog("There are unsaved changes (they stay in the recovery file until saved).\n"
+                                   "Save before quitting?", [("s", "save"), ("q", "quit")]), answer)
+
+    # ---------------------------------------------------------------- note
+    def action_copy_note(self) -> None:
+        from tdmtui.ui.clipboard import COPY_CAVEAT
+
+        if not self.note:
+            self.notify("No note yet: the case does not compute.", severity="warning")
+            return
+        self.copy_to_clipboard(self.note)
+        self.notify(COPY_CAVEAT, timeout=8, markup=False)
+
+    def action_write_note(self) -> None:
+        from tdmtui.ui.clipboard import default_note_path, write_note
+
+        if not self.note:
+            self.notify("No note yet: the case does not compute.", severity="warning")
+            return
+
+        def done(text: str | None) -> None:
+            if text:
+                try:
+                    where = write_note(text, self.note)
+                except OSError as exc:
+                    self.notify(f"Not written: {exc}", severity="error", markup=False)
+                    return
+                self.notify(f"Note written to {where} (mode 0600).", timeout=5, markup=False)
+
+        self.push_screen(TextDialog("Write the note to this file:", default_note_path(self.doc.path)), done)
