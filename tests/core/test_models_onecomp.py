@@ -102,6 +102,18 @@ def test_extremes_stay_finite_and_non_negative(ke: float, v: float, tinf: float)
     assert total == pytest.approx(60 * 3000.0 / (ke * v), rel=1e-9)  # pk-sources.md 2.2: AUC(0-inf) = D/CL per dose
 
 
+def test_many_times_are_evaluated_in_blocks_without_loss() -> None:
+    # 40,000 times x 60 doses exceeds one evaluation block; spot values from every block
+    # are checked against solve_ivp, and the output keeps the shape of t.
+    doses = DoseArrays.regimen(0.0, 1000.0, 12.0, 1.0, 60)
+    t = np.linspace(-1.0, 760.0, 40_000).reshape(200, 200)
+    c = onecomp.concentration(0.1, 40.0, doses, t)
+    assert c.shape == t.shape
+    idx = np.array([5, 17_000, 17_500, 35_000, 39_999])
+    ref, _ = ode_reference(4.0, 40.0, 0.0, 0.0, doses.start, doses.duration, doses.amount, t.reshape(-1)[idx])
+    assert close(c.reshape(-1)[idx], ref)
+
+
 @pytest.mark.parametrize("tinf", [0.0, 0.5, 1.0, 3.0])
 def test_auc_to_infinity_of_one_dose_is_dose_over_cl(tinf: float) -> None:
     # pk-sources.md 2.2: AUC(0-inf) for one dose = D / CL.

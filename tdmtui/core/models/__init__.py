@@ -14,6 +14,8 @@ on ``params.is_two_compartment``):
   (mg/L) at times ``t`` (h, any shape), closed-form superposition.
 * ``auc(params, doses, a, b)`` -> float, exact integral of C over [a, b].
 * ``steady_state(params, dose_mg, tau_h, tinf_h)`` -> :class:`SteadyState`.
+* ``time_to_fall(params, doses, t0, level)`` -> first time >= t0 (h) at which
+  the concentration is <= level (mg/L), or None; used for "hold until".
 """
 
 from __future__ import annotations
