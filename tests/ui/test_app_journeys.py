@@ -236,3 +236,30 @@ async def test_new_case_raw_is_the_default(state):
     app = TdmApp(None, None, state=state)
     assert app.doc.raw == new_case_raw()
     assert SAMPLES.exists()
+
+
+async def test_infusion_by_end_time_and_a_level_set_aside_with_reason(state, sample_copy):
+    path = sample_copy("vanc-steady-state.json")
+    app = TdmApp(str(path), None, state=state)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        await pilot.press("f3")
+        await type_into(pilot, "#doses-infusion-input", "21:45")  # row 1 starts 2026-01-11T20:00
+        row = app.doc.raw["doses"][0]
+        assert row.get("end") == "2026-01-11T21:45" and "duration" not in row
+        note = str(app.screen.query_one("#doses-infusion", FieldRow).query_one(".field-note").content)
+        assert note == "ends 21:45, 1.75 h"
+        await pilot.press("f4")
+        app.screen.query_one("#levels-use-input").focus()
+        await pilot.pause()
+        await pilot.press("s")  # use -> set-aside
+        assert app.doc.raw["levels"][0]["use"] is False
+        await settle(pilot)
+        status = str(app.screen.query_one("#status", Static).content)
+        assert status.startswith("INPUT levels[0].reason")  # a set-aside level needs its reason
+        await type_into(pilot, "#levels-reason-input", "drawn from the line")
+        assert app.doc.raw["levels"][0]["reason"] == "drawn from the line"
+        await settle(pilot)
+        assert app.outcome is not None
+        table = {r["field"]: r for r in app.outcome.result["levels"]}
+        assert table["levels[0]"]["usable"] is False
