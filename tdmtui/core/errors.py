@@ -8,6 +8,11 @@ app can mark the field.
 from __future__ import annotations
 
 
+def one_line(text: str) -> str:
+    """Text with control characters (line breaks included) escaped, so an error stays on one line."""
+    return "".join(c if c.isprintable() else c.encode("unicode_escape").decode("ascii") for c in str(text))
+
+
 class TdmError(Exception):
     """Base of every error the core raises on purpose."""
 
@@ -21,6 +26,7 @@ class InputError(TdmError, ValueError):
     """
 
     def __init__(self, field: str, message: str) -> None:
+        field, message = one_line(field), one_line(message)
         super().__init__(f"{field}: {message}" if field else message)
         self.field = field
         self.message = message
@@ -35,6 +41,7 @@ class NoEstimateError(TdmError):
     """
 
     def __init__(self, method: str, why: str) -> None:
+        method, why = one_line(method), one_line(why)
         super().__init__(f"{method}: {why}")
         self.method = method
         self.why = why

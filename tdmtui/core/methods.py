@@ -76,11 +76,20 @@ def run_all(ctx: MethodContext) -> tuple[dict[str, Estimate], dict[str, str]]:
 
 def _least_squares(ctx: MethodContext) -> Estimate:
     from tdmtui.core import lsq
+    from tdmtui.core.bayes import Observations
+    from tdmtui.core.models import PKParams
+    from tdmtui.core.working import WorkingStep
 
-    obs = [lv for lv in ctx.usable]
-    fit = lsq.least_squares_fit(ctx.history, [lv.time for lv in obs], [lv.conc for lv in obs])
-    return Estimate("least-squares", fit.params, [lv.index for lv in obs], fit.working,
-                    f"weighted least squares through {len(obs)} levels, no prior")
+    obs = list(ctx.usable)
+    ke, v = lsq.least_squares_fit(ctx.history, Observations.from_lists([lv.time for lv in obs],
+                                                                       [lv.conc for lv in obs]))
+    m = "least-squares"
+    steps = [WorkingStep("Least squares", "minimise sum ((y - C(t; ke, V)) / y)^2 over the whole dose history",
+                         f"{len(obs)} levels: " + ", ".join(f"{lv.conc:g}" for lv in obs) + " mg/L",
+                         f"ke {ke:.4g} /h, V {v:.4g} L", m),
+             WorkingStep("Clearance", "CL = ke x V", f"{ke:.4g} x {v:.4g}", f"{ke * v:.4g} L/h", m)]
+    return Estimate(m, PKParams.one_compartment(ke, v), [lv.index for lv in obs], steps,
+                    f"proportionally weighted least squares through {len(obs)} levels, no prior")
 
 
 def _gap(a: Estimate, b: Estimate, cur: CurrentRegimen | None) -> tuple[float, str]:

@@ -127,6 +127,8 @@ def sawchuk_zaske(doses: list[Dose], levels: list[Level], tau: float | None) -> 
     if len(levels) < 2:
         raise NoEstimateError(m, f"needs two usable levels around one dose; {len(levels)} available")
     a, b = levels[-2], levels[-1]
+    if b.time - a.time < 0.25:
+        raise NoEstimateError(m, "the two most recent usable levels are less than 15 min apart; draw them further apart")
     da, db = _dose_before(doses, a.time), _dose_before(doses, b.time)
     if db is None:
         raise NoEstimateError(m, "the later level precedes every dose")
@@ -168,6 +170,9 @@ def sawchuk_zaske(doses: list[Dose], levels: list[Level], tau: float | None) -> 
             raise NoEstimateError(m, "the two levels are not a trough before one dose and a peak after it")
         delta = db.start - a.time
         t_equiv = db.start + tau - delta
+        if t_equiv - b.time < 0.25:
+            raise NoEstimateError(m, "the peak is drawn where the trough would recur at steady state "
+                                     f"({tau:g} h interval): the two levels carry no elimination information")
         ke = math.log(b.conc / a.conc) / (t_equiv - b.time)
         if ke <= 0:
             raise NoEstimateError(m, "the peak is not above the trough")

@@ -46,11 +46,7 @@ N_COMPUTE = 300
 #: test_fuzz_regressions.py: (exception type, text in the failing source line).
 #: Fuzz failures matching one are counted, not failed, so main stays green
 #: while the bug stands; the strict xfail fails once it is fixed.
-KNOWN_BUGS: tuple[tuple[str, str], ...] = (
-    ("ValueError", "unknown weighting"),  # test_three_usable_levels_compute
-    ("ZeroDivisionError", "(t_equiv - b.time)"),  # test_peak_one_interval_after_the_trough_computes
-    ("ZeroDivisionError", "/ (b.time - a.time)"),  # test_a_level_entered_twice_computes
-)
+KNOWN_BUGS: tuple[tuple[str, str], ...] = ()
 
 
 def check_rejection(raw: object, exc: InputError) -> list[str]:
@@ -313,8 +309,6 @@ def test_command_line_accepts_a_valid_case_with_exit_0(name):
 # --------------------------------------------------------------------------- pinned core bugs found by fuzzing
 
 
-@pytest.mark.xfail(strict=True, reason="core bug for the lead: an unknown key holding a line break is echoed raw "
-                                       "into the field path, so the command line prints two lines (case.py _parse_target)")
 def test_unknown_key_with_a_line_break_still_gives_one_line(tmp_path):
     raw = sample_raws()[0]
     raw["target"] = {"mic\nx": "1 mg/L"}
@@ -338,10 +332,6 @@ def _two_levels_case() -> dict:
     }
 
 
-@pytest.mark.xfail(strict=True, raises=ValueError,
-                   reason="core bug for the lead: methods._least_squares passes times and concentrations where "
-                          "lsq.least_squares_fit expects Observations and a weighting, so any case with three "
-                          "usable levels raises ValueError('unknown weighting ...') instead of computing")
 def test_three_usable_levels_compute():
     raw = _two_levels_case()
     raw["levels"].insert(0, {"time": "2026-03-02T19:30", "conc": "12.0 mg/L"})
@@ -349,9 +339,6 @@ def test_three_usable_levels_compute():
     assert not check_result(outcome.result)
 
 
-@pytest.mark.xfail(strict=True, raises=ZeroDivisionError,
-                   reason="core bug for the lead: twolevel.sawchuk_zaske divides by (t_equiv - b.time), zero when "
-                          "the peak is drawn exactly one interval after the trough (here a 4 h schedule)")
 def test_peak_one_interval_after_the_trough_computes():
     raw = _two_levels_case()
     raw["levels"][1]["time"] = "2026-03-03T11:35"
@@ -360,10 +347,6 @@ def test_peak_one_interval_after_the_trough_computes():
     assert not check_result(outcome.result)
 
 
-@pytest.mark.xfail(strict=True, raises=ZeroDivisionError,
-                   reason="core bug for the lead: a level row entered twice (same time and value) makes "
-                          "twolevel.sawchuk_zaske divide by b.time - a.time = 0 (two-level guards this, S-Z does not); "
-                          "the command line then exits 1 with an internal error instead of a duplicate-level caution")
 def test_a_level_entered_twice_computes():
     raw = _two_levels_case()
     raw["levels"].append(dict(raw["levels"][1]))
