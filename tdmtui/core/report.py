@@ -47,12 +47,12 @@ def summary_text(result: dict[str, Any]) -> str:
     lines += _wrap(f"Dosing weight {p['dosing_weight_kg']:.1f} kg ({p['dosing_weight_rule']})")
     cur = result.get("current_regimen")
     if cur:
-        lines.append(f"Current regimen: {cur['dose_mg']:.0f} mg every {cur['interval_h']:g} h over "
-                     f"{cur['infusion_h']:g} h ({cur['source']})")
+        lines += _wrap(f"Current regimen: {cur['dose_mg']:.0f} mg every {cur['interval_h']:g} h over "
+                       f"{cur['infusion_h']:g} h ({cur['source']})")
     est = result.get("estimate")
     if est:
         lines.append("")
-        lines.append(f"Method used: {result['method']}" + (f" - {est.get('assumption')}" if est.get("assumption") else ""))
+        lines += _wrap(f"Method used: {result['method']}" + (f" - {est.get('assumption')}" if est.get("assumption") else ""))
         lines.append(f"{'method':<19}{'ke /h':>8}{'t1/2 h':>7}{'Vd L':>7}{'L/kg':>6}{'CL L/h':>7}{'AUC24':>8}{'peak':>7}{'trough':>7}")
         lines.append(estimate_line(short_name(result["method"], result["drug"], est), est))
         for name, e in result.get("methods", {}).items():
@@ -67,8 +67,8 @@ def summary_text(result: dict[str, Any]) -> str:
     reg = result.get("regimen")
     if reg:
         lines.append("")
-        lines.append(f"Regimen: {reg['action']} - {reg['dose_mg']:.0f} mg every {reg['interval_h']:g} h over "
-                     f"{reg['infusion_h']:g} h, next dose {reg['next_dose_at']}")
+        lines += _wrap(f"Regimen: {reg['action']} - {reg['dose_mg']:.0f} mg every {reg['interval_h']:g} h over "
+                       f"{reg['infusion_h']:g} h, next dose {reg['next_dose_at']}")
         pr = reg.get("predicted", {})
         lines.append(f"  predicted AUC24 {_n(pr.get('auc24_mg_h_per_l'))} mg*h/L, peak {_n(pr.get('peak_mg_per_l'))}, "
                      f"trough {_n(pr.get('trough_mg_per_l'))} mg/L")
