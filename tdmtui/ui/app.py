@@ -271,8 +271,11 @@ class TdmApp(FilingMixin, App[int]):
         self.query_one(EstimateSection).show(event.outcome, getattr(event.outcome, "plot_data", None))
         plan = self.query_one(PlanSection)
         plan.show(event.outcome)
-        if plan.chosen is None:
-            self.chosen = None
+        had_choice = self.chosen is not None
+        self.chosen = plan.options[plan.chosen] if plan.chosen is not None else None
+        if had_choice and self.chosen is None:
+            self.notify("The chosen regimen is no longer offered after this change: choose again in Plan.",
+                        severity="warning", timeout=6)
         self.refresh_note()
         self.show_warnings(result.get("warnings", []))
         state = "STOP stands" if result.get("status") == "stop" else "ok"

@@ -10,6 +10,8 @@ from __future__ import annotations
 
 import json
 import re
+import subprocess
+import sys
 
 from textual.widgets import DataTable, Static
 
@@ -87,10 +89,10 @@ async def test_type_a_new_vancomycin_case_fit_choose_and_copy_note(state):
 
 
 async def test_open_sample_case_screen_matches_the_engine(state, sample_copy):
-    from tdmtui.core.compute import compute_raw
-
     path = sample_copy("vanc-steady-state.json")
-    expected = compute_raw(json.loads(path.read_text()), path.read_bytes()).result
+    cli = subprocess.run([sys.executable, "-m", "tdmtui", "compute", str(path), "--json"],
+                         capture_output=True, text=True, check=True)
+    expected = json.loads(cli.stdout)
     app = TdmApp(str(path), None, state=state)
     async with app.run_test(size=(80, 24)) as pilot:
         await settle(pilot)
@@ -114,6 +116,15 @@ async def test_open_sample_case_screen_matches_the_engine(state, sample_copy):
                 assert shown[1] == f"[{iv[0]:.3f}-{iv[1]:.3f}]", name
         header = str(app.screen.query_one("#header", Static).content)
         assert f"CrCl {expected['patient']['crcl_ml_min']:.0f} mL/min" in header
+        reg = expected.get("regimen")
+        if reg:  # the plan's first row is the proposal, to display rounding
+            await pilot.press("f6")
+            first = table_rows(app.screen.query_one("#plan-table", DataTable))[0]
+            assert first[2] == f"{reg['dose_mg']:.0f} mg"
+            assert first[5] == f"{reg['predicted']['auc24_mg_h_per_l']:.0f}"
+            assert first[7] == f"{reg['predicted']['trough_mg_per_l']:.1f}"
+            summary = str(app.screen.query_one("#plan-summary", Static).content)
+            assert f"Next dose: {reg['next_dose_at']}" in summary
 
 
 async def test_show_working_recomputes_from_its_own_numbers(state, sample_copy):

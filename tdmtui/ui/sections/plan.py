@@ -72,9 +72,14 @@ class PlanSection(Vertical):
     def show(self, outcome: Any) -> None:
         result = outcome.result if outcome is not None else {}
         self.query_one("#plan-summary", Static).update(summary_lines(result))
+        before = self.options[self.chosen] if self.chosen is not None and self.chosen < len(self.options) else None
         self.options = candidates(result)
-        if self.chosen is not None and self.chosen >= len(self.options):
-            self.chosen = None
+        self.chosen = None
+        if before is not None:  # keep the choice when the same regimen is still offered after a recompute
+            key = (before.get("dose_mg"), before.get("interval_h"), before.get("infusion_h"))
+            for i, c in enumerate(self.options):
+                if (c.get("dose_mg"), c.get("interval_h"), c.get("infusion_h")) == key:
+                    self.chosen = i
         self.fill()
 
     def fill(self) -> None:
