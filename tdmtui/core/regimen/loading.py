@@ -99,7 +99,7 @@ def to_target(params: PKParams, rules: Rules, target: float, tinf: float,
     exact = need / unit_peak(params, tinf)
     dose, capped = round_capped(exact, float(rules.value("regimen.rounding_mg")), _cap(rules))
     basis = (f"top-up from {on_board:.1f} mg/L predicted on board to {target:.1f} mg/L"
-             if on_board > 0 else f"single infusion to {target:.1f} mg/L (pk-sources.md 2.4 loading dose)")
+             if on_board > 0 else f"single infusion to {target:.1f} mg/L (Sawchuk-Zaske loading-dose equation, Bauer)")
     if capped:
         basis += f"; capped at {dose:g} mg"
     return Loading(dose, exact, capped, basis)
