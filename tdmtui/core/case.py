@@ -11,13 +11,14 @@ Drug-specific plausibility and course timing are judged later by
 
 from __future__ import annotations
 
+import contextlib
 import hashlib
 import json
 import os
 import tempfile
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any
+from typing import Any, Iterator
 
 from tdmtui.core.clock import Clock, clock_for
 from tdmtui.core.errors import InputError
@@ -421,3 +422,27 @@ def save_case(path: str | Path, raw: dict[str, Any]) -> str:
     data = canonical_bytes(raw)
     write_atomic(path, data)
     return hashlib.sha256(data).hexdigest()
+
+
+@contextlib.contextmanager
+def folder_lock(path: str | Path) -> Iterator[None]:
+    """Hold an exclusive advisory lock on the folder of ``path`` (POSIX flock).
+
+    Two sessions saving into the same folder take turns, so a check of the
+    file's digest and the rename that follows it cannot be interleaved with
+    another session's save (where flock is not available it is a no-op).
+    """
+    try:
+        import fcntl
+    except ImportError:  # pragma: no cover - not POSIX
+        yield
+        return
+    fd = os.open(str(Path(path).resolve().parent), os.O_RDONLY)
+    try:
+        fcntl.flock(fd, fcntl.LOCK_EX)
+        yield
+    finally:
+        try:
+            fcntl.flock(fd, fcntl.LOCK_UN)
+        finally:
+            os.close(fd)
