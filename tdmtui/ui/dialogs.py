@@ -22,15 +22,16 @@ class AskDialog(ModalScreen[str]):
     """
     BINDINGS = [Binding("escape", "answer('')", "Cancel", id="ask.cancel")]
 
-    def __init__(self, question: str, answers: list[tuple[str, str]]) -> None:
+    def __init__(self, question: str, answers: list[tuple[str, str]], escape: str = "cancel") -> None:
         super().__init__()
         self.question = question
         self.answers = answers
+        self.escape = escape
 
     def compose(self) -> ComposeResult:
         with Vertical():
             yield Static(self.question, markup=False)
-            keys = "   ".join(f"[{k}] {word}" for k, word in self.answers) + "   [Esc] cancel"
+            keys = "   ".join(f"[{k}] {word}" for k, word in self.answers) + f"   [Esc] {self.escape}"
             yield Label(keys, classes="ask-keys", markup=False)
 
     def on_key(self, event) -> None:  # noqa: ANN001

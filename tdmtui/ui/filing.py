@@ -44,7 +44,8 @@ class FilingMixin:
         self.push_screen(AskDialog(
             f"Unsaved work from {rec.saved_at} was found for "
             f"{Path(self.doc.path).name if self.doc.path else 'a new case'} (the app stopped before saving).\n"
-            "Restore it?", [("r", "restore"), ("d", "discard")]), answer)
+            "Restore it? (discard deletes it; Esc keeps it for next time and opens the file as saved)",
+            [("r", "restore"), ("d", "discard")], escape="later"), answer)
 
 
     def action_save(self) -> None:
@@ -107,11 +108,16 @@ class FilingMixin:
                         self.exit(0)
                 else:
                     self.save_as(then_quit=True)
-            elif word == "quit":
+            elif word == "keep for later":
+                self.exit(0)
+            elif word == "discard":
+                remove_recovery(recovery_path(self.doc.path, self.state))
                 self.exit(0)
 
-        self.push_screen(AskDialog("There are unsaved changes (they stay in the recovery file until saved).\n"
-                                   "Save before quitting?", [("s", "save"), ("q", "quit")]), answer)
+        self.push_screen(AskDialog(
+            "There are unsaved changes. Save before quitting?\n"
+            "(keep for later: quit now, the next start offers to restore them; discard: quit and drop them)",
+            [("s", "save"), ("k", "keep for later"), ("d", "discard")]), answer)
 
     # ---------------------------------------------------------------- note
     def action_copy_note(self) -> None:

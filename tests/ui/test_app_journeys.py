@@ -241,6 +241,20 @@ async def test_quit_with_unsaved_changes_asks_first(state):
         await pilot.press("escape")
         await pilot.pause()
         assert app.is_running
+        await pilot.press("ctrl+q", "k")  # keep for later: quits, the recovery file stays
+        await pilot.pause()
+    assert app.return_code == 0
+    assert read_recovery(recovery_path(None, state)).raw["patient"]["age"] == "50 yr"
+
+
+async def test_quit_and_discard_removes_the_recovery_file(state):
+    app = TdmApp(None, None, state=state)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await type_into(pilot, "#pt-age-input", "50")
+        assert read_recovery(recovery_path(None, state)) is not None
+        await pilot.press("ctrl+q", "d")
+        await pilot.pause()
+    assert read_recovery(recovery_path(None, state)) is None
 
 
 async def test_new_case_raw_is_the_default(state):
