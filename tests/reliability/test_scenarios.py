@@ -100,9 +100,7 @@ SCENARIOS: list[tuple[str, str, Callable[[dict], None], str, str, str]] = [
                      "core bug for the lead: with the last two maintenance rows identical, course.current_regimen "
                      "takes an interval of 0 h and the steady-state step raises (ValueError tau ... got 0.0) instead "
                      "of the contract's duplicate-dose caution"))),
-    pytest.param("duplicate", "the peak entered twice", _append_copy("levels", 1), "duplicate-level", "caution", "levels[2]",
-                 marks=pytest.mark.xfail(strict=True, reason=(
-                     "core bug for the lead: twolevel.sawchuk_zaske divides by zero for two levels at the same time"))),
+    ("duplicate", "the peak entered twice", _append_copy("levels", 1), "duplicate-level", "caution", "levels[2]"),
     # renal function
     ("renal", "SCr rising 1.1 -> 2.1 mg/dL in 48 h", _set("patient.scr.1.value", "2.1 mg/dL"), "scr-unstable", "caution", "patient.scr[1].value"),
     ("renal", "intermittent haemodialysis", _set("patient.renal_replacement", "ihd"), "renal-replacement", "stop", "patient.renal_replacement"),
