@@ -8,7 +8,7 @@ positive parameters and regimen figures.
 
 Counts (printed in the "reliability: fuzz counts" section of the run):
 10,000 mutated sample cases and 1,500 byte-damaged files through loading and
-validation, 2,500 hypothesis-generated cases, 300 seeded cases through the
+validation, 1,000 hypothesis-generated cases, 300 seeded cases through the
 full compute, a sample through the command line in a subprocess. Seeds are
 fixed, and hypothesis runs derandomised, so CI sees the same cases every run.
 """
@@ -42,8 +42,8 @@ N_BYTES = 1_500
 N_GENERATED = 1_000
 N_COMPUTE = 300
 
-#: Known core bugs found by fuzzing, each pinned by an xfail(strict) test in
-#: test_fuzz_regressions.py: (exception type, text in the failing source line).
+#: Known core bugs found by fuzzing, each pinned by an xfail(strict) test at the
+#: end of this file: (exception type, text in the failing source line).
 #: Fuzz failures matching one are counted, not failed, so main stays green
 #: while the bug stands; the strict xfail fails once it is fixed.
 KNOWN_BUGS: tuple[tuple[str, str], ...] = ()
@@ -306,7 +306,7 @@ def test_command_line_accepts_a_valid_case_with_exit_0(name):
     assert not check_result(json.loads(run.stdout))
 
 
-# --------------------------------------------------------------------------- pinned core bugs found by fuzzing
+# --------------------------------------------------------------------------- core bugs found by fuzzing (regressions)
 
 
 def test_unknown_key_with_a_line_break_still_gives_one_line(tmp_path):
