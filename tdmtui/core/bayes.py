@@ -28,6 +28,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
+from functools import lru_cache
 from typing import Callable
 
 import numpy as np
@@ -102,28 +103,29 @@ def exponentials(cl, v1, q, v2) -> tuple[np.ndarray, np.ndarray]:  # noqa: ANN00
 
 @dataclass(frozen=True)
 class Design:
-    """Dose-by-time arrays, precomputed once for repeated batch predictions at n times.
+    """Dose-by-time arrays for repeated batch predictions at n times; a dose is *done* at t once its
+    infusion has ended (a bolus: just after it is given), and only done (time, dose) pairs are kept."""
 
-    A dose is *done* at t once its infusion has ended (a bolus: once given,
-    counted from just after its time); its term then decays from its end value.
-    """
-
-    after: np.ndarray  # (n, d) h since the dose ended; inf when not done (its decay factor is 0)
+    after: np.ndarray  # (P,) h since the dose of each done pair ended
+    dose: np.ndarray  # (P,) index of that pair's dose
+    select: np.ndarray  # (P, n) 1 where the pair belongs to time n
     into: np.ndarray  # (n, d) h of a running infusion elapsed at t; 0 otherwise
     running: bool  # any level drawn during an infusion
     rate: np.ndarray  # (d,) mg/h (0 for a bolus)
     duration: np.ndarray  # (d,) h
-    amount: np.ndarray  # (d,) mg
+    bolus: np.ndarray  # (d,) mg for a bolus, 0 for an infusion
 
     @classmethod
     def build(cls, doses: DoseArrays, t) -> Design:  # noqa: ANN001
         u = np.asarray(t, dtype=float).reshape(-1)[:, None] - doses.start[None, :]
         dur = doses.duration
-        done = (u >= dur) & (u > 0)
+        level, dose = np.nonzero((u >= dur) & (u > 0))
         running = (u > 0) & (u < dur)
         rate = np.where(dur > 0, doses.amount / np.where(dur > 0, dur, 1.0), 0.0)
-        return cls(np.where(done, u - dur, np.inf), np.where(running, u, 0.0), bool(running.any()),
-                   rate, dur, doses.amount)
+        select = np.zeros((level.size, u.shape[0]))
+        select[np.arange(level.size), level] = 1.0
+        return cls(u[level, dose] - dur[dose], dose, select, np.where(running, u, 0.0), bool(running.any()),
+                   rate, dur, np.where(dur > 0, 0.0, doses.amount))
 
 
 def batch_concentration(cl, v1, q, v2, design: Design) -> np.ndarray:  # noqa: ANN001
@@ -134,13 +136,13 @@ def batch_concentration(cl, v1, q, v2, design: Design) -> np.ndarray:  # noqa: A
     R (1 - e^(-lam u))/lam while running; superposed, each term weighted by w/V1.
     """
     lam, w = exponentials(cl, v1, q, v2)
-    lam3 = lam[:, :, None]
-    end = np.where(design.duration > 0, -np.expm1(-lam3 * design.duration) * (design.rate / lam3), design.amount)
-    unit = np.einsum("mknd,mkd->mkn", np.exp(-lam3[..., None] * design.after), end)  # (m, k, n)
+    lam3, scale = lam[:, :, None], w / np.atleast_1d(v1)[:, None]
+    end = (-np.expm1(-lam3 * design.duration) * (design.rate / lam3) + design.bolus) * scale[:, :, None]
+    out = np.sum(np.exp(-lam3 * design.after) * end[:, :, design.dose], axis=1) @ design.select
     if design.running:
         lam4 = lam3[..., None]
-        unit += np.sum(-np.expm1(-lam4 * design.into) * (design.rate / lam4), axis=-1)
-    return np.einsum("mk,mkn->mn", w / np.atleast_1d(v1)[:, None], unit)
+        out += np.einsum("mknd,mk->mn", -np.expm1(-lam4 * design.into) * (design.rate / lam4), scale)
+    return out
 
 
 def batch_steady_state(cl, v1, q, v2, dose: float, tau: float, tinf: float,  # noqa: ANN001
@@ -161,6 +163,7 @@ def batch_steady_state(cl, v1, q, v2, dose: float, tau: float, tinf: float,  # n
             "auc24": 24.0 * dose / (tau * np.atleast_1d(np.asarray(cl, dtype=float)))}
 
 
+@lru_cache(maxsize=8)
 def _stencil(p: int, h: float) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Central-difference points (npts, p) and the linear maps from OFV values to gradient and Hessian.
 
@@ -187,19 +190,16 @@ class Posterior:
     def __init__(self, model: PopModel, typical: Typical, doses: DoseArrays, obs: Observations) -> None:
         self.model, self.obs = model, obs
         self.log_tv = np.log([getattr(typical.params, f) for f in model.param_names])
-        self.index = [model.param_names.index(n) for n in model.eta_names]
+        self.eta_map = np.eye(len(model.param_names))[:, [model.param_names.index(n) for n in model.eta_names]]
         self.omega_inv = np.linalg.inv(model.omega)
         self.design = Design.build(doses, obs.time)
-        self.stencil = _stencil(len(self.index), 1e-3)
+        self.stencil = _stencil(len(model.eta_names), 1e-3)
         self.all_quantified = bool(np.all(obs.quantified))
 
     def params(self, eta: np.ndarray) -> list[np.ndarray]:
         """Parameter arrays (cl, v1, q, v2) for eta of shape (m, p)."""
-        logp = np.tile(self.log_tv, (eta.shape[0], 1))
-        logp[:, self.index] += eta
-        p = np.exp(logp)
-        zero = np.zeros(eta.shape[0])
-        return [p[:, 0], p[:, 1], p[:, 2], p[:, 3]] if p.shape[1] == 4 else [p[:, 0], p[:, 1], zero, zero]
+        p = np.exp(self.log_tv[:, None] + self.eta_map @ eta.T)  # (parameters, m), rows contiguous
+        return list(p) if len(p) == 4 else [p[0], p[1], np.zeros(p.shape[1]), np.zeros(p.shape[1])]
 
     def __call__(self, eta: np.ndarray) -> np.ndarray:
         """OFV for eta of shape (m, p); shape (m,)."""
@@ -450,12 +450,12 @@ def effective_sample_size(samples: ParamSamples) -> float:
 def intervals(samples: ParamSamples, fn: Callable[[ParamSamples], np.ndarray],
               level: float = 0.90) -> tuple[float, float]:
     """Central ``level`` interval of ``fn(samples)`` (an array per draw), weighted when the draws are."""
-    x, probs, w = np.asarray(fn(samples), float), ((1 - level) / 2, (1 + level) / 2), samples.weights
-    if w is None:
-        return float(np.quantile(x, probs[0])), float(np.quantile(x, probs[1]))
+    x, probs, w = np.asarray(fn(samples), float), [(1 - level) / 2, (1 + level) / 2], samples.weights
     order = np.argsort(x)
-    cdf = np.cumsum(w[order]) - 0.5 * w[order]
-    return float(np.interp(probs[0], cdf, x[order])), float(np.interp(probs[1], cdf, x[order]))
+    # unweighted: numpy's default (linear) quantile, x_sorted at p (n - 1); weighted: midpoint CDF
+    cdf = np.arange(x.size) / (x.size - 1) if w is None else np.cumsum(w[order]) - 0.5 * w[order]
+    lo, hi = np.interp(probs, cdf, x[order])
+    return float(lo), float(hi)
 
 
 def regimen_intervals(samples: ParamSamples, dose: float | None = None, tau: float | None = None,
@@ -471,7 +471,7 @@ def regimen_intervals(samples: ParamSamples, dose: float | None = None, tau: flo
 
 
 def two_compartment_intervals(samples: ParamSamples, level: float = 0.90) -> dict[str, tuple[float, float]]:
-    """Intervals for V1, V2, Q and the alpha and beta half-lives, h (pk-sources.md 2.6); {} for one compartment."""
+    """Intervals for V1, V2, Q, alpha and beta half-lives (pk-sources.md 2.6); {} for one compartment."""
     if not np.any(samples.q > 0):
         return {}
     lam, _ = exponentials(samples.cl, samples.v1, samples.q, samples.v2)
