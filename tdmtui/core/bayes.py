@@ -167,19 +167,21 @@ def batch_steady_state(cl, v1, q, v2, dose: float, tau: float, tinf: float,  # n
 def _stencil(p: int, h: float) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Central-difference points (npts, p) and the linear maps from OFV values to gradient and Hessian.
 
-    Gradient to fourth order, (8 (f(h) - f(-h)) - (f(2h) - f(-2h))) / 12h; Hessian to second order.
+    Gradient to fourth order, (8 (f(h) - f(-h)) - (f(2h) - f(-2h))) / 12h. Hessian to second order:
+    H_ii = (f(+i) - 2 f0 + f(-i)) / h^2, H_ij = (f(+i+j) + f(-i-j) - f(+i) - f(-i) - f(+j) - f(-j) + 2 f0) / 2h^2.
     """
     eye = np.eye(p)
     pairs = [(i, j) for i in range(p) for j in range(i + 1, p)]
-    pts = [np.zeros((1, p)), eye, -eye, 2 * eye, -2 * eye] + [
-        np.array([eye[i] + eye[j], eye[i] - eye[j], eye[j] - eye[i], -eye[i] - eye[j]]) for i, j in pairs]
-    n = 1 + 4 * p + 4 * len(pairs)
+    pts = [np.zeros((1, p)), eye, -eye, 2 * eye, -2 * eye]
+    pts += [np.array([eye[i] + eye[j], -eye[i] - eye[j]]) for i, j in pairs]
+    n = 1 + 4 * p + 2 * len(pairs)
     grad, hess = np.zeros((p, n)), np.zeros((p, p, n))
     for i in range(p):
         grad[i, [1 + i, 1 + p + i, 1 + 2 * p + i, 1 + 3 * p + i]] = np.array([8.0, -8.0, -1.0, 1.0]) / (12.0 * h)
         hess[i, i, [0, 1 + i, 1 + p + i]] = np.array([-2.0, 1.0, 1.0]) / h ** 2
     for k, (i, j) in enumerate(pairs):
-        hess[i, j, 1 + 4 * p + 4 * k:5 + 4 * p + 4 * k] = np.array([1.0, -1.0, -1.0, 1.0]) / (4.0 * h * h)
+        cols = [1 + 4 * p + 2 * k, 2 + 4 * p + 2 * k, 0, 1 + i, 1 + p + i, 1 + j, 1 + p + j]
+        hess[i, j, cols] = np.array([1.0, 1.0, 2.0, -1.0, -1.0, -1.0, -1.0]) / (2.0 * h * h)
         hess[j, i] = hess[i, j]
     return h * np.vstack(pts), grad, hess.reshape(p * p, n)
 
@@ -229,8 +231,7 @@ class Posterior:
 def _newton(post: Posterior, x: np.ndarray, bound: np.ndarray, max_iter: int = 60):  # noqa: ANN202
     """Damped Newton on the box [-bound, bound], backtracking in one batch when a full step fails.
 
-    Returns (eta, ofv, Hessian, iterations) at an interior point where the
-    Newton decrement g' H^-1 g < 1e-10 with H positive definite, else None.
+    Returns (eta, ofv, Hessian, iterations) at an interior point where g' H^-1 g < 1e-10, H > 0; else None.
     """
     f, g, hess = post.derivatives(x)
     for it in range(max_iter):
