@@ -81,9 +81,8 @@ NO_LEVELS = Observations.from_lists([], [])
 def exponentials(cl, v1, q, v2) -> tuple[np.ndarray, np.ndarray]:  # noqa: ANN001
     """Exponents (m, k) 1/h and weights (m, k) per parameter set: C = sum_k w_k u_k / V1.
 
-    One compartment: lam = CL/V, w = 1. Two (pk-sources.md 2.6): alpha, beta and
-    A', B', written without cancellation: alpha - beta = sqrt((k10 + k12 - k21)^2
-    + 4 k12 k21), beta = k10 k21 / alpha.
+    One compartment: lam = CL/V, w = 1. Two (pk-sources.md 2.6): alpha, beta, A', B' without
+    cancellation: alpha - beta = sqrt((k10 + k12 - k21)^2 + 4 k12 k21), beta = k10 k21 / alpha.
     """
     cl, v1, q, v2 = (x if isinstance(x, np.ndarray) and x.ndim == 1 else np.atleast_1d(np.asarray(x, float))
                      for x in (cl, v1, q, v2))
@@ -108,7 +107,8 @@ class Design:
 
     after: np.ndarray  # (P,) h since the dose of each done pair ended
     dose: np.ndarray  # (P,) index of that pair's dose
-    select: np.ndarray  # (P, n) 1 where the pair belongs to time n
+    starts: np.ndarray  # first pair of each time that has any (pairs are ordered by time)
+    has: np.ndarray  # (n,) True where the time has a done pair
     into: np.ndarray  # (n, d) h of a running infusion elapsed at t; 0 otherwise
     running: bool  # any level drawn during an infusion
     rate: np.ndarray  # (d,) mg/h (0 for a bolus)
@@ -122,23 +122,25 @@ class Design:
         level, dose = np.nonzero((u >= dur) & (u > 0))
         running = (u > 0) & (u < dur)
         rate = np.where(dur > 0, doses.amount / np.where(dur > 0, dur, 1.0), 0.0)
-        select = np.zeros((level.size, u.shape[0]))
-        select[np.arange(level.size), level] = 1.0
-        return cls(u[level, dose] - dur[dose], dose, select, np.where(running, u, 0.0), bool(running.any()),
-                   rate, dur, np.where(dur > 0, 0.0, doses.amount))
+        counts = np.bincount(level, minlength=u.shape[0])
+        starts = (np.cumsum(counts) - counts)[counts > 0]
+        return cls(u[level, dose] - dur[dose], dose, starts, counts > 0, np.where(running, u, 0.0),
+                   bool(running.any()), rate, dur, np.where(dur > 0, 0.0, doses.amount))
 
 
 def batch_concentration(cl, v1, q, v2, design: Design) -> np.ndarray:  # noqa: ANN001
     """Concentrations (m, n) mg/L for m parameter sets at the design's n times.
 
-    Per dose (pk-sources.md 2.2): end value R (1 - e^(-lam T))/lam for an
-    infusion (D for a bolus) times e^(-lam (t - end)) once done;
-    R (1 - e^(-lam u))/lam while running; superposed, each term weighted by w/V1.
+    Per dose (pk-sources.md 2.2): end value R (1 - e^(-lam T))/lam (D for a bolus) times e^(-lam (t - end))
+    once done; R (1 - e^(-lam u))/lam while running; superposed, each term weighted by w/V1.
     """
     lam, w = exponentials(cl, v1, q, v2)
     lam3, scale = lam[:, :, None], w / np.atleast_1d(v1)[:, None]
     end = (-np.expm1(-lam3 * design.duration) * (design.rate / lam3) + design.bolus) * scale[:, :, None]
-    out = np.sum(np.exp(-lam3 * design.after) * end[:, :, design.dose], axis=1) @ design.select
+    out = np.zeros((lam.shape[0], design.has.size))
+    if design.starts.size:
+        done = np.sum(np.exp(-lam3 * design.after) * end[:, :, design.dose], axis=1)  # (m, P)
+        out[:, design.has] = np.add.reduceat(done, design.starts, axis=1)
     if design.running:
         lam4 = lam3[..., None]
         out += np.einsum("mknd,mk->mn", -np.expm1(-lam4 * design.into) * (design.rate / lam4), scale)
@@ -295,8 +297,8 @@ class Fit:
 
     def narrowing(self) -> dict[str, float]:
         """1 - posterior SD / population SD per random effect: how much the levels told us."""
-        post = np.sqrt(np.diag(self.cov_eta))
-        return {n: float(1.0 - p / s) for n, p, s in zip(self.model.eta_names, post, self.omega_sd)}
+        post = np.sqrt(np.diag(self.cov_eta)) / self.omega_sd
+        return {n: float(1.0 - p) for n, p in zip(self.model.eta_names, post)}
 
     def predict(self, t, doses: DoseArrays | None = None) -> np.ndarray:  # noqa: ANN001
         """Concentrations, mg/L, at ``t`` h for this estimate (shared closed-form predictor)."""
@@ -350,8 +352,7 @@ def map_fit(model: PopModel, covariates: Covariates, doses: DoseArrays, observat
     post = Posterior(model, typical, doses, observations)
     sd = np.sqrt(np.diag(model.omega))
     bound = BOUND_SD * sd
-    found = _newton(post, np.zeros(sd.size), bound)
-    message = "Newton from eta = 0"
+    found, message = _newton(post, np.zeros(sd.size), bound), "Newton from eta = 0"
     if found is None:  # second start: L-BFGS-B from the best point of a +-2 SD grid
         axes = np.meshgrid(*[np.array([-2.0, 0.0, 2.0]) * s for s in sd], indexing="ij")
         grid = np.stack([a.reshape(-1) for a in axes], 1)
@@ -450,12 +451,11 @@ def effective_sample_size(samples: ParamSamples) -> float:
 
 def intervals(samples: ParamSamples, fn: Callable[[ParamSamples], np.ndarray],
               level: float = 0.90) -> tuple[float, float]:
-    """Central ``level`` interval of ``fn(samples)`` (an array per draw), weighted when the draws are."""
-    x, probs, w = np.asarray(fn(samples), float), [(1 - level) / 2, (1 + level) / 2], samples.weights
+    """Central ``level`` interval of ``fn(samples)``: numpy's linear quantile, or a weighted midpoint CDF."""
+    x, w = np.asarray(fn(samples), float), samples.weights
     order = np.argsort(x)
-    # unweighted: numpy's default (linear) quantile, x_sorted at p (n - 1); weighted: midpoint CDF
     cdf = np.arange(x.size) / (x.size - 1) if w is None else np.cumsum(w[order]) - 0.5 * w[order]
-    lo, hi = np.interp(probs, cdf, x[order])
+    lo, hi = np.interp([(1 - level) / 2, (1 + level) / 2], cdf, x[order])
     return float(lo), float(hi)
 
 
