@@ -20,13 +20,14 @@ from tdmtui.core.safety import NOTE_LINE
 #: Method descriptions and their literature source (pk-sources.md 2.2-2.7).
 METHOD_TEXT = {
     "two-level": "one-compartment model; ke and V solved exactly through the two most recent usable "
-                 "levels with every dose superposed (pk-sources.md 2.2, 2.5: Pai 2014 two-level approach, "
-                 "citation details from memory)",
+                 "levels with every dose superposed (standard infusion equations; two-level approach "
+                 "after Pai MP et al. 2014, citation details from memory)",
     "sawchuk-zaske": "one-compartment, one dosing interval (Sawchuk RJ, Zaske DE. J Pharmacokinet "
-                     "Biopharm 1976;4:183-195, citation from memory; pk-sources.md 2.4)",
+                     "Biopharm 1976;4:183-195, citation from memory)",
     "least-squares": "one-compartment model fitted by least squares to every usable level, all doses "
-                     "superposed (pk-sources.md 2.2)",
-    "bayesian": "maximum a posteriori estimate on a published population model (pk-sources.md 2.7)",
+                     "superposed (standard infusion equations)",
+    "bayesian": "maximum a posteriori estimate on a published population model (log-normal "
+                "between-patient variability)",
     "population": "population values from CrCl and weight; no level used",
     "nomogram": "level read against the drug's nomogram; the estimate below is the automatic method's",
 }
