@@ -175,8 +175,12 @@ def _estimates(outcome: Any) -> list[str]:
             lines += f.wrap(f"Probability the current regimen meets its target: {f.pct(est['target_probability'])}.")
         two = est.get("two_compartment")
         if two:
-            lines += f.wrap("Two-compartment parameters: " +
-                            ", ".join(f"{k} {v:.4g}" for k, v in two.items() if isinstance(v, (int, float))) + ".")
+            parts = [f"{label} {fmt(two[k])}{unit}" for k, label, fmt, unit in (
+                ("v1_l", "V1", f.litres, " L"), ("v2_l", "V2", f.litres, " L"), ("q_l_per_h", "Q", f.clearance, " L/h"),
+                ("alpha_half_life_h", "alpha half-life", f.hours, " h"),
+                ("beta_half_life_h", "beta half-life", f.hours, " h")) if two.get(k) is not None]
+            lines += f.wrap("Two-compartment model (figures above are the one-compartment equivalents, "
+                            "Vd = V1 + V2): " + ", ".join(parts) + ".")
     for name, why in (res.get("methods_unavailable") or {}).items():
         lines += f.wrap(f"Not available: {name}: {why}.", "", "    ")
     return lines

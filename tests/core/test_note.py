@@ -275,3 +275,19 @@ def test_protocol_floor_and_record(tmp_path, capsys):
            "measured 0.9 mg/dL." in flat(text)
     assert "Local protocol: Demo ward, sha256:" in text
     assert f"  {hashlib.sha256(proto.read_bytes()).hexdigest()}" in text.splitlines()
+
+
+def test_two_compartment_figures_printed_when_the_estimate_has_them():
+    out = compute(load_case(SAMPLES / "vanc-steady-state.json"))
+    two_comp = [e for e in out.result["methods"].values() if e.get("two_compartment")]
+    if not two_comp:
+        pytest.skip("no two-compartment estimate among the methods of vanc-steady-state")
+    out.result["estimate"] = dict(two_comp[0])
+    two = two_comp[0]["two_compartment"]
+    m = re.search(r"V1 ([\d.]+) L, V2 ([\d.]+) L, Q ([\d.]+) L/h, alpha half-life ([\d.]+) h, "
+                  r"beta half-life ([\d.]+) h", flat(render_note(out)))
+    assert m, "two-compartment line missing"
+    for printed, key in zip(m.groups(), ("v1_l", "v2_l", "q_l_per_h", "alpha_half_life_h", "beta_half_life_h")):
+        assert close_to_printed(printed, two[key]), key
+    # case-format.md: the one-compartment equivalent Vd is Vss = V1 + V2
+    assert two_comp[0]["vd_l"] == pytest.approx(two["v1_l"] + two["v2_l"], rel=1e-9)
