@@ -16,10 +16,11 @@ from pathlib import Path
 from typing import Any
 
 from rich.text import Text
-from textual import on, work
+from textual import events, on, work
 from textual.app import App, ComposeResult
 from textual.binding import Binding
-from textual.widgets import ContentSwitcher, Footer, Static
+from textual.screen import ModalScreen
+from textual.widgets import ContentSwitcher, Footer, Input, Static
 
 from tdmtui.ui import formatting as fm
 from tdmtui.ui.dialogs import HelpScreen
@@ -43,9 +44,11 @@ SPINNER_AFTER_S = 0.1
 def _section_bindings() -> list[Binding]:
     out = []
     for i, (name, title) in enumerate(SECTIONS):
+        # priority: handled before the next key is routed, so typing straight on lands in the new section
         out.append(Binding(f"f{i + 2}", f"section('{name}')", title, key_display=f"F{i + 2}", id=f"go.{name}",
-                           show=False))
-        out.append(Binding(str(i + 1), f"section('{name}')", title, show=False, id=f"go.{name}.digit"))
+                           show=False, priority=True))
+        out.append(Binding(str(i + 1), f"section_digit('{name}')", title, show=False, id=f"go.{name}.digit",
+                           priority=True))
     return out
 
 
@@ -60,6 +63,9 @@ class TdmApp(FilingMixin, App[int]):
         Binding("question_mark", "help", "Help", show=False, id="app.help.q"),
         *_section_bindings(),
         Binding("f8", "warnings", "Warnings", id="app.warnings"),
+        # priority: focus moves before the next key is routed, so fast typing lands in the next field
+        Binding("tab", "focus_next", "Next field", show=False, priority=True, id="app.next"),
+        Binding("shift+tab", "focus_previous", "Previous field", show=False, priority=True, id="app.previous"),
         Binding("ctrl+s", "save", "Save", id="app.save"),
         Binding("ctrl+q", "quit_app", "Quit", priority=True, id="app.quit"),
     ]
@@ -167,11 +173,26 @@ class TdmApp(FilingMixin, App[int]):
         self.update_tabs()
         self.focus_section()
 
+    async def on_event(self, event: events.Event) -> None:
+        """A key with nothing focused (e.g. after the terminal reported losing focus) goes to the section."""
+        if isinstance(event, events.Key) and not isinstance(self.screen, ModalScreen) and self.screen.focused is None:
+            self.focus_section()
+        await super().on_event(event)
+
+    def action_section_digit(self, name: str) -> None:
+        self.action_section(name)
+
+    def check_action(self, action: str, parameters: tuple[object, ...]) -> bool | None:
+        """Digits switch sections only outside text fields (there they are typed)."""
+        if action == "section_digit":
+            return not isinstance(self.focused, Input)
+        return True
+
     def focus_section(self) -> None:
         section = self.query_one(f"#{self.current_section()}")
         for widget in section.query("*"):
             if widget.focusable:
-                widget.focus()
+                section.screen.set_focus(widget)  # at once, on the workspace screen (not a dialog)
                 return
 
     def action_help(self) -> None:

@@ -53,7 +53,7 @@ class DosesSection(RowsSection):
         FieldSpec("kind", "Kind", "choice", options=DOSE_KINDS),
         FieldSpec("timing", "Timing", "choice", options=TIMINGS),
     )
-    BINDINGS = [*RowsSection.BINDINGS, Binding("r", "repeat", "Repeat", id="doses.repeat")]
+    BINDINGS = [*RowsSection.BINDINGS, Binding("r", "repeat", "Repeat", id="doses.repeat", priority=True)]
 
     def cells(self, index: int, row: dict[str, Any]) -> tuple[str, ...]:
         infusion = row.get("duration") or (f"to {short_time(row['end'])[6:]}" if "end" in row else "")

@@ -28,12 +28,16 @@ class RowsSection(Vertical):
     TITLE = ""
     FIELDS: tuple[FieldSpec, ...] = ()
     COLUMNS: tuple[str, ...] = ()
+    # priority: run before the next key is routed (so keys typed right after "a" reach the new row);
+    # check_action lets them through to the fields as ordinary typing
     BINDINGS = [
-        Binding("a", "add", "Add row", id="rows.add"),
-        Binding("x,delete", "delete", "Delete", id="rows.delete"),
-        Binding("u", "undo", "Undo", id="rows.undo"),
-        Binding("escape", "to_table", "Table", show=False, id="rows.table"),
+        Binding("a", "add", "Add row", id="rows.add", priority=True),
+        Binding("x,delete", "delete", "Delete", id="rows.delete", priority=True),
+        Binding("u", "undo", "Undo", id="rows.undo", priority=True),
+        Binding("enter", "edit", "Edit", show=False, id="rows.edit", priority=True),
+        Binding("escape", "to_table", "Table", show=False, id="rows.table", priority=True),
     ]
+    TABLE_ACTIONS = ("add", "delete", "undo", "repeat", "edit")
 
     def __init__(self, doc: Any, *, id: str | None = None) -> None:  # noqa: A002
         super().__init__(id=id)
@@ -47,6 +51,12 @@ class RowsSection(Vertical):
             yield Label("", id=f"{self.NAME}-form-title", classes="form-title", markup=False)
             for spec in self.FIELDS:
                 yield FieldRow(spec, prefix=self.NAME)
+
+    def check_action(self, action: str, parameters: tuple[object, ...]) -> bool | None:
+        """Row keys act on the table; in a field the letter is typed instead (shown dimmed)."""
+        if action in self.TABLE_ACTIONS:
+            return None if not isinstance(self.app.focused, DataTable) else True
+        return True
 
     def on_mount(self) -> None:
         table = self.query_one(DataTable)
@@ -112,7 +122,7 @@ class RowsSection(Vertical):
 
     def focus_form(self) -> None:
         if self.FIELDS:
-            self.query_one(f"#{self.NAME}-{self.FIELDS[0].key}-input").focus()
+            self.screen.set_focus(self.query_one(f"#{self.NAME}-{self.FIELDS[0].key}-input"))
 
     def entry(self, key: str, text: str, row: dict[str, Any]) -> Entry:
         """Evaluate one field's text (subclasses)."""
@@ -195,5 +205,9 @@ class RowsSection(Vertical):
         self.post_message(CaseEdited("undo"))
         self.app.notify(f"Undone: {what}", timeout=4)
 
+    def action_edit(self) -> None:
+        """Enter on the table: edit the highlighted row."""
+        self.focus_form()
+
     def action_to_table(self) -> None:
-        self.query_one(DataTable).focus()
+        self.screen.set_focus(self.query_one(DataTable))

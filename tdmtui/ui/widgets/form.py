@@ -57,7 +57,7 @@ class FieldRow(Horizontal):
             yield Cycler(self.spec.options, self._value, id=f"{self.id}-input")
         else:
             yield Input(self._value, placeholder=self.spec.unit, compact=True, id=f"{self.id}-input",
-                        select_on_focus=False)
+                        select_on_focus=True)
         yield Label(self._idle_note(), classes="field-note", markup=False)
 
     def _idle_note(self) -> str:
