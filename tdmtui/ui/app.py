@@ -93,6 +93,7 @@ class TdmApp(FilingMixin, App[int]):
         self.crcl: float | None = None
         self._debounce: Any = None
         self._spinner: Any = None
+        self._small = False
 
     # ---------------------------------------------------------------- layout
     def compose(self) -> ComposeResult:
@@ -118,6 +119,14 @@ class TdmApp(FilingMixin, App[int]):
         self.offer_recovery()
         self.request_compute(now=True)
         self.call_after_refresh(self.focus_section)
+
+    def on_resize(self, event: events.Resize) -> None:
+        """Say so when the window is below 80x24 (text is cut, nothing is lost)."""
+        small = event.size.width < 80 or event.size.height < 24
+        if small and not self._small:
+            self.notify(f"The window is {event.size.width}x{event.size.height}; 80x24 or larger shows everything.",
+                        severity="warning", timeout=6)
+        self._small = small
 
     # ---------------------------------------------------------------- header, tabs, warnings
     def update_header(self) -> None:

@@ -288,3 +288,32 @@ async def test_infusion_by_end_time_and_a_level_set_aside_with_reason(state, sam
         assert app.outcome is not None
         table = {r["field"]: r for r in app.outcome.result["levels"]}
         assert table["levels[0]"]["usable"] is False
+
+
+async def test_write_note_to_a_file_0600(state, sample_copy):
+    import os
+    import stat
+
+    path = sample_copy("vanc-steady-state.json")
+    app = TdmApp(str(path), None, state=state)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        await pilot.press("f7", "w")
+        await pilot.pause()
+        field = app.screen.query_one("Input")
+        assert field.value == str(path.with_name("vanc-steady-state.note.txt"))
+        await pilot.press("enter")
+        await pilot.pause()
+    out = path.with_name("vanc-steady-state.note.txt")
+    from tdmtui.ui.safety import caution_line
+
+    assert out.read_text() == app.note and caution_line() in app.note  # the note carries the caution
+    assert stat.S_IMODE(os.stat(out).st_mode) == 0o600
+
+
+async def test_a_small_window_is_named(state):
+    app = TdmApp(None, None, state=state)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.resize_terminal(60, 20)
+        await pilot.pause()
+        assert any("60x20" in n.message for n in app._notifications)
