@@ -410,3 +410,16 @@ def test_second_start_reaches_the_grid_minimum(monkeypatch):
     fit = bayes.map_fit(BUELGA, BUELGA_PATIENT, COURSE, obs)
     assert "L-BFGS-B" in fit.message
     assert abs(fit.eta[0] - ec[i, j]) <= ec[1, 0] - ec[0, 0] and abs(fit.eta[1] - ev[i, j]) <= ev[0, 1] - ev[0, 0]
+
+
+def test_data_far_from_the_prior_move_the_estimate_not_break_it():
+    # Levels simulated by solve_ivp with CL at half the typical value (eta -0.69, 2.5 SD of Buelga's
+    # 28 % IIV): the fit converges, moves CL by more than 1.5 SD and predicts the levels better than the
+    # population value does.
+    typ = BUELGA.typical(BUELGA_PATIENT).params
+    t = np.array([2.0, 11.5, 26.0, 35.5])
+    conc, _ = ode_reference(typ.cl / 2, typ.v1, 0.0, 0.0, COURSE.start, COURSE.duration, COURSE.amount, t)
+    fit = map_fit(BUELGA, BUELGA_PATIENT, COURSE, Observations.from_lists(t, conc))
+    assert fit.movement()["cl"] < -1.5
+    pop = population_fit(BUELGA, BUELGA_PATIENT, COURSE)
+    assert np.sum((fit.predict(t) - conc) ** 2) < 0.2 * np.sum((pop.predict(t) - conc) ** 2)
