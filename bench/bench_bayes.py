@@ -131,6 +131,8 @@ def main() -> None:
     args = ap.parse_args()
     bench_speed(args.reps)
     n = args.patients
+    if n <= 0:
+        return
     print(f"\nsimulation: {n} seeded patients per row, 4 doses; AUC24 of the regimen")
     print(f"  {'simulated with / fitted with':58s} {'levels':12s} cover90   +-se   bias    MAE  failed  "
           "cover90 (importance-resampled)")
