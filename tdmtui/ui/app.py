@@ -168,7 +168,7 @@ class TdmApp(FilingMixin, App[int]):
         lines = [fm.alert_line(a) for a in self.alerts[:2]]
         if len(self.alerts) > 2:
             lines.append(f"... and {len(self.alerts) - 2} more: F8 lists every warning")
-        strip.update("\n".join(line if len(line) <= 80 else line[:77] + "..." for line in lines))
+        strip.update("\n".join(line if len(line) <= 80 else line[:72] + "... (F8)" for line in lines))
         strip.set_class(any(a.get("severity") == "stop" for a in self.alerts), "-stop")
 
     def set_status(self, text: str, error: bool = False) -> None:

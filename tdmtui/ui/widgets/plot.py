@@ -17,7 +17,7 @@ if TYPE_CHECKING:  # numpy stays off the path to the first paint
     from tdmtui.ui.widgets.canvas import BrailleCanvas
     from tdmtui.ui.widgets.plotdata import PlotData
 
-LEGEND = "o level  x set aside  v <LOQ  \u28c0\u28c0 fitted  \u28c0 \u28c0 plan  \u2801 90% band  - target  | now"
+LEGEND = "o level x aside v <LOQ  \u28c0\u28c0 fitted  \u28c0 \u28c0 plan  \u2801 90% band  - target  | now"
 MARK = {"used": "o", "aside": "x", "blq": "v"}
 Y_LABEL_W = 6
 
