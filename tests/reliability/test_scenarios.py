@@ -157,3 +157,26 @@ def test_every_category_of_the_issue_has_a_scenario():
               "population", "level-zero", "absurd"}
     have = {(s.values if hasattr(s, "values") else s)[0] for s in SCENARIOS}
     assert wanted <= have
+
+
+@pytest.mark.parametrize("category, what, slip, code, severity, field", SCENARIOS, ids=[_id(s) for s in SCENARIOS])
+def test_slip_through_the_command_line(tmp_path, capsys, category, what, slip, code, severity, field):
+    """The same slips through ``tdmtui compute --json`` (its main(), in-process): exit 2 and one line, or exit 0."""
+    import json
+
+    from tdmtui.cli import main
+
+    raw = copy.deepcopy(BASE)
+    slip(raw)
+    path = tmp_path / "case.json"
+    path.write_text(json.dumps(raw), encoding="utf-8")
+    status = main(["compute", str(path), "--json"])
+    out, err = capsys.readouterr()
+    if code == INPUT:
+        assert status == 2, err
+        assert out == ""
+        assert len(err.splitlines()) == 1 and err.startswith(f"{field}: "), err
+        return
+    assert status == 0, err
+    result = json.loads(out)
+    assert any(w["code"] == code and w["field"] == field for w in result["warnings"])
