@@ -48,8 +48,9 @@ def patient_alerts(case: Case, rules: Rules, bmi: float, ibw: float, mic: float)
                          f"({rules.citation('plausible.age_yr')})"))
     if p.renal_replacement != "none":
         out.append(Alert("renal-replacement", "stop", "patient.renal_replacement",
-                         f"renal replacement ({p.renal_replacement}): Cockcroft-Gault-based and two-level methods do not apply, "
-                         "and no model here was built on such patients; follow the local dialysis protocol"))
+                         f"renal replacement ({p.renal_replacement}): Cockcroft-Gault-based and two-level methods do not apply "
+                         "and no regimen is proposed; follow the local dialysis protocol (an estimate on a population "
+                         "model built with such patients, where one is offered, is shown under methods for reference)"))
     known = rules.get("conditions", {}) or {}
     for i, c in enumerate(p.conditions):
         out.append(Alert("condition", "caution", f"patient.conditions[{i}]", str(known.get(c, c))))

@@ -95,7 +95,7 @@ def compute(case: Case, protocol: Protocol | None = None, method: str | None = N
         used = choose("auto" if requested == "nomogram" else requested, estimates, failures)
     except NoEstimateError:
         if requested in ("auto", "nomogram") and has_stop(alerts):
-            return _stopped(case, protocol, rules, renal, cur, alerts, failures, ctx)
+            return _stopped(case, protocol, rules, renal, cur, alerts, failures, ctx, estimates)
         raise
     alerts += methods.compare(ctx, estimates, used)
     alerts += methods.used_alerts(ctx, estimates[used])
@@ -163,10 +163,11 @@ def _header(case: Case, protocol: Protocol | None, renal: RenalSummary, rules: R
 
 
 def _stopped(case: Case, protocol: Protocol | None, rules: Rules, renal: RenalSummary, cur: Any,
-             alerts: list[Alert], failures: dict[str, str], ctx: Any) -> Outcome:
+             alerts: list[Alert], failures: dict[str, str], ctx: Any, estimates: dict[str, Estimate]) -> Outcome:
     """A stop stands and no method gives an estimate: the result carries the stop, no estimate."""
     result = _header(case, protocol, renal, rules, cur)
-    result.update({"status": "stop", "method": None, "estimate": None, "methods": {},
+    methods_out = {k: v.to_dict(cur, case.patient.weight) for k, v in estimates.items()}
+    result.update({"status": "stop", "method": None, "estimate": None, "methods": methods_out,
                    "methods_unavailable": failures, "levels": methods.level_table(ctx),
                    "warnings": [a.to_dict() for a in alerts], "working": []})
     return Outcome(case, result, None, ctx.history, alerts=alerts, renal=renal, rules=rules)

@@ -62,6 +62,12 @@ def summary_text(result: dict[str, Any]) -> str:
             lines.append(f"  90 % interval {key}: {_n(lo)} to {_n(hi)}")
         if est.get("model"):
             lines += _wrap(f"Model: {est['model'].get('id')} - {est['model'].get('citation')}")
+    if not est and result.get("methods"):
+        lines.append("")
+        lines.append("No estimate is used (a stop stands); for reference:")
+        lines.append(f"{'method':<19}{'ke /h':>8}{'t1/2 h':>7}{'Vd L':>7}{'L/kg':>6}{'CL L/h':>7}{'AUC24':>8}{'peak':>7}{'trough':>7}")
+        for name, e in result["methods"].items():
+            lines.append(estimate_line(short_name(name, result["drug"], e), e))
     for name, why in result.get("methods_unavailable", {}).items():
         lines += _wrap(f"{name} not available: {why}", "  ")
     reg = result.get("regimen")
