@@ -244,3 +244,75 @@ async def test_autosaved_edit_is_offered_back_after_the_app_is_killed(tmp_path):
         assert app.doc.raw["patient"]["weight"] == "81 kg"
         assert app.doc.dirty
         await app.workers.wait_for_complete()
+
+
+def _pty_app(case: Path, state: Path):  # noqa: ANN202
+    """Start the real ``tdmtui CASE`` on a pseudo-terminal of 80x24; returns (pid, fd)."""
+    import fcntl
+    import pty
+    import struct
+    import termios
+
+    pid, fd = pty.fork()
+    if pid == 0:  # the child: the real command, as a user starts it
+        os.environ.update(TERM="xterm-256color", XDG_STATE_HOME=str(state))
+        os.chdir(ROOT)
+        os.execv(PY, [PY, "-m", "tdmtui", str(case)])
+    fcntl.ioctl(fd, termios.TIOCSWINSZ, struct.pack("HHHH", 24, 80, 0, 0))
+    return pid, fd
+
+
+def _read_for(fd: int, seconds: float) -> bytes:
+    import select
+
+    out, end = b"", time.monotonic() + seconds
+    while time.monotonic() < end:
+        ready, _, _ = select.select([fd], [], [], 0.1)
+        if ready:
+            try:
+                out += os.read(fd, 65536)
+            except OSError:
+                break
+    return out
+
+
+async def test_real_terminal_app_killed_after_typing_keeps_the_edit(tmp_path):
+    """``tdmtui CASE`` on a pseudo-terminal: Tab to the label, type, SIGKILL; the edit comes back on reopening."""
+    from tdmtui.ui.app import TdmApp
+    from tdmtui.ui.dialogs import AskDialog
+    from tdmtui.ui.recovery import read_recovery, recovery_path
+
+    case = tmp_path / "case.json"
+    case.write_bytes((ROOT / "sample_cases" / "vanc-steady-state.json").read_bytes())
+    before = case.read_bytes()
+    state = tmp_path / "state"
+    pid, fd = _pty_app(case, state)
+    try:
+        screen = b""
+        deadline = time.monotonic() + 60
+        while b"Patient" not in screen and time.monotonic() < deadline:
+            screen += _read_for(fd, 0.5)
+        assert b"Patient" in screen, screen[-500:]
+        os.write(fd, b"\t")  # from the drug to the label field
+        _read_for(fd, 0.5)
+        os.write(fd, b"9")
+        rec = recovery_path(str(case), state)
+        deadline = time.monotonic() + 20
+        while not rec.exists() and time.monotonic() < deadline:
+            _read_for(fd, 0.2)
+    finally:
+        os.kill(pid, signal.SIGKILL)
+        os.waitpid(pid, 0)
+        os.close(fd)
+    assert case.read_bytes() == before
+    saved = read_recovery(rec)
+    assert saved is not None and saved.raw != json.loads(before)
+    assert stat.S_IMODE(rec.stat().st_mode) == 0o600
+    app = TdmApp(str(case), None, state=state)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.pause(0.3)
+        assert isinstance(app.screen, AskDialog)
+        await pilot.press("r")
+        await pilot.pause(0.4)
+        await app.workers.wait_for_complete()
+        assert app.doc.raw == saved.raw
