@@ -15,7 +15,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from tdmtui.core.bayes import Design, Observations, batch_concentration
+from tdmtui.core.bayes import Observations
+from tdmtui.core.models.batch import Design, batch_concentration
 from tdmtui.core.errors import ConvergenceError, NoEstimateError
 from tdmtui.core.models import DoseArrays
 

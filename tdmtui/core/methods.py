@@ -194,7 +194,7 @@ def concentration_band(ctx: MethodContext, est: Estimate, plan: DoseArrays | Non
         return None
     t0 = float(doses.start[0])
     t1 = max(ctx.case.as_of, float(doses.start[-1] + doses.duration[-1])) + 24.0
-    from tdmtui.core.bayes import Design, batch_concentration
+    from tdmtui.core.models.batch import Design, batch_concentration
 
     t = np.linspace(t0, t1, 240)
     s, n = est.samples, 400

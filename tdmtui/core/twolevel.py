@@ -65,7 +65,7 @@ def two_level(doses: DoseArrays, levels: list[Level], clock_fmt=None) -> TwoLeve
     if b.time - a.time < 0.25:
         raise NoEstimateError(m, "the two most recent usable levels are less than 15 min apart; draw them further apart")
     ta, tb = a.time, b.time
-    from tdmtui.core.bayes import Design, batch_concentration
+    from tdmtui.core.models.batch import Design, batch_concentration
 
     # C(t) for every ke on the grid at once, with V = 1 L (CL = ke)
     both = batch_concentration(KE_GRID, np.ones_like(KE_GRID), np.zeros_like(KE_GRID), np.zeros_like(KE_GRID),
