@@ -5,8 +5,9 @@ fit on the case's levels (bayes) gives one :class:`Estimate` named
 ``bayesian:<model id>``, with 90 % intervals from the Laplace posterior, the
 probability that the current regimen meets its target, observed-vs-predicted
 residuals and how far the estimate moved from the population value. The
-primary model (``auto``'s model when one qualifies, else the first offered one
-that is not excluded) is also returned as ``bayesian``; its a priori
+primary model (``auto``'s model when one qualifies, else the first offered one,
+in the order of the model files' ``preference.rank``, that is neither excluded nor flagged out of population, else
+the first not excluded) is also returned as ``bayesian``; its a priori
 prediction as ``population:<model id>``.
 
 Levels: quantified or censored (below/above limits) levels that are in use,
@@ -118,7 +119,8 @@ def run(ctx: Any) -> tuple[dict[str, Estimate], dict[str, str], list[Alert]]:
     p = ctx.case.patient
     scr = ctx.renal.scr_measured_mg_dl
     cov = popmodels.Covariates(p.age, p.sex, p.weight, p.height, scr, p.renal_replacement, p.conditions)
-    offers = popmodels.offered_models(ctx.case.drug, cov)
+    offers = sorted(popmodels.offered_models(ctx.case.drug, cov),
+                    key=lambda o: int(o.model.data.get("preference", {}).get("rank", 99)))
     est: dict[str, Estimate] = {}
     why: dict[str, str] = {}
     if not offers:
@@ -126,8 +128,9 @@ def run(ctx: Any) -> tuple[dict[str, Estimate], dict[str, str], list[Alert]]:
         return est, why, []
     auto, _ = popmodels.auto_model(ctx.case.drug, cov)
     usable_offers = [o for o in offers if not o.excluded]
+    in_population = [o for o in usable_offers if not o.out_of_population]
     primary = next((o for o in usable_offers if auto is not None and o.model.id == auto.id),
-                   usable_offers[0] if usable_offers else None)
+                   (in_population or usable_offers or [None])[0])
     for o in offers:
         key = f"bayesian:{o.model.id}"
         if o.excluded:

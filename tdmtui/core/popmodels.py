@@ -4,6 +4,8 @@ Each model is one TOML file in ``tdmtui/core/library/models/``. Keys:
 
 * ``id``, ``drug``, ``name``, ``citation`` (full), ``compartments`` (1 or 2),
   ``source`` (where our numbers were read).
+* ``[preference]``: ``rank`` (1 first) and ``source``: which model the
+  orchestrator shows first as ``bayesian`` when no model qualifies for ``auto``.
 * ``[verification]``: ``status`` = ``"paper"`` (checked against the
   publication) or ``"secondary"`` (a secondary transcription only);
   ``caution`` = text shown with every use of a secondary-only model.
