@@ -230,6 +230,7 @@ _APP_EDIT_THEN_HANG = """
     import asyncio, sys
     from pathlib import Path
     from tdmtui.ui.app import TdmApp
+    from tdmtui.ui.recovery import read_recovery, recovery_path
 
     async def main():
         app = TdmApp(sys.argv[1], None, state=Path(sys.argv[2]))
@@ -239,7 +240,12 @@ _APP_EDIT_THEN_HANG = """
             field.focus()
             field.value = ""
             await pilot.press(*"81 kg")
-            await pilot.pause(0.5)
+            rec = recovery_path(sys.argv[1], Path(sys.argv[2]))
+            for _ in range(200):  # the autosave follows each edit; wait for the last one to land
+                await pilot.pause(0.1)
+                saved = read_recovery(rec)
+                if saved and saved.raw["patient"]["weight"] == "81 kg":
+                    break
             print("edited", flush=True)   # typed, autosaved, never saved
             await asyncio.sleep(600)
 
