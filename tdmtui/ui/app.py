@@ -210,7 +210,7 @@ class TdmApp(FilingMixin, App[int]):
         self.push_screen(HelpScreen(help_text(self)))
 
     def action_warnings(self) -> None:
-        body = "\n".join(fm.alert_line(a) for a in self.alerts) or "No warnings."
+        body = "\n\n".join(fm.alert_line(a) for a in self.alerts) or "No warnings."
         self.push_screen(HelpScreen("Every warning (severity in words; STOP means no regimen is given):\n\n" + body))
 
     # ---------------------------------------------------------------- edits, autosave, compute
@@ -308,10 +308,11 @@ class TdmApp(FilingMixin, App[int]):
                         severity="warning", timeout=6)
         self.refresh_note()
         self.show_warnings(result.get("warnings", []))
-        state = "STOP stands" if result.get("status") == "stop" else "ok"
         self.last_seconds = event.seconds
-        self.set_status(f"Computed: method {result.get('method') or 'none'}, status {state}, "
-                        f"as of {result.get('as_of')}.")
+        if result.get("status") == "stop":
+            self.set_status(f"Computed as of {result.get('as_of')}: STOP stands, no regimen (F8 says why).", error=True)
+        else:
+            self.set_status(f"Computed as of {result.get('as_of')}: method {result.get('method')}, status ok.")
 
     @on(EstimateFailed)
     def estimate_failed(self, event: EstimateFailed) -> None:

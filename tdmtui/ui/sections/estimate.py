@@ -83,6 +83,8 @@ class EstimateSection(Vertical):
         title = self.query_one("#est-title", Label)
         if not cols:
             title.update("No estimate: see the message below and the warnings.")
+        elif not result.get("estimate"):
+            title.update("No estimate is used (a STOP stands): the methods below are for reference only.")
         else:
             used = result.get("estimate") or {}
             extra = ""
