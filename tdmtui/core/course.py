@@ -186,8 +186,10 @@ def current_regimen(case: Case, rules: Rules) -> tuple[CurrentRegimen | None, li
             alerts.append(_alert("no-current-regimen", "caution", "schedule", "the schedule gives no dose or duration and no maintenance dose is recorded"))
             return None, alerts
         cur = CurrentRegimen(dose, s.interval, tinf, "schedule")
-    elif len(maint) >= 2:
-        tau = maint[-1].start - maint[-2].start
+    elif len({round(d.start, 6) for d in maint}) >= 2:
+        # a row entered twice has the same start: the interval is to the last earlier start
+        earlier = [d for d in maint if d.start < maint[-1].start - 1e-9]
+        tau = maint[-1].start - earlier[-1].start
         cur = CurrentRegimen(maint[-1].amount, tau, maint[-1].duration, "last two maintenance doses")
     else:
         alerts.append(_alert("no-current-regimen", "caution", "schedule",

@@ -95,11 +95,7 @@ SCENARIOS: list[tuple[str, str, Callable[[dict], None], str, str, str]] = [
     ("level-timing", "trough drawn after the next dose started", _set("levels.0.time", "2026-03-03T08:20"), "level-in-infusion", "caution", "levels[0].time"),
     # missed or duplicated entries
     ("missed-dose", "the dose between trough and peak not entered", _drop("doses", 2), "levels-rising", "stop", "levels[1].conc"),
-    pytest.param("duplicate", "the third dose entered twice", _append_copy("doses", 2), "duplicate-dose", "caution", "doses[3]",
-                 marks=pytest.mark.xfail(strict=True, reason=(
-                     "core bug for the lead: with the last two maintenance rows identical, course.current_regimen "
-                     "takes an interval of 0 h and the steady-state step raises (ValueError tau ... got 0.0) instead "
-                     "of the contract's duplicate-dose caution"))),
+    ("duplicate", "the third dose entered twice", _append_copy("doses", 2), "duplicate-dose", "caution", "doses[3]"),
     ("duplicate", "the peak entered twice", _append_copy("levels", 1), "duplicate-level", "caution", "levels[2]"),
     # renal function
     ("renal", "SCr rising 1.1 -> 2.1 mg/dL in 48 h", _set("patient.scr.1.value", "2.1 mg/dL"), "scr-unstable", "caution", "patient.scr[1].value"),
