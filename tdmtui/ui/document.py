@@ -17,7 +17,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
-from tdmtui.core.case import FORMAT, canonical_bytes, save_case
+from tdmtui.core.case import FORMAT, canonical_bytes, folder_lock, save_case
 
 
 def new_case_raw(drug: str = "vancomycin") -> dict[str, Any]:
@@ -179,12 +179,15 @@ class CaseDocument:
         if not target:
             raise ValueError("no file name yet: use save as")
         same = self.path is not None and os.path.abspath(target) == os.path.abspath(self.path)
-        if not force:
-            if same and self.changed_on_disk():
-                raise ChangedOnDisk(target)
-            if not same and Path(target).exists():
-                raise FileExistsError(target)
-        digest = save_case(target, self.raw)
+        # the check and the write happen under one folder lock, so another session's
+        # save cannot land between them (both would otherwise be told they saved)
+        with folder_lock(target):
+            if not force:
+                if same and self.changed_on_disk():
+                    raise ChangedOnDisk(target)
+                if not same and Path(target).exists():
+                    raise FileExistsError(target)
+            digest = save_case(target, self.raw)
         self.path = target
         self.opened = stamp(target)
         self.dirty = False

@@ -190,10 +190,6 @@ _CHECK_THEN_WAIT = """
 """
 
 
-@pytest.mark.xfail(strict=True, reason=(
-    "bug for the app's owner: CaseDocument.save checks the file's digest and then writes with no lock, so a save "
-    "landing between another process's check and its rename is silently overwritten (both report saved); "
-    "an advisory lock around check-and-rename, or a re-check of the digest under it, would close the window"))
 def test_two_processes_saving_at_the_same_moment_never_both_succeed(tmp_path):
     path = tmp_path / "case.json"
     save_case(path, sample_raws()[0])
