@@ -125,3 +125,50 @@ def anchor_for(raw: dict[str, Any], name: str, index: int, clock: Clock) -> floa
             if t is not None:
                 return t
     return None
+
+
+_TARGET = re.compile(r"\s*(auc24|auc|peak|trough|css)\s+([0-9]*\.?[0-9]+)\s*-\s*([0-9]*\.?[0-9]+)\s*([^\s;]*)\s*")
+_TARGET_UNITS = {"auc24": ("exposure", "mg*h/L"), "peak": ("conc", "mg/L"), "trough": ("conc", "mg/L"),
+                 "css": ("conc", "mg/L")}
+
+
+def target_entry(text: str) -> Entry:
+    """Targets typed as "auc24 400-600" or "peak 8-10; trough 0.5-1" (units optional).
+
+    Stored as the contract's ``target`` bands ``{"auc24": ["400 mg*h/L", "600 mg*h/L"]}``;
+    an empty field stores None (the library's or protocol's targets apply).
+    """
+    if not text.strip():
+        return Entry(None, "library/protocol targets apply")
+    bands: dict[str, list[str]] = {}
+    for part in text.split(";"):
+        if not part.strip():
+            continue
+        m = _TARGET.fullmatch(part.lower().replace("mg*h/l", "mg*h/L").replace("mg/l", "mg/L"))
+        if not m:
+            return Entry(text.strip(), "", f"{part.strip()!r}: type e.g. auc24 400-600 or trough 0.5-1")
+        name, lo, hi, unit = m.groups()
+        name = "auc24" if name == "auc" else name
+        kind, default = _TARGET_UNITS[name]
+        pair = [f"{lo} {unit or default}", f"{hi} {unit or default}"]
+        for q in pair:
+            try:
+                parse_quantity(q, kind, f"target.{name}")
+            except InputError as exc:
+                return Entry(text.strip(), "", exc.message)
+        if not float(lo) < float(hi):
+            return Entry(text.strip(), "", f"{name}: the low end must be below the high end")
+        bands[name] = pair
+    return Entry(bands, "; ".join(f"{k} {v[0]}-{v[1]}" for k, v in bands.items()))
+
+
+def target_text(target: Any) -> str:
+    """The case's target bands as typed form ("auc24 400-600")."""
+    if not isinstance(target, dict):
+        return ""
+    parts = []
+    for name in ("auc24", "peak", "trough", "css"):
+        band = target.get(name)
+        if isinstance(band, list) and len(band) == 2 and all(isinstance(b, str) for b in band):
+            parts.append(f"{name} {band[0].split(' ')[0]}-{band[1]}")
+    return "; ".join(parts)

@@ -18,7 +18,8 @@ Everywhere
 Patient
   type values; a bare number takes the unit shown; another unit may be
   typed: "180 lb", "97 umol/L", "1.25 g". Choices: left/right, space,
-  or the first letter.
+  or the first letter. Target: "auc24 400-600", "peak 8-10; trough 0.5-1"
+  (empty: the library's or your protocol's targets).
 Doses and levels
   a add a row (copied from the last, 1 interval later)   x delete   u undo
   Enter edit the row   r repeat the dose: "12h x 3" (doses only)

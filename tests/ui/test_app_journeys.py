@@ -317,3 +317,16 @@ async def test_a_small_window_is_named(state):
         await pilot.resize_terminal(60, 20)
         await pilot.pause()
         assert any("60x20" in n.message for n in app._notifications)
+
+
+async def test_opening_is_not_an_edit_and_targets_can_be_typed(state, sample_copy):
+    path = sample_copy("vanc-steady-state.json")
+    app = TdmApp(str(path), None, state=state)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        assert not app.doc.dirty and "[saved]" in str(app.screen.query_one("#header", Static).content)
+        assert app.screen.query_one("#pt-target-input").value == "auc24 400-600 mg*h/L"
+        await type_into(pilot, "#pt-target-input", "auc24 450-550")
+        assert app.doc.raw["target"]["auc24"] == ["450 mg*h/L", "550 mg*h/L"]
+        assert app.doc.raw["target"]["mic"] == "1 mg/L"  # other target keys are kept
+        assert "UNSAVED" in str(app.screen.query_one("#header", Static).content)

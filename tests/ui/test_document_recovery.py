@@ -99,3 +99,16 @@ def test_check_quantity_converts_and_reports():
     assert check_quantity("97 umol/L", "scr", "patient.scr", "mg/dL")[1] == pytest.approx(1.0973, abs=1e-3)
     stored, value, err = check_quantity("92 stone", "weight", "patient.weight", "kg")
     assert value is None and "unknown unit" in err and stored == "92 stone"
+
+
+def test_target_entry_reads_bands_and_names_mistakes():
+    from tdmtui.ui.entry import target_entry, target_text
+
+    e = target_entry("auc24 400-600")
+    assert e.stored == {"auc24": ["400 mg*h/L", "600 mg*h/L"]} and not e.error
+    e = target_entry("peak 8-10; trough 0.5-1 mg/L")
+    assert e.stored == {"peak": ["8 mg/L", "10 mg/L"], "trough": ["0.5 mg/L", "1 mg/L"]}
+    assert target_text(e.stored) == "peak 8-10 mg/L; trough 0.5-1 mg/L"
+    assert target_entry("").stored is None
+    assert "low end" in target_entry("auc24 600-400").error
+    assert target_entry("auc 400 to 600").error.startswith("'auc 400 to 600'")

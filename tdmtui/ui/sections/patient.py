@@ -6,14 +6,15 @@ from typing import Any
 
 from textual import on
 from textual.app import ComposeResult
-from textual.containers import Vertical
+from textual.containers import VerticalScroll
 from textual.widgets import Input, Label
 
 from tdmtui.core.case import RENAL_REPLACEMENT, SEXES
 from tdmtui.core.errors import InputError
 from tdmtui.core.library import DRUGS
 from tdmtui.ui import formatting as fm
-from tdmtui.ui.entry import Entry, case_clock, parsed_time, quantity_entry, time_entry
+from tdmtui.ui.entry import (Entry, case_clock, parsed_time, quantity_entry, target_entry, target_text,
+                             time_entry)
 from tdmtui.ui.messages import CaseEdited
 from tdmtui.ui.widgets.cycler import Cycler
 from tdmtui.ui.widgets.form import FieldRow, FieldSpec
@@ -32,6 +33,7 @@ FIELDS = (
     FieldSpec("rrt", "Dialysis", "choice", options=RENAL_REPLACEMENT),
     FieldSpec("as_of", "Assess at", "time", hint="now (default: last event)"),
     FieldSpec("mic", "MIC", "quantity:conc", "mg/L"),
+    FieldSpec("target", "Target", "target", hint="e.g. auc24 400-600 (empty: library)"),
 )
 _PATHS = {"drug": ("drug",), "label": ("label",), "age": ("patient", "age"), "sex": ("patient", "sex"),
           "weight": ("patient", "weight"), "height": ("patient", "height"),
@@ -93,7 +95,7 @@ def derived_text(raw: dict[str, Any]) -> tuple[str, str, float | None]:
     return line1, line2, s.crcl_ml_min
 
 
-class PatientSection(Vertical):
+class PatientSection(VerticalScroll):
     """The patient form and the derived values under it."""
 
     def __init__(self, doc: Any, *, id: str | None = None) -> None:  # noqa: A002
@@ -111,6 +113,8 @@ class PatientSection(Vertical):
 
     def value_of(self, key: str) -> Any:
         raw = self.doc.raw
+        if key == "target":
+            return target_text(raw.get("target"))
         if key in _PATHS:
             return self.doc.get(_PATHS[key], "")
         entries = scr_entries(raw)
@@ -145,8 +149,8 @@ class PatientSection(Vertical):
             if not text.strip():
                 return Entry("" if key != "as_of" else None, "" if key != "as_of" else "default: the last event")
             return time_entry(text, None, case_clock(self.doc.raw), key)
-        if key == "label":
-            return Entry(text)
+        if key == "target":
+            return target_entry(text)
         return Entry(text)
 
     @on(Input.Changed)
@@ -158,10 +162,24 @@ class PatientSection(Vertical):
         event.stop()
         key = wid[3:].removesuffix("-input")
         e = self.entry(key, event.control.value)  # the field as it is now (a queued event may be stale)
-        if e.stored == self.value_of(key) or (e.stored is None and not self.value_of(key)):
+        shown = target_text(e.stored) if key == "target" and isinstance(e.stored, dict) else e.stored
+        if shown == self.value_of(key) or (e.stored is None and not self.value_of(key)):
             self.query_one(f"#pt-{key}", FieldRow).show(e.note, e.error)
             return
-        if key in _PATHS:
+        if key == "target":
+            target = self.doc.raw.get("target") if isinstance(self.doc.raw.get("target"), dict) else {}
+            for name in ("auc24", "peak", "trough", "css"):
+                target.pop(name, None)
+            if isinstance(e.stored, dict):
+                target.update(e.stored)
+            elif e.stored:
+                target["auc24"] = e.stored  # as typed, so the engine names it and nothing is lost
+            if target:
+                self.doc.raw["target"] = target
+            else:
+                self.doc.raw.pop("target", None)
+            self.doc.dirty = True
+        elif key in _PATHS:
             self.doc.set(_PATHS[key], e.stored)
         else:
             entries = scr_entries(self.doc.raw)

@@ -40,6 +40,7 @@ class FieldRow(Horizontal):
     FieldRow { height: 1; }
     FieldRow > .field-label { width: 12; }
     FieldRow > Input { width: 20; }
+    FieldRow.-wide > Input { width: 40; }
     FieldRow > Cycler { width: 20; }
     FieldRow > .field-note { width: 1fr; color: $text-muted; }
     FieldRow.-bad > .field-note { color: $text-error; text-style: bold; }
@@ -47,7 +48,7 @@ class FieldRow(Horizontal):
     """
 
     def __init__(self, spec: FieldSpec, value: Any = "", *, prefix: str = "f") -> None:
-        super().__init__(id=f"{prefix}-{spec.key}")
+        super().__init__(id=f"{prefix}-{spec.key}", classes="-wide" if spec.kind in ("text", "target") else "")
         self.spec = spec
         self._value = "" if value is None else str(value)
 
