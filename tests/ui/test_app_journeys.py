@@ -330,3 +330,24 @@ async def test_opening_is_not_an_edit_and_targets_can_be_typed(state, sample_cop
         assert app.doc.raw["target"]["auc24"] == ["450 mg*h/L", "550 mg*h/L"]
         assert app.doc.raw["target"]["mic"] == "1 mg/L"  # other target keys are kept
         assert "UNSAVED" in str(app.screen.query_one("#header", Static).content)
+
+
+async def test_a_new_file_name_starts_a_new_case_saved_there(state, tmp_path):
+    target = tmp_path / "bed7.json"
+    app = TdmApp(str(target), None, state=state)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await type_into(pilot, "#pt-age-input", "71")
+        await pilot.press("ctrl+s")
+        await pilot.pause()
+    assert json.loads(target.read_text())["patient"]["age"] == "71 yr"
+
+
+async def test_a_file_that_is_not_json_is_named_and_not_touched(state, tmp_path):
+    bad = tmp_path / "bad.json"
+    bad.write_text("{not json")
+    app = TdmApp(str(bad), None, state=state)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.pause()
+        assert any("Could not open" in n.message for n in app._notifications)
+        assert app.doc.path is None
+    assert bad.read_text() == "{not json"
