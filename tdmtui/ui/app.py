@@ -34,6 +34,7 @@ from tdmtui.ui.sections.levels import LevelsSection
 from tdmtui.ui.sections.note import NoteSection
 from tdmtui.ui.sections.patient import PatientSection, derived_text
 from tdmtui.ui.sections.plan import PlanSection
+from tdmtui.ui.widgets.form import FieldRow
 
 SECTIONS = (("patient", "Patient"), ("doses", "Doses"), ("levels", "Levels"),
             ("estimate", "Estimate"), ("plan", "Plan"), ("note", "Note"))
@@ -94,6 +95,7 @@ class TdmApp(FilingMixin, App[int]):
         self._debounce: Any = None
         self._spinner: Any = None
         self._small = False
+        self._marked: Any = None
 
     # ---------------------------------------------------------------- layout
     def compose(self) -> ComposeResult:
@@ -296,6 +298,7 @@ class TdmApp(FilingMixin, App[int]):
         if event.generation != self.generation:
             return
         self.computing = False
+        self.mark_field("", "")
         self.outcome = event.outcome
         result = event.outcome.result
         self.query_one(EstimateSection).show(event.outcome, getattr(event.outcome, "plot_data", None))
@@ -327,8 +330,27 @@ class TdmApp(FilingMixin, App[int]):
             event.message = "still to fill in"
         label = {"input": "INPUT", "no-estimate": "NO ESTIMATE", "error": "ERROR"}[event.kind]
         self.set_status(f"{label} {where}{event.message}", error=True)
+        self.mark_field(event.field, event.message)
         self.show_warnings([])
         self.query_one(NoteSection).show("No note: the case does not compute yet.\n" + f"{label} {where}{event.message}")
+
+    def mark_field(self, field: str, message: str) -> None:
+        """Show the engine's reason on the field it names, when that field is on a form."""
+        from tdmtui.ui.fieldmap import widget_id_for
+
+        if self._marked is not None:
+            self._marked.show("", "")
+            self._marked = None
+        scr = self.doc.get(("patient", "scr"), "")
+        target = widget_id_for(field, self.query_one(DosesSection).current, self.query_one(LevelsSection).current,
+                               len(scr) if isinstance(scr, list) else 1)
+        if target and field and message:
+            try:
+                row = self.query_one(f"#{target}", FieldRow)
+            except Exception:  # noqa: BLE001 - not on a form: the status line says it
+                return
+            row.show("", message)
+            self._marked = row
 
     def field_is_empty(self, field: str) -> bool:
         """True when the case path the engine named holds nothing yet ("" or missing)."""

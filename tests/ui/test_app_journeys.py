@@ -351,3 +351,18 @@ async def test_a_file_that_is_not_json_is_named_and_not_touched(state, tmp_path)
         assert any("Could not open" in n.message for n in app._notifications)
         assert app.doc.path is None
     assert bad.read_text() == "{not json"
+
+
+async def test_an_engine_error_is_shown_on_the_field_it_names(state, sample_copy):
+    path = sample_copy("vanc-steady-state.json")
+    app = TdmApp(str(path), None, state=state)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        await type_into(pilot, "#pt-weight-input", "0.1 kg")  # reads as a quantity; impossible as a weight
+        await settle(pilot)
+        row = app.screen.query_one("#pt-weight", FieldRow)
+        assert row.has_class("-bad")
+        assert "not a possible weight" in str(row.query_one(".field-note").content)
+        await type_into(pilot, "#pt-weight-input", "74 kg")
+        await settle(pilot)
+        assert not row.has_class("-bad") and app.outcome is not None

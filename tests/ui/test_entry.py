@@ -65,3 +65,15 @@ def test_parse_repeat_names_its_mistake():
         parse_repeat("12h")
     with pytest.raises(InputError):
         parse_repeat("12h x three")
+
+
+@pytest.mark.parametrize("field, expected", [
+    ("patient.weight", "pt-weight"), ("target.auc24[1]", "pt-target"), ("as_of", "pt-as_of"),
+    ("patient.scr[1].value", "pt-scr"), ("patient.scr[0].time", "pt-scr_prev_time"),
+    ("doses[2].end", "doses-infusion"), ("doses[3].amount", ""), ("levels[0].below_loq", "levels-limit"),
+    ("levels[0]", "levels-time"), ("format", ""),
+])
+def test_engine_fields_map_to_form_fields(field, expected):
+    from tdmtui.ui.fieldmap import widget_id_for
+
+    assert widget_id_for(field, dose_row=2, level_row=0, scr_count=2) == expected

@@ -1,0 +1,43 @@
+"""Which form field shows an error the engine names by its case path. Pure."""
+
+from __future__ import annotations
+
+import re
+
+_PATIENT = {"patient.age": "pt-age", "patient.sex": "pt-sex", "patient.weight": "pt-weight",
+            "patient.height": "pt-height", "patient.scr": "pt-scr", "patient.renal_replacement": "pt-rrt",
+            "as_of": "pt-as_of", "target.mic": "pt-mic", "drug": "pt-drug", "label": "pt-label"}
+_DOSE_KEYS = {"start": "start", "amount": "amount", "duration": "infusion", "end": "infusion", "kind": "kind",
+              "timing": "timing", "": "start"}
+_LEVEL_KEYS = {"time": "time", "conc": "conc", "below_loq": "limit", "above_uloq": "limit", "use": "use",
+               "reason": "reason", "timing": "timing", "": "time"}
+_ROW = re.compile(r"(doses|levels)\[(\d+)\](?:\.(\w+))?")
+_SCR = re.compile(r"patient\.scr\[(\d+)\](?:\.(\w+))?")
+
+
+def widget_id_for(field: str, dose_row: int, level_row: int, scr_count: int = 2) -> str:
+    """The FieldRow id for a case path, or "" when no form shows it now.
+
+    Args:
+        field: e.g. ``doses[2].amount``, ``patient.weight``, ``target.auc24[1]``.
+        dose_row, level_row: the rows the doses and levels forms show now.
+        scr_count: how many SCr values the case has (the form shows the last two).
+    """
+    if field in _PATIENT:
+        return _PATIENT[field]
+    if field.startswith("target."):
+        return "pt-target"
+    m = _SCR.fullmatch(field)
+    if m:
+        index, key = int(m.group(1)), m.group(2) or "value"
+        latest = index == scr_count - 1
+        base = "pt-scr" if latest else "pt-scr_prev"
+        return base + ("_time" if key == "time" else "")
+    m = _ROW.fullmatch(field)
+    if m:
+        name, index, key = m.group(1), int(m.group(2)), m.group(3) or ""
+        if name == "doses" and index == dose_row and key in _DOSE_KEYS:
+            return f"doses-{_DOSE_KEYS[key]}"
+        if name == "levels" and index == level_row and key in _LEVEL_KEYS:
+            return f"levels-{_LEVEL_KEYS[key]}"
+    return ""
