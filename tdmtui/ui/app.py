@@ -11,12 +11,11 @@ paint: the engine is imported inside the worker.
 from __future__ import annotations
 
 import sys
-import time
 from pathlib import Path
 from typing import Any
 
 from rich.text import Text
-from textual import events, on, work
+from textual import events, on
 from textual.app import App, ComposeResult
 from textual.binding import Binding
 from textual.screen import ModalScreen
@@ -24,9 +23,10 @@ from textual.widgets import ContentSwitcher, Footer, Input, Static
 
 from tdmtui.ui import formatting as fm
 from tdmtui.ui.dialogs import HelpScreen
+from tdmtui.ui.computing import ComputeMixin
 from tdmtui.ui.document import CaseDocument, new_case_raw
 from tdmtui.ui.filing import FilingMixin
-from tdmtui.ui.messages import CaseEdited, EstimateFailed, EstimateReady
+from tdmtui.ui.messages import CaseEdited
 from tdmtui.ui.recovery import recovery_path, state_dir, write_recovery
 from tdmtui.ui.sections.doses import DosesSection
 from tdmtui.ui.sections.estimate import EstimateSection
@@ -34,12 +34,9 @@ from tdmtui.ui.sections.levels import LevelsSection
 from tdmtui.ui.sections.note import NoteSection
 from tdmtui.ui.sections.patient import PatientSection, derived_text
 from tdmtui.ui.sections.plan import PlanSection
-from tdmtui.ui.widgets.form import FieldRow
 
 SECTIONS = (("patient", "Patient"), ("doses", "Doses"), ("levels", "Levels"),
             ("estimate", "Estimate"), ("plan", "Plan"), ("note", "Note"))
-DEBOUNCE_S = 0.5
-SPINNER_AFTER_S = 0.1
 
 
 def _section_bindings() -> list[Binding]:
@@ -53,7 +50,7 @@ def _section_bindings() -> list[Binding]:
     return out
 
 
-class TdmApp(FilingMixin, App[int]):
+class TdmApp(ComputeMixin, FilingMixin, App[int]):
     """The tdmtui workspace for one case."""
 
     CSS_PATH = "app.tcss"
@@ -230,135 +227,6 @@ class TdmApp(FilingMixin, App[int]):
             write_recovery(recovery_path(self.doc.path, self.state), self.doc.path, self.doc.raw)
         except OSError as exc:
             self.set_status(f"Could not write the recovery file: {exc}", error=True)
-
-    def request_compute(self, now: bool = False) -> None:
-        """Recompute after a short pause in typing (at once when ``now``)."""
-        if self._debounce is not None:
-            self._debounce.stop()
-        if now:
-            self.start_compute()
-        else:
-            self._debounce = self.set_timer(DEBOUNCE_S, self.start_compute)
-
-    def start_compute(self) -> None:
-        """Check the case here (cheap, no scipy); only a case that reads goes to the worker.
-
-        The engine holds the interpreter for seconds on a busy machine, so it is
-        not started while the case is still half typed.
-        """
-        from tdmtui.core.case import parse_case
-        from tdmtui.core.errors import InputError
-
-        self.generation += 1
-        try:
-            parse_case(self.doc.raw)
-        except InputError as exc:
-            self.post_message(EstimateFailed(self.generation, "input", exc.field, exc.message))
-            return
-        except Exception as exc:  # noqa: BLE001 - shown, never a crash
-            self.post_message(EstimateFailed(self.generation, "error", "", f"{type(exc).__name__}: {exc}"))
-            return
-        self.computing = True
-        if self._spinner is not None:
-            self._spinner.stop()
-        self._spinner = self.set_timer(SPINNER_AFTER_S, self._show_spinner)
-        self.compute_case(self.generation, self.doc.snapshot_raw() if hasattr(self.doc, "snapshot_raw")
-                          else __import__("copy").deepcopy(self.doc.raw))
-
-    def _show_spinner(self) -> None:
-        if self.computing:
-            self.set_status("Computing... (the result updates when it is done)")
-
-    @work(thread=True, exclusive=True, exit_on_error=False, group="compute")
-    def compute_case(self, generation: int, raw: dict[str, Any]) -> None:
-        """Worker thread: run the engine and post what happened (never touches widgets)."""
-        t0 = time.perf_counter()
-        try:
-            from tdmtui.core.compute import compute_raw
-            from tdmtui.core.errors import InputError, NoEstimateError
-            from tdmtui.ui.widgets.plotdata import build_plot_data
-
-            protocol = None
-            if self.protocol_path:
-                from tdmtui.core.library import load_protocol
-
-                protocol = load_protocol(self.protocol_path)
-            outcome = compute_raw(raw, protocol=protocol)
-            outcome.plot_data = build_plot_data(outcome)
-            self.post_message(EstimateReady(generation, outcome, time.perf_counter() - t0))
-        except InputError as exc:
-            self.post_message(EstimateFailed(generation, "input", exc.field, exc.message))
-        except NoEstimateError as exc:
-            self.post_message(EstimateFailed(generation, "no-estimate", "", f"{exc.method}: {exc.why}"))
-        except Exception as exc:  # noqa: BLE001 - shown, never a crash
-            self.post_message(EstimateFailed(generation, "error", "", f"{type(exc).__name__}: {exc}"))
-
-    @on(EstimateReady)
-    def estimate_ready(self, event: EstimateReady) -> None:
-        if event.generation != self.generation:
-            return
-        self.computing = False
-        self.mark_field("", "")
-        self.outcome = event.outcome
-        result = event.outcome.result
-        self.query_one(EstimateSection).show(event.outcome, getattr(event.outcome, "plot_data", None))
-        plan = self.query_one(PlanSection)
-        plan.show(event.outcome)
-        had_choice = self.chosen is not None
-        self.chosen = plan.options[plan.chosen] if plan.chosen is not None else None
-        if had_choice and self.chosen is None:
-            self.notify("The chosen regimen is no longer offered after this change: choose again in Plan.",
-                        severity="warning", timeout=6)
-        self.refresh_note()
-        self.show_warnings(result.get("warnings", []))
-        self.last_seconds = event.seconds
-        if result.get("status") == "stop":
-            self.set_status(f"Computed as of {result.get('as_of')}: STOP stands, no regimen (F8 says why).", error=True)
-        else:
-            self.set_status(f"Computed as of {result.get('as_of')}: method {result.get('method')}, status ok.")
-
-    @on(EstimateFailed)
-    def estimate_failed(self, event: EstimateFailed) -> None:
-        if event.generation != self.generation:
-            return
-        self.computing = False
-        self.outcome = None
-        self.query_one(EstimateSection).show(None, None)
-        self.query_one(PlanSection).show(None)
-        where = f"{event.field}: " if event.field else ""
-        if event.kind == "input" and self.field_is_empty(event.field):
-            event.message = "still to fill in"
-        label = {"input": "INPUT", "no-estimate": "NO ESTIMATE", "error": "ERROR"}[event.kind]
-        self.set_status(f"{label} {where}{event.message}", error=True)
-        self.mark_field(event.field, event.message)
-        self.show_warnings([])
-        self.query_one(NoteSection).show("No note: the case does not compute yet.\n" + f"{label} {where}{event.message}")
-
-    def mark_field(self, field: str, message: str) -> None:
-        """Show the engine's reason on the field it names, when that field is on a form."""
-        from tdmtui.ui.fieldmap import widget_id_for
-
-        if self._marked is not None:
-            self._marked.show("", "")
-            self._marked = None
-        scr = self.doc.get(("patient", "scr"), "")
-        target = widget_id_for(field, self.query_one(DosesSection).current, self.query_one(LevelsSection).current,
-                               len(scr) if isinstance(scr, list) else 1)
-        if target and field and message:
-            try:
-                row = self.query_one(f"#{target}", FieldRow)
-            except Exception:  # noqa: BLE001 - not on a form: the status line says it
-                return
-            row.show("", message)
-            self._marked = row
-
-    def field_is_empty(self, field: str) -> bool:
-        """True when the case path the engine named holds nothing yet ("" or missing)."""
-        import re
-
-        path: list[Any] = [int(p) if p.isdigit() else p for p in re.split(r"[.\[\]]+", field) if p]
-        value = self.doc.get(tuple(path), None)
-        return value == ""
 
     def reload_sections(self) -> None:
         """Show the case again in the entry sections (after a restore)."""
