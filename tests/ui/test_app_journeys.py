@@ -366,3 +366,28 @@ async def test_an_engine_error_is_shown_on_the_field_it_names(state, sample_copy
         await type_into(pilot, "#pt-weight-input", "74 kg")
         await settle(pilot)
         assert not row.has_class("-bad") and app.outcome is not None
+
+
+async def test_a_slow_computation_shows_progress_and_typing_goes_on(state, sample_copy, monkeypatch):
+    import threading
+
+    import tdmtui.core.compute as engine
+
+    release = threading.Event()
+    real = engine.compute_raw
+
+    def slow(*args, **kwargs):
+        release.wait(10)  # held until the test has looked at the screen
+        return real(*args, **kwargs)
+
+    monkeypatch.setattr(engine, "compute_raw", slow)
+    path = sample_copy("vanc-steady-state.json")
+    app = TdmApp(str(path), None, state=state)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.pause(0.3)
+        assert str(app.screen.query_one("#status", Static).content).startswith("Computing")
+        await type_into(pilot, "#pt-age-input", "56")  # the UI answers while the engine works
+        assert app.doc.raw["patient"]["age"] == "56 yr"
+        release.set()
+        await settle(pilot)
+        assert app.outcome is not None
