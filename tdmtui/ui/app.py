@@ -19,7 +19,7 @@ from textual import events, on
 from textual.app import App, ComposeResult
 from textual.binding import Binding
 from textual.screen import ModalScreen
-from textual.widgets import ContentSwitcher, Footer, Input, Static
+from textual.widgets import ContentSwitcher, DataTable, Footer, Input, Static
 
 from tdmtui.ui import formatting as fm
 from tdmtui.ui.dialogs import HelpScreen
@@ -198,7 +198,8 @@ class TdmApp(ComputeMixin, FilingMixin, App[int]):
 
     def focus_section(self) -> None:
         section = self.query_one(f"#{self.current_section()}")
-        for widget in section.query("*"):
+        tables = [t for t in section.query(DataTable) if t.focusable]
+        for widget in tables or section.query("*"):
             if widget.focusable:
                 section.screen.set_focus(widget)  # at once, on the workspace screen (not a dialog)
                 return

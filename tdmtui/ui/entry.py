@@ -172,3 +172,42 @@ def target_text(target: Any) -> str:
         if isinstance(band, list) and len(band) == 2 and all(isinstance(b, str) for b in band):
             parts.append(f"{name} {band[0].split(' ')[0]}-{band[1]}")
     return "; ".join(parts)
+
+
+_SCHEDULE = re.compile(r"\s*(?:(?P<dose>[0-9]*\.?[0-9]+\s*[a-zµμ]+)\s+)?(?:every|q)\s*(?P<interval>[0-9]*\.?[0-9]+\s*[a-z]*)"
+                       r"(?:\s+over\s+(?P<duration>[0-9]*\.?[0-9]+\s*[a-z]*))?\s*")
+
+
+def schedule_entry(text: str) -> Entry:
+    """The standing order typed as "1250 mg every 12 h over 90 min" (dose and "over" optional).
+
+    Bare numbers take mg, h and min. Stored as the contract's ``schedule``;
+    empty stores None (the engine then uses the last two maintenance doses).
+    """
+    if not text.strip():
+        return Entry(None, "none: taken from the last two maintenance doses")
+    m = _SCHEDULE.fullmatch(text.lower())
+    if not m:
+        return Entry(text.strip(), "", "type e.g. 1250 mg every 12 h over 90 min")
+    out: dict[str, str] = {}
+    for key, kind, unit in (("dose", "dose", "mg"), ("interval", "time", "h"), ("duration", "time", "min")):
+        if m.group(key):
+            q = complete_quantity(m.group(key), unit)
+            try:
+                parse_quantity(q, kind, f"schedule.{key}")
+            except InputError as exc:
+                return Entry(text.strip(), "", exc.message)
+            out[key] = q
+    return Entry(out, "standing order")
+
+
+def schedule_text(schedule: Any) -> str:
+    """The case's schedule in the typed form."""
+    if not isinstance(schedule, dict) or "interval" not in schedule:
+        return ""
+    text = f"every {schedule['interval']}"
+    if schedule.get("dose"):
+        text = f"{schedule['dose']} {text}"
+    if schedule.get("duration"):
+        text += f" over {schedule['duration']}"
+    return text

@@ -27,6 +27,8 @@ def widget_id_for(field: str, dose_row: int, level_row: int, scr_count: int = 2)
         return _PATIENT[field]
     if field.startswith("target."):
         return "pt-target"
+    if field == "schedule" or field.startswith("schedule."):
+        return "order-schedule"
     m = _SCR.fullmatch(field)
     if m:
         index, key = int(m.group(1)), m.group(2) or "value"

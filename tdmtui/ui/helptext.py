@@ -26,6 +26,8 @@ Doses and levels
   Times: 2026-03-03T08:00, 08:00 (date of the row above; earlier than it
   = next day, shown beside the field), +12h / +90min from the row above.
   Infusion: a duration (90 min; a bare number is minutes) or an end time.
+  Order (doses): the standing order, "1250 mg every 12 h over 90 min";
+  empty: the last two maintenance doses define the current regimen.
 Estimate
   t methods side by side   w show working   g concentration plot
 Plan

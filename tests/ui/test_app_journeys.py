@@ -391,3 +391,16 @@ async def test_a_slow_computation_shows_progress_and_typing_goes_on(state, sampl
         release.set()
         await settle(pilot)
         assert app.outcome is not None
+
+
+async def test_standing_order_is_the_case_schedule(state, sample_copy):
+    path = sample_copy("vanc-steady-state.json")
+    app = TdmApp(str(path), None, state=state)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        await pilot.press("f3")
+        assert isinstance(app.focused, DataTable)  # the table first, so a/x/u/r work at once
+        await type_into(pilot, "#order-schedule-input", "1250 mg every 12 h over 90 min")
+        assert app.doc.raw["schedule"] == {"dose": "1250 mg", "interval": "12 h", "duration": "90 min"}
+        await settle(pilot)
+        assert app.outcome.result["current_regimen"]["dose_mg"] == 1250.0

@@ -77,3 +77,16 @@ def test_engine_fields_map_to_form_fields(field, expected):
     from tdmtui.ui.fieldmap import widget_id_for
 
     assert widget_id_for(field, dose_row=2, level_row=0, scr_count=2) == expected
+
+
+def test_schedule_entry_reads_the_standing_order():
+    from tdmtui.ui.entry import schedule_entry, schedule_text
+
+    e = schedule_entry("1250 mg every 12 h over 90 min")
+    assert e.stored == {"dose": "1250 mg", "interval": "12 h", "duration": "90 min"}
+    assert schedule_text(e.stored) == "1250 mg every 12 h over 90 min"
+    assert schedule_entry("1 g q8").stored == {"dose": "1 g", "interval": "8 h"}
+    assert schedule_entry("every 24 over 60").stored == {"interval": "24 h", "duration": "60 min"}
+    assert schedule_entry("").stored is None
+    assert schedule_entry("twice a day").error.startswith("type e.g.")
+    assert "unknown unit" in schedule_entry("1250 mg every 12 weeks").error

@@ -11,11 +11,17 @@ from tdmtui.core.errors import InputError
 from tdmtui.core.timeentry import repeat_rows
 from tdmtui.core.units import parse_quantity
 from tdmtui.ui.dialogs import TextDialog
-from tdmtui.ui.entry import Entry
+from textual import on
+from textual.app import ComposeResult
+from textual.widgets import Input
+
+from tdmtui.ui.entry import Entry, schedule_entry, schedule_text
 from tdmtui.ui.formatting import short_time
 from tdmtui.ui.messages import CaseEdited
 from tdmtui.ui.sections.rows import RowsSection
-from tdmtui.ui.widgets.form import FieldSpec
+from tdmtui.ui.widgets.form import FieldRow, FieldSpec
+
+ORDER = FieldSpec("schedule", "Order", "target", hint="e.g. 1250 mg every 12 h over 90 min")
 
 
 def parse_repeat(text: str) -> tuple[float, int]:
@@ -54,6 +60,31 @@ class DosesSection(RowsSection):
         FieldSpec("timing", "Timing", "choice", options=TIMINGS),
     )
     BINDINGS = [*RowsSection.BINDINGS, Binding("r", "repeat", "Repeat", id="doses.repeat", priority=True)]
+
+    def compose(self) -> ComposeResult:
+        yield FieldRow(ORDER, prefix="order")
+        yield from super().compose()
+
+    def reload(self, keep: int | None = None) -> None:
+        super().reload(keep)
+        self.query_one("#order-schedule", FieldRow).load(schedule_text(self.doc.raw.get("schedule")))
+
+    @on(Input.Changed, "#order-schedule-input")
+    def _order_changed(self, event: Input.Changed) -> None:
+        """The standing order (the case's ``schedule``)."""
+        event.stop()
+        e = schedule_entry(event.control.value)
+        current = self.doc.raw.get("schedule")
+        if e.stored == current or (e.stored is None and current is None):
+            self.query_one("#order-schedule", FieldRow).show(e.note, e.error)
+            return
+        if e.stored is None:
+            self.doc.raw.pop("schedule", None)
+        else:
+            self.doc.raw["schedule"] = e.stored
+        self.doc.dirty = True
+        self.query_one("#order-schedule", FieldRow).show(e.note, e.error)
+        self.post_message(CaseEdited("schedule"))
 
     def cells(self, index: int, row: dict[str, Any]) -> tuple[str, ...]:
         infusion = row.get("duration") or (f"to {short_time(row['end'])[6:]}" if "end" in row else "")
