@@ -132,6 +132,9 @@ def _timing(inp: RegimenInput, c: Candidate, continuing: bool, threshold: float)
         t_due = inp.as_of
     elif continuing and inp.current:
         t_due = t_last + inp.current.interval_h
+    elif c.infusion_h >= c.interval_h and inp.current:
+        # a continuous infusion starts when the standing order's next dose is due
+        t_due = t_last + inp.current.interval_h
     else:
         t_due = t_last + c.interval_h
     t_due = max(t_due, inp.as_of)
