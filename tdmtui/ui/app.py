@@ -129,6 +129,7 @@ class TdmApp(ComputeMixin, FilingMixin, App[int]):
 
     # ---------------------------------------------------------------- header, tabs, warnings
     def update_header(self) -> None:
+        """Drug, patient summary (age, sex, weight, CrCl), file name and saved/unsaved state."""
         raw = self.doc.raw
         p = raw.get("patient", {}) if isinstance(raw.get("patient"), dict) else {}
         _, _, self.crcl = derived_text(raw)
@@ -143,9 +144,11 @@ class TdmApp(ComputeMixin, FilingMixin, App[int]):
         header.set_class(state == "UNSAVED", "-unsaved")
 
     def current_section(self) -> str:
+        """The id of the section on screen."""
         return self.query_one("#sections", ContentSwitcher).current or "patient"
 
     def update_tabs(self) -> None:
+        """The section bar, the current one in brackets and reverse."""
         current = self.current_section()
         text = Text()
         for i, (name, title) in enumerate(SECTIONS):
@@ -158,6 +161,7 @@ class TdmApp(ComputeMixin, FilingMixin, App[int]):
         self.query_one("#tabs", Static).update(text)
 
     def show_warnings(self, alerts: list[dict[str, str]]) -> None:
+        """The warnings strip: severity in words, stops first; F8 lists all."""
         self.alerts = fm.sort_alerts(alerts)
         strip = self.query_one("#warnings", Static)
         if not self.alerts:
@@ -171,12 +175,14 @@ class TdmApp(ComputeMixin, FilingMixin, App[int]):
         strip.set_class(any(a.get("severity") == "stop" for a in self.alerts), "-stop")
 
     def set_status(self, text: str, error: bool = False) -> None:
+        """The status line (errors bold, reverse without colour)."""
         status = self.query_one("#status", Static)
         status.update(text)
         status.set_class(error, "-error")
 
     # ---------------------------------------------------------------- navigation
     def action_section(self, name: str) -> None:
+        """Show a section and focus its table or first field."""
         self.query_one("#sections", ContentSwitcher).current = name
         self.update_tabs()
         self.focus_section()
@@ -188,6 +194,7 @@ class TdmApp(ComputeMixin, FilingMixin, App[int]):
         await super().on_event(event)
 
     def action_section_digit(self, name: str) -> None:
+        """A digit outside text fields: show that section."""
         self.action_section(name)
 
     def check_action(self, action: str, parameters: tuple[object, ...]) -> bool | None:
@@ -197,6 +204,7 @@ class TdmApp(ComputeMixin, FilingMixin, App[int]):
         return True
 
     def focus_section(self) -> None:
+        """Focus the section's table, else its first focusable widget."""
         section = self.query_one(f"#{self.current_section()}")
         tables = [t for t in section.query(DataTable) if t.focusable]
         for widget in tables or section.query("*"):
@@ -205,17 +213,20 @@ class TdmApp(ComputeMixin, FilingMixin, App[int]):
                 return
 
     def action_help(self) -> None:
+        """Every key and the short safety text."""
         from tdmtui.ui.helptext import help_text
 
         self.push_screen(HelpScreen(help_text(self)))
 
     def action_warnings(self) -> None:
+        """Every warning in full."""
         body = "\n\n".join(fm.alert_line(a) for a in self.alerts) or "No warnings."
         self.push_screen(HelpScreen("Every warning (severity in words; STOP means no regimen is given):\n\n" + body))
 
     # ---------------------------------------------------------------- edits, autosave, compute
     @on(CaseEdited)
     def case_edited(self, event: CaseEdited) -> None:
+        """After any edit: header, recovery file, recompute."""
         self.doc.dirty = True
         self.update_header()
         self.autosave()
@@ -224,6 +235,7 @@ class TdmApp(ComputeMixin, FilingMixin, App[int]):
             pass
 
     def autosave(self) -> None:
+        """Write the recovery file (atomic, 0600)."""
         try:
             write_recovery(recovery_path(self.doc.path, self.state), self.doc.path, self.doc.raw)
         except OSError as exc:
@@ -237,11 +249,13 @@ class TdmApp(ComputeMixin, FilingMixin, App[int]):
 
     @on(PlanSection.RegimenChosen)
     def regimen_chosen(self, event: PlanSection.RegimenChosen) -> None:
+        """Remember the chosen regimen; the note names it."""
         self.chosen = event.regimen
         self.refresh_note()
         self.notify("Regimen chosen: it is named in the note (section 6).", timeout=3)
 
     def refresh_note(self) -> None:
+        """Rebuild the note from the latest result and choice."""
         from tdmtui.ui.notetext import note_text
 
         if self.outcome is None:

@@ -35,12 +35,14 @@ class AskDialog(ModalScreen[str]):
             yield Label(keys, classes="ask-keys", markup=False)
 
     def on_key(self, event) -> None:  # noqa: ANN001
+        """An answer's key dismisses with that answer."""
         for key, word in self.answers:
             if event.key == key:
                 event.stop()
                 self.dismiss(word)
 
     def action_answer(self, word: str) -> None:
+        """Dismiss with an answer."""
         self.dismiss(word)
 
 
@@ -68,6 +70,7 @@ class TextDialog(ModalScreen[str]):
             yield Label("[Enter] accept   [Esc] cancel", markup=False)
 
     def on_input_submitted(self, event: Input.Submitted) -> None:
+        """Enter: accept when the check passes, else show why."""
         event.stop()
         text = event.value.strip()
         why = self.check(text) if self.check else ""
@@ -77,6 +80,7 @@ class TextDialog(ModalScreen[str]):
         self.dismiss(text)
 
     def action_cancel(self) -> None:
+        """Escape: dismiss with ""."""
         self.dismiss("")
 
 
@@ -98,4 +102,5 @@ class HelpScreen(ModalScreen[None]):
             yield Static(self.text, markup=False)
 
     def action_close(self) -> None:
+        """Close the help."""
         self.dismiss(None)

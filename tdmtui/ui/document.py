@@ -144,6 +144,7 @@ class CaseDocument:
         return row
 
     def can_undo(self) -> bool:
+        """True when a row change can be undone."""
         return bool(self._undo)
 
     def undo(self) -> str:

@@ -25,6 +25,7 @@ class FilingMixin:
 
 
     def offer_recovery(self) -> None:
+        """At start: offer to restore unsaved work left by a crash or a dropped session."""
         current = None if not self.doc.path or not Path(self.doc.path).exists() else self.doc.raw
         rec = find_recovery(self.doc.path, self.state, current if current is not None else new_case_raw())
         if rec is None:
@@ -49,6 +50,7 @@ class FilingMixin:
 
 
     def action_save(self) -> None:
+        """Save to the case file, refusing one changed by someone else (save-as offered)."""
         if not self.doc.path:
             self.save_as()
             return
@@ -66,6 +68,7 @@ class FilingMixin:
         self.saved()
 
     def save_as(self, then_quit: bool = False) -> None:
+        """Ask for a new file name and save there (never over an existing file)."""
         def check(text: str) -> str:
             if text and Path(text).expanduser().exists():
                 return "that file exists: choose another name"
@@ -91,11 +94,13 @@ class FilingMixin:
         self.push_screen(TextDialog("Save the case as (a new file; mode 0600):", suggestion, check), done)
 
     def saved(self) -> None:
+        """After a save: remove the recovery file and say so."""
         remove_recovery(recovery_path(self.doc.path, self.state))
         self.update_header()
         self.notify(f"Saved {self.doc.path}", timeout=3, markup=False)
 
     def action_quit_app(self) -> None:
+        """Quit, asking first when there are unsaved changes."""
         if not self.doc.dirty:
             self.exit(0)
             return
@@ -121,6 +126,7 @@ class FilingMixin:
 
     # ---------------------------------------------------------------- note
     def action_copy_note(self) -> None:
+        """Copy the note by OSC 52, saying plainly it may be blocked."""
         from tdmtui.ui.clipboard import COPY_CAVEAT
 
         if not self.note:
@@ -130,6 +136,7 @@ class FilingMixin:
         self.notify(COPY_CAVEAT, timeout=8, markup=False)
 
     def action_write_note(self) -> None:
+        """Write the note to a file (0600)."""
         from tdmtui.ui.clipboard import default_note_path, write_note
 
         if not self.note:

@@ -39,4 +39,5 @@ Note
 
 
 def help_text(app: Any = None) -> str:
+    """The help screen's text."""
     return KEYS + "\nSafety\n" + short_text() + "\n\nEsc closes this help."

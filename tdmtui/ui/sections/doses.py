@@ -66,6 +66,7 @@ class DosesSection(RowsSection):
         yield from super().compose()
 
     def reload(self, keep: int | None = None) -> None:
+        """Rebuild the table and form, and show the standing order."""
         super().reload(keep)
         self.query_one("#order-schedule", FieldRow).load(schedule_text(self.doc.raw.get("schedule")))
 
@@ -87,12 +88,14 @@ class DosesSection(RowsSection):
         self.post_message(CaseEdited("schedule"))
 
     def cells(self, index: int, row: dict[str, Any]) -> tuple[str, ...]:
+        """One table line for a dose row (raw text kept)."""
         infusion = row.get("duration") or (f"to {short_time(row['end'])[6:]}" if "end" in row else "")
         kind = row.get("kind", "maintenance")
         return (str(index + 1), short_time(row.get("start", "")), str(row.get("amount", "")), str(infusion),
                 {"maintenance": "maint."}.get(kind, kind), row.get("timing", "actual"))
 
     def form_value(self, key: str, row: dict[str, Any]) -> Any:
+        """What a form field shows for a dose row."""
         if key == "infusion":
             return row.get("duration", row.get("end", ""))
         if key == "kind":
@@ -102,6 +105,7 @@ class DosesSection(RowsSection):
         return row.get(key, "")
 
     def entry(self, key: str, text: str, row: dict[str, Any]) -> Entry:
+        """Evaluate a dose field's text."""
         f = f"doses[{self.current}]"
         if key == "start":
             return self.time(text, f"{f}.start")
@@ -112,6 +116,7 @@ class DosesSection(RowsSection):
         return Entry(text)
 
     def store(self, key: str, entry: Entry, row: dict[str, Any]) -> None:
+        """Put a dose field's value in the row (duration or end, never both)."""
         if key == "infusion":
             row.pop("duration", None)
             row.pop("end", None)
@@ -122,6 +127,7 @@ class DosesSection(RowsSection):
             row[key] = entry.stored
 
     def new_row(self) -> dict[str, Any]:
+        """A new dose: the last one an interval later (loading becomes maintenance)."""
         rows = self.rows()
         if not rows:
             return {"start": "", "amount": "", "duration": ""}

@@ -71,6 +71,7 @@ class EstimateSection(Vertical):
         yield Label(caution_line(), classes="caution", markup=False)
 
     def action_view(self, view: str) -> None:
+        """Switch between table, working and graph."""
         self.query_one(ContentSwitcher).current = view
         self.query_one(f"#{view}").focus()
 

@@ -30,6 +30,7 @@ class LevelsSection(RowsSection):
     )
 
     def cells(self, index: int, row: dict[str, Any]) -> tuple[str, ...]:
+        """One table line for a level row (flags in words)."""
         flags = []
         if row.get("below_loq"):
             flags.append("<LOQ")
@@ -41,6 +42,7 @@ class LevelsSection(RowsSection):
                 row.get("timing", "actual"), str(row.get("reason", ""))[:24])
 
     def form_value(self, key: str, row: dict[str, Any]) -> Any:
+        """What a form field shows for a level row."""
         if key == "limit":
             return "below-loq" if row.get("below_loq") else ("above-uloq" if row.get("above_uloq") else "quantified")
         if key == "use":
@@ -50,6 +52,7 @@ class LevelsSection(RowsSection):
         return row.get(key, "")
 
     def entry(self, key: str, text: str, row: dict[str, Any]) -> Entry:
+        """Evaluate a level field's text."""
         f = f"levels[{self.current}]"
         if key == "time":
             return self.time(text, f"{f}.time")
@@ -60,6 +63,7 @@ class LevelsSection(RowsSection):
         return Entry(text)
 
     def store(self, key: str, entry: Entry, row: dict[str, Any]) -> None:
+        """Put a level field's value in the row (flags only when set)."""
         if key == "limit":
             row.pop("below_loq", None)
             row.pop("above_uloq", None)
@@ -83,4 +87,5 @@ class LevelsSection(RowsSection):
             row[key] = entry.stored
 
     def new_row(self) -> dict[str, Any]:
+        """A new, empty level."""
         return {"time": "", "conc": ""}

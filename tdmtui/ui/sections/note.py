@@ -25,4 +25,5 @@ class NoteSection(Vertical):
         yield Label(COPY_CAVEAT, id="note-caveat", classes="caution", markup=False)
 
     def show(self, text: str) -> None:
+        """Show the note text."""
         self.query_one("#note-text", Static).update(text)

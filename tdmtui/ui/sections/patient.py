@@ -112,6 +112,7 @@ class PatientSection(VerticalScroll):
         self.reload()
 
     def value_of(self, key: str) -> Any:
+        """The raw value a patient field shows."""
         raw = self.doc.raw
         if key == "target":
             return target_text(raw.get("target"))
@@ -133,12 +134,14 @@ class PatientSection(VerticalScroll):
         self.update_derived()
 
     def update_derived(self) -> float | None:
+        """Recompute IBW, AdjBW, BMI, CrCl, eGFR from what reads now."""
         line1, line2, crcl = derived_text(self.doc.raw)
         self.query_one("#derived-1", Label).update(line1)
         self.query_one("#derived-2", Label).update(line2)
         return crcl
 
     def entry(self, key: str, text: str) -> Entry:
+        """Evaluate a patient field's text."""
         if key in _KINDS:
             kind, unit = _KINDS[key]
             path = ".".join(_PATHS.get(key, ("patient", "scr")))

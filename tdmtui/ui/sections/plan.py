@@ -70,6 +70,7 @@ class PlanSection(Vertical):
             table.add_column(col, key=col or "mark")
 
     def show(self, outcome: Any) -> None:
+        """Fill the proposal and candidates from an Outcome (None clears)."""
         result = outcome.result if outcome is not None else {}
         self.query_one("#plan-summary", Static).update(summary_lines(result))
         before = self.options[self.chosen] if self.chosen is not None and self.chosen < len(self.options) else None
@@ -83,6 +84,7 @@ class PlanSection(Vertical):
         self.fill()
 
     def fill(self) -> None:
+        """Redraw the candidates table, marking proposed and chosen."""
         table = self.query_one(DataTable)
         table.clear()
         for i, c in enumerate(self.options):

@@ -66,9 +66,11 @@ class RowsSection(Vertical):
 
     # ---------------------------------------------------------------- display
     def rows(self) -> list[dict[str, Any]]:
+        """The raw rows of this section."""
         return self.doc.rows(self.NAME)
 
     def cells(self, index: int, row: dict[str, Any]) -> tuple[str, ...]:
+        """One table line for a row (subclasses)."""
         raise NotImplementedError
 
     def reload(self, keep: int | None = None) -> None:
@@ -84,6 +86,7 @@ class RowsSection(Vertical):
         self.load_form()
 
     def load_form(self) -> None:
+        """Show the current row in the form."""
         rows = self.rows()
         title = self.query_one(f"#{self.NAME}-form-title", Label)
         form = self.query_one(f"#{self.NAME}-form")
@@ -100,6 +103,7 @@ class RowsSection(Vertical):
             self.query_one(f"#{self.NAME}-{spec.key}", FieldRow).load(self.form_value(spec.key, row))
 
     def form_value(self, key: str, row: dict[str, Any]) -> Any:
+        """What a form field shows for a row."""
         return row.get(key, "")
 
     def refresh_row(self) -> None:
@@ -121,6 +125,7 @@ class RowsSection(Vertical):
         self.focus_form()
 
     def focus_form(self) -> None:
+        """Focus the first field of the form (at once)."""
         if self.FIELDS:
             self.screen.set_focus(self.query_one(f"#{self.NAME}-{self.FIELDS[0].key}-input"))
 
@@ -129,6 +134,7 @@ class RowsSection(Vertical):
         raise NotImplementedError
 
     def store(self, key: str, entry: Entry, row: dict[str, Any]) -> None:
+        """Put a field's value in the row."""
         row[key] = entry.stored
 
     @on(Input.Changed)
@@ -158,25 +164,32 @@ class RowsSection(Vertical):
 
     # ---------------------------------------------------------------- helpers for subclasses
     def clock(self):  # noqa: ANN201
+        """The case's clock as far as its times read now."""
         return case_clock(self.doc.raw)
 
     def anchor(self) -> float | None:
+        """The time of the row above (for clock and relative times)."""
         return anchor_for(self.doc.raw, self.NAME, self.current, self.clock())
 
     def time_of(self, text: Any) -> float | None:
+        """Hours of a stored time, or None."""
         return parsed_time(self.clock(), text)
 
     def qty(self, text: str, kind: str, unit: str, field: str) -> Entry:
+        """Evaluate a quantity field."""
         return quantity_entry(text, kind, unit, field)
 
     def time(self, text: str, field: str) -> Entry:
+        """Evaluate a time field."""
         return time_entry(text, self.anchor(), self.clock(), field)
 
     def infusion(self, text: str, start: float | None, field: str) -> Entry:
+        """Evaluate an infusion field."""
         return infusion_entry(text, start, self.clock(), field)
 
     # ---------------------------------------------------------------- actions
     def new_row(self) -> dict[str, Any]:
+        """A new row for "add" (subclasses)."""
         raise NotImplementedError
 
     def action_add(self) -> None:
@@ -189,6 +202,7 @@ class RowsSection(Vertical):
         self.focus_form()
 
     def action_delete(self) -> None:
+        """Delete the current row (u undoes)."""
         if not self.rows():
             return
         self.doc.delete_row(self.NAME, self.current)
@@ -197,6 +211,7 @@ class RowsSection(Vertical):
         self.app.notify("Row deleted: press u to undo.", timeout=4)
 
     def action_undo(self) -> None:
+        """Undo the last row change."""
         what = self.doc.undo()
         if not what:
             self.app.notify("Nothing to undo.", timeout=3)
@@ -210,4 +225,5 @@ class RowsSection(Vertical):
         self.focus_form()
 
     def action_to_table(self) -> None:
+        """Back from the form to the table."""
         self.screen.set_focus(self.query_one(DataTable))

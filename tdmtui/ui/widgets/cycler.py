@@ -55,6 +55,7 @@ class Cycler(Widget, can_focus=True):
         self.value = self.options[(i + step) % len(self.options)]
 
     def watch_value(self, value: str) -> None:
+        """Post Changed when the choice changes."""
         self.post_message(self.Changed(self, value))
 
     def on_key(self, event: Key) -> None:
@@ -67,4 +68,5 @@ class Cycler(Widget, can_focus=True):
                     return
 
     def check_consume_key(self, key: str, character: str | None) -> bool:
+        """Letters choose options, so they are not bindings here."""
         return bool(character and character.isalpha())

@@ -36,6 +36,7 @@ class PlotData:
     fmt: Any = None  # clock.format
 
     def y_max(self) -> float:
+        """Top of the y axis, mg/L: the highest value plus 10 %."""
         values = [float(np.nanmax(self.fit))] if self.fit.size else [1.0]
         if self.plan is not None and self.plan.size:
             values.append(float(np.nanmax(self.plan)))
