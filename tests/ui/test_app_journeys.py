@@ -404,3 +404,15 @@ async def test_standing_order_is_the_case_schedule(state, sample_copy):
         assert app.doc.raw["schedule"] == {"dose": "1250 mg", "interval": "12 h", "duration": "90 min"}
         await settle(pilot)
         assert app.outcome.result["current_regimen"]["dose_mg"] == 1250.0
+
+
+async def test_a_malformed_case_opens_and_names_the_problem(state, tmp_path):
+    bad = tmp_path / "odd.json"
+    bad.write_text(json.dumps({"format": "tdmtui.case/1", "drug": "vancomycin", "patient": "none", "doses": []}))
+    app = TdmApp(str(bad), None, state=state)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        assert str(app.screen.query_one("#status", Static).content).startswith("INPUT patient")
+        await pilot.press("f3", "f4", "f5", "f6", "f7")
+        await pilot.pause()
+        assert app.is_running

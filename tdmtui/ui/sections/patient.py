@@ -44,7 +44,8 @@ _KINDS = {"age": ("age", "yr"), "weight": ("weight", "kg"), "height": ("height",
 
 def scr_entries(raw: dict[str, Any]) -> list[dict[str, str]]:
     """The SCr values as a list of {time, value}, latest last (a single string gives one, timeless)."""
-    scr = raw.get("patient", {}).get("scr", "")
+    pat = raw.get("patient")
+    scr = pat.get("scr", "") if isinstance(pat, dict) else ""
     if isinstance(scr, list):
         return [dict(s) for s in scr if isinstance(s, dict)]
     return [{"time": "", "value": scr}] if scr else []
@@ -65,7 +66,7 @@ def derived_text(raw: dict[str, Any]) -> tuple[str, str, float | None]:
     from tdmtui.core.patient import renal_summary
     from tdmtui.core.units import parse_quantity
 
-    p = raw.get("patient", {})
+    p = raw.get("patient") if isinstance(raw.get("patient"), dict) else {}
     missing = [k for k in ("age", "sex", "weight", "height", "scr") if not p.get(k)]
     if missing:
         return "Derived values (IBW, AdjBW, BMI, CrCl, eGFR) appear as you type.", f"Still to fill in: {', '.join(missing)}.", None
