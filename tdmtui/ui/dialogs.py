@@ -5,11 +5,24 @@ from __future__ import annotations
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Vertical, VerticalScroll
-from textual.screen import ModalScreen
+from textual.screen import ModalScreen, ScreenResultType
+
+
+class OnceModal(ModalScreen[ScreenResultType]):
+    """A modal that answers once: keys arriving before it has closed are ignored, not a crash."""
+
+    answered = False
+
+    def finish(self, result: ScreenResultType) -> None:
+        """Dismiss with ``result`` unless already dismissed."""
+        if self.answered:
+            return
+        self.answered = True
+        self.dismiss(result)
 from textual.widgets import Input, Label, Static
 
 
-class AskDialog(ModalScreen[str]):
+class AskDialog(OnceModal[str]):
     """A question answered by one key per answer: ``[("s", "save"), ("d", "discard")]``.
 
     Escape answers ``""`` (cancel).
@@ -39,14 +52,14 @@ class AskDialog(ModalScreen[str]):
         for key, word in self.answers:
             if event.key == key:
                 event.stop()
-                self.dismiss(word)
+                self.finish(word)
 
     def action_answer(self, word: str) -> None:
         """Dismiss with an answer."""
-        self.dismiss(word)
+        self.finish(word)
 
 
-class TextDialog(ModalScreen[str]):
+class TextDialog(OnceModal[str]):
     """Ask for one line of text (a file name, a repeat); Enter accepts, Escape cancels ("")."""
 
     DEFAULT_CSS = """
@@ -77,14 +90,14 @@ class TextDialog(ModalScreen[str]):
         if why:
             self.query_one("#dlg-error", Label).update(f"! {why}")
             return
-        self.dismiss(text)
+        self.finish(text)
 
     def action_cancel(self) -> None:
         """Escape: dismiss with ""."""
-        self.dismiss("")
+        self.finish("")
 
 
-class HelpScreen(ModalScreen[None]):
+class HelpScreen(OnceModal[None]):
     """Every key of the app and the short safety text."""
 
     DEFAULT_CSS = """
@@ -103,4 +116,4 @@ class HelpScreen(ModalScreen[None]):
 
     def action_close(self) -> None:
         """Close the help."""
-        self.dismiss(None)
+        self.finish(None)

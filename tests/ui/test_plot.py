@@ -84,3 +84,18 @@ def test_start_up_path_keeps_scipy_numpy_and_pint_out():
     code = "import sys, tdmtui.ui.app; print(sorted(m for m in ('scipy', 'numpy', 'pint') if m in sys.modules))"
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
     assert out.strip() == "[]"
+
+
+async def test_a_dialog_answers_once_even_when_keys_pile_up():
+    from tdmtui.ui.dialogs import AskDialog
+
+    answers = []
+    app = _PlotApp()
+    async with app.run_test(size=(60, 14)) as pilot:
+        dialog = AskDialog("Restore?", [("r", "restore"), ("d", "discard")])
+        app.push_screen(dialog, answers.append)
+        await pilot.pause()
+        dialog.finish("discard")
+        dialog.finish("discard")  # a second key before the dialog has closed: no ScreenStackError
+        await pilot.pause()
+        assert answers == ["discard"] and not isinstance(app.screen, AskDialog)

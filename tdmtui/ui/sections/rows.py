@@ -76,13 +76,15 @@ class RowsSection(Vertical):
     def reload(self, keep: int | None = None) -> None:
         """Rebuild the table from the case and load the current row into the form."""
         table = self.query_one(DataTable)
-        table.clear()
         rows = self.rows()
-        for i, row in enumerate(rows):
-            table.add_row(*self.cells(i, row if isinstance(row, dict) else {}), key=str(i))
-        if rows:
-            self.current = min(keep if keep is not None else self.current, len(rows) - 1)
-            table.move_cursor(row=self.current)
+        # the rebuild's own highlight events would reload the form later, over what is being typed
+        with table.prevent(DataTable.RowHighlighted):
+            table.clear()
+            for i, row in enumerate(rows):
+                table.add_row(*self.cells(i, row if isinstance(row, dict) else {}), key=str(i))
+            if rows:
+                self.current = min(keep if keep is not None else self.current, len(rows) - 1)
+                table.move_cursor(row=self.current)
         self.load_form()
 
     def load_form(self) -> None:
