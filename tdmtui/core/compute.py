@@ -98,7 +98,7 @@ def compute(case: Case, protocol: Protocol | None = None, method: str | None = N
             return _stopped(case, protocol, rules, renal, cur, alerts, failures, ctx, estimates)
         raise
     alerts += methods.compare(ctx, estimates, used)
-    alerts += methods.used_alerts(ctx, estimates[used])
+    alerts += methods.used_alerts(ctx, estimates[used], estimates)
     from tdmtui.core.sensitivity import timing_sensitivity
 
     sens_rows, sens_alerts = timing_sensitivity(ctx, estimates[used])

@@ -144,11 +144,32 @@ def compare(ctx: MethodContext, est: dict[str, Estimate], used: str) -> list[Ale
     return out
 
 
-def used_alerts(ctx: MethodContext, est: Estimate) -> list[Alert]:
-    """Alerts that belong to the method actually used (model cautions, poor fit)."""
+def used_alerts(ctx: MethodContext, est: Estimate, estimates: dict[str, Estimate] | None = None) -> list[Alert]:
+    """Alerts that belong to the method actually used (model cautions, poor fit, levels left unused)."""
+    if est.method == "population":
+        return _levels_unused(ctx, estimates or {})
     if est.method != "bayesian":
         return []
     return list(ctx.model_flags or []) + bayes_method.residual_alerts(est, ctx.rules)
+
+
+def _levels_unused(ctx: MethodContext, estimates: dict[str, Estimate]) -> list[Alert]:
+    """A caution when levels exist but the population estimate used ignores them."""
+    measured = [lv for lv in ctx.case.levels if lv.use and lv.time <= ctx.case.as_of]
+    if not measured:
+        return []
+    bay = estimates.get("bayesian")
+    if bay is None:
+        return [Alert("levels-unused", "caution", "method",
+                      f"{len(measured)} level(s) on record but the estimate used is the population one, which ignores "
+                      "them (no two-level solution and no Bayesian model for this case)")]
+    cur = bay.current(ctx.current)
+    auc = f"; it gives AUC24 {cur['auc24_mg_h_per_l']:.0f} mg*h/L for the current regimen" if cur else ""
+    name = (bay.model or {}).get("name", "a population model")
+    return [Alert("levels-unused", "caution", "method",
+                  f"{len(measured)} level(s) on record but the estimate used is the population one, which ignores them. "
+                  f"A Bayesian estimate on {name} uses them{auc}: set the method to bayesian to use it "
+                  "(its model is verified from a secondary source only, so auto does not choose it)")]
 
 
 def level_table(ctx: MethodContext) -> list[dict[str, Any]]:
