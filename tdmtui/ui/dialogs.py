@@ -105,6 +105,7 @@ class HelpScreen(OnceModal[None]):
     HelpScreen > VerticalScroll { width: 78; height: 22; border: heavy $accent; padding: 0 1; background: $surface; }
     """
     BINDINGS = [Binding("escape,f1,question_mark,q", "close", "Close", id="help.close")]
+    """Any of these closes the help."""
 
     def __init__(self, text: str) -> None:
         super().__init__()

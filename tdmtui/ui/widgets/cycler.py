@@ -22,8 +22,8 @@ class Cycler(Widget, can_focus=True):
     Cycler:focus { text-style: reverse; }
     """
     BINDINGS = [
-        Binding("right,space", "step(1)", "Next", show=False),
-        Binding("left", "step(-1)", "Previous", show=False),
+        Binding("right,space", "step(1)", "Next", show=False, id="choice.next"),
+        Binding("left", "step(-1)", "Previous", show=False, id="choice.previous"),
     ]
 
     value: reactive[str] = reactive("")
