@@ -14,18 +14,19 @@ Everywhere
   F8             every warning
   ctrl+s         save (0600; refuses a file changed since you opened it)
   ctrl+q         quit (asks when there are unsaved changes)
-  Tab, shift+Tab next / previous field;  Esc leaves a form for its table
+  Tab, shift+Tab next / previous field;  Esc: from a form to its table
 Patient
-  type values; a bare number takes the unit shown; another unit may be
-  typed: "180 lb", "97 umol/L", "1.25 g". Choices: left/right, space,
-  or the first letter. Target: "auc24 400-600", "peak 8-10; trough 0.5-1"
+  A bare number takes the unit shown; another unit may be typed:
+  "180 lb", "97 umol/L", "1.25 g". Choices: left/right, space, or the
+  first letter. Target: "auc24 400-600" or "peak 8-10; trough 0.5-1"
   (empty: the library's or your protocol's targets).
 Doses and levels
-  a add a row (copied from the last, 1 interval later)   x delete   u undo
-  Enter edit the row   r repeat the dose: "12h x 3" (doses only)
-  Times: 2026-03-03T08:00, 08:00 (date of the row above; earlier than it
-  = next day, shown beside the field), +12h / +90min from the row above.
-  Infusion: a duration (90 min; a bare number is minutes) or an end time.
+  a add a row (the last one, one interval later)   x delete   u undo
+  Enter edit the row   r repeat a dose: "12h x 3" (doses only)
+  Times: 2026-03-03T08:00; 08:00 (date of the row above, the next day
+  when earlier than it, shown beside the field); +12h or +90min from
+  the row above. Infusion: a duration (90 min; a bare number is
+  minutes) or an end time (21:30).
   Order (doses): the standing order, "1250 mg every 12 h over 90 min";
   empty: the last two maintenance doses define the current regimen.
 Estimate
