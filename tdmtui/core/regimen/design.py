@@ -140,7 +140,7 @@ def _timing(inp: RegimenInput, c: Candidate, continuing: bool, threshold: float)
     t_due = max(t_due, inp.as_of)
     held = None
     if not continuing and inp.params is not None:
-        held = handover.hold(inp.params, hist, t_due, threshold)
+        held = handover.hold(inp.params, hist, t_due, threshold, float(inp.rules.get("regimen.min_hold_h", 0.0)))
     start = held if held is not None else t_due
     if continuing and t_last is not None and t_due > inp.as_of:
         return start, None, t_due

@@ -75,14 +75,17 @@ def align(t: float, times: list[str], clock: Clock) -> float:
     return t
 
 
-def hold(params: PKParams, history: DoseArrays, t_due: float, threshold: float) -> float | None:
-    """When the real history's curve falls to ``threshold`` at or after ``t_due`` (None: no hold)."""
+def hold(params: PKParams, history: DoseArrays, t_due: float, threshold: float, min_hold_h: float = 0.0) -> float | None:
+    """When the real history's curve falls to ``threshold`` at or after ``t_due`` (None: no hold).
+
+    A hold shorter than ``min_hold_h`` (library ``regimen.min_hold_h``) is no hold: the dose is given when due.
+    """
     if len(history) == 0 or threshold <= 0:
         return None
     if float(concentration(params, history, t_due)) <= threshold:
         return None
     t = time_to_fall(params, history, t_due, threshold)
-    return None if t is None or t - t_due < _SLACK_H else t
+    return None if t is None or t - t_due < max(_SLACK_H, min_hold_h) else t
 
 
 def proposed_doses(first: float, dose: float, tau: float, tinf: float, until: float,

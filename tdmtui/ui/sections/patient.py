@@ -9,7 +9,7 @@ from textual.app import ComposeResult
 from textual.containers import VerticalScroll
 from textual.widgets import Input, Label
 
-from tdmtui.core.case import RENAL_REPLACEMENT, SEXES
+from tdmtui.core.case import METHODS, RENAL_REPLACEMENT, SEXES
 from tdmtui.core.errors import InputError
 from tdmtui.core.library import DRUGS
 from tdmtui.ui import formatting as fm
@@ -34,10 +34,12 @@ FIELDS = (
     FieldSpec("as_of", "Assess at", "time", hint="now (default: last event)"),
     FieldSpec("mic", "MIC", "quantity:conc", "mg/L"),
     FieldSpec("target", "Target", "target", hint="e.g. auc24 400-600 (empty: library)"),
+    FieldSpec("method", "Method", "choice", options=METHODS),
 )
 _PATHS = {"drug": ("drug",), "label": ("label",), "age": ("patient", "age"), "sex": ("patient", "sex"),
           "weight": ("patient", "weight"), "height": ("patient", "height"),
-          "rrt": ("patient", "renal_replacement"), "as_of": ("as_of",), "mic": ("target", "mic")}
+          "rrt": ("patient", "renal_replacement"), "as_of": ("as_of",), "mic": ("target", "mic"),
+          "method": ("method",)}
 _KINDS = {"age": ("age", "yr"), "weight": ("weight", "kg"), "height": ("height", "cm"), "scr": ("scr", "mg/dL"),
           "scr_prev": ("scr", "mg/dL"), "mic": ("conc", "mg/L")}
 
@@ -131,6 +133,8 @@ class PatientSection(VerticalScroll):
             value = self.value_of(spec.key)
             if spec.key == "rrt" and not value:
                 value = "none"
+            if spec.key == "method" and not value:
+                value = "auto"
             self.query_one(f"#pt-{spec.key}", FieldRow).load(value)
         self.update_derived()
 

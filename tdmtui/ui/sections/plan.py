@@ -14,7 +14,7 @@ from textual.widgets import DataTable, Label, Static
 from tdmtui.ui import formatting as fm
 from tdmtui.ui.safety import caution_line
 
-COLUMNS = ("", "Action", "Dose", "Every", "Over", "AUC24", "Peak", "Trough")
+COLUMNS = ("", "Action", "Dose", "Every", "Over", "AUC24", "Peak", "Trough", "Prob")
 
 
 def candidates(result: dict[str, Any]) -> list[dict[str, Any]]:
@@ -23,6 +23,12 @@ def candidates(result: dict[str, Any]) -> list[dict[str, Any]]:
     if reg.get("candidates"):
         return list(reg["candidates"])
     return ([reg] if reg else []) + list(reg.get("alternatives") or [])
+
+
+def probability_text(c: dict[str, Any]) -> str:
+    """Probability of target attainment from posterior draws, as a percentage ("-" without draws)."""
+    p = c.get("target_probability", (c.get("predicted") or {}).get("target_probability"))
+    return "-" if p is None else f"{100 * float(p):.0f} %"
 
 
 def summary_lines(result: dict[str, Any]) -> str:
@@ -60,7 +66,7 @@ class PlanSection(Vertical):
 
     def compose(self) -> ComposeResult:
         yield Static("No regimen proposed yet.", id="plan-summary", markup=False)
-        yield Label("Candidates (Enter chooses the one for the note):", classes="section-title")
+        yield Label("Candidates (Enter chooses the one for the note; Prob = chance of target):", classes="section-title")
         yield DataTable(cursor_type="row", zebra_stripes=True, id="plan-table")
         yield Label(caution_line(), classes="caution", markup=False)
 
@@ -94,7 +100,8 @@ class PlanSection(Vertical):
                           fm.qty(c.get("interval_h"), "interval_h"), fm.qty(c.get("infusion_h"), "infusion_h"),
                           Text(fm.num(p.get("auc24_mg_h_per_l"), "auc24_mg_h_per_l"), justify="right"),
                           Text(fm.num(p.get("peak_mg_per_l"), "peak_mg_per_l"), justify="right"),
-                          Text(fm.num(p.get("trough_mg_per_l"), "trough_mg_per_l"), justify="right"), key=str(i))
+                          Text(fm.num(p.get("trough_mg_per_l"), "trough_mg_per_l"), justify="right"),
+                          Text(probability_text(c), justify="right"), key=str(i))
 
     @on(DataTable.RowSelected, "#plan-table")
     def _chosen(self, event: DataTable.RowSelected) -> None:
