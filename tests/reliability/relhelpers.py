@@ -217,7 +217,7 @@ def _mutate_value(value: Any, rng: random.Random) -> Any:
         if how == 4:
             return str(int(value[:4]) + rng.choice((-1, 1, 100))) + value[4:]
         return value.replace("T", " ")
-    return rng.choice(JUNK)
+    return copy.deepcopy(rng.choice(JUNK))
 
 
 def mutate(raw: dict[str, Any], rng: random.Random, n: int | None = None) -> dict[str, Any]:
@@ -232,7 +232,7 @@ def mutate(raw: dict[str, Any], rng: random.Random, n: int | None = None) -> dic
             if op == 0:
                 del node[key]
             elif op == 1:
-                node[key + rng.choice(("_", "x", ""))] = rng.choice(JUNK)
+                node[key + rng.choice(("_", "x", ""))] = copy.deepcopy(rng.choice(JUNK))
             elif op == 2 and isinstance(node[key], list) and node[key]:
                 node[key].append(copy.deepcopy(rng.choice(node[key])))
             else:
@@ -249,7 +249,7 @@ def mutate(raw: dict[str, Any], rng: random.Random, n: int | None = None) -> dic
             else:
                 node[i] = _mutate_value(node[i], rng)
         elif isinstance(node, list):
-            node.append(rng.choice(JUNK))
+            node.append(copy.deepcopy(rng.choice(JUNK)))
     return out
 
 
