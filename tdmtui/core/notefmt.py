@@ -282,7 +282,10 @@ def predicted(p: dict[str, Any]) -> str:
 
 
 def regimen_words(r: dict[str, Any]) -> str:
-    """``1000 mg every 12 h, infused over 1 h``."""
+    """``1000 mg every 12 h, infused over 1 h``, or for a continuous infusion ``a continuous infusion of 93.8 mg/h``."""
+    if r.get("mode") == "continuous" or r.get("infusion_h", 0) >= r.get("interval_h", 1):
+        rate = r.get("rate_mg_per_h") or r["dose_mg"] / r["infusion_h"]
+        return f"a continuous infusion of {rate:.1f} mg/h"
     return f"{mg(r['dose_mg'])} mg {every(r['interval_h'])}, infused over {duration(r['infusion_h'])}"
 
 
