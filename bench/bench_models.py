@@ -22,19 +22,15 @@ sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
 import numpy as np  # noqa: E402
 
+from timing import median_seconds  # noqa: E402
+
 from tdmtui.core import models  # noqa: E402
 from tdmtui.core.models import DoseArrays, PKParams  # noqa: E402
 
 
 def median_us(fn: Callable[[], object], reps: int) -> float:
     """Median wall-clock time of ``fn()`` in microseconds, after one warm-up call."""
-    fn()
-    times = []
-    for _ in range(reps):
-        t = time.perf_counter()
-        fn()
-        times.append(time.perf_counter() - t)
-    return statistics.median(times) * 1e6
+    return median_seconds(fn, reps) * 1e6
 
 
 def main() -> None:

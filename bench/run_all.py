@@ -32,19 +32,14 @@ SAMPLES = sorted((ROOT / "sample_cases").glob("*.json"))
 sys.path.insert(0, str(ROOT))
 sys.path.insert(0, str(BENCH))
 
+from timing import median_seconds  # noqa: E402
+
 #: smaller arguments for --quick, for the benches that take them
 QUICK_ARGS = {"bench_bayes.py": ["--patients", "60", "--reps", "30"], "bench_regimen.py": ["--reps", "10"]}
 
 
 def median_ms(fn: Callable[[], object], reps: int, warm: int = 1) -> float:
-    for _ in range(warm):
-        fn()
-    times = []
-    for _ in range(reps):
-        t = time.perf_counter()
-        fn()
-        times.append(time.perf_counter() - t)
-    return statistics.median(times) * 1e3
+    return median_seconds(fn, reps, warm) * 1e3
 
 
 # --------------------------------------------------------------------------- in-process benchmarks

@@ -92,11 +92,12 @@ _SAVE_LOOP = """
     import json, sys
     from tdmtui.core.case import save_case
     raw = json.loads(sys.stdin.readline())
+    who = sys.argv[2] if len(sys.argv) > 2 else "version"
     print("ready", flush=True)
     i = 0
     while True:
         i += 1
-        raw["label"] = f"version {i}"
+        raw["label"] = f"{who} {i}"
         save_case(sys.argv[1], raw)
 """
 
@@ -126,26 +127,13 @@ def test_writer_killed_at_random_moments_always_leaves_one_whole_version(tmp_pat
 
 # --------------------------------------------------------------------------- concurrent writers
 
-_SAVE_LOOP_AS = """
-    import json, sys
-    from tdmtui.core.case import save_case
-    raw = json.loads(sys.stdin.readline())
-    print("ready", flush=True)
-    i = 0
-    while True:
-        i += 1
-        raw["label"] = f"{sys.argv[2]} {i}"
-        save_case(sys.argv[1], raw)
-"""
-
-
 def test_two_processes_saving_in_a_loop_never_interleave_their_bytes(tmp_path):
     """Two writers hammer one file, then both are killed: it holds one writer's whole version."""
     raw = sample_raws()[0]
     raw["patient"]["comedications"] = [f"drug {i:05d}" for i in range(20_000)]
     path = tmp_path / "case.json"
     save_case(path, dict(raw, label="start 0"))
-    procs = [_child(_SAVE_LOOP_AS, str(path), who) for who in ("A", "B")]
+    procs = [_child(_SAVE_LOOP, str(path), who) for who in ("A", "B")]
     for proc in procs:
         proc.stdin.write(json.dumps(raw) + "\n")
         proc.stdin.flush()

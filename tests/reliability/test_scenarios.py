@@ -20,24 +20,12 @@ from typing import Any, Callable
 
 import pytest
 
+from casedata import base_case
+
 from tdmtui.core.compute import compute_raw
 from tdmtui.core.errors import InputError
 
-BASE: dict[str, Any] = {
-    "format": "tdmtui.case/1", "label": "slip scenario", "drug": "vancomycin", "as_of": "2026-03-03T21:00",
-    "patient": {"age": "67 yr", "sex": "male", "weight": "92 kg", "height": "178 cm",
-                "scr": [{"time": "2026-03-01T06:00", "value": "1.1 mg/dL"},
-                        {"time": "2026-03-03T06:00", "value": "1.2 mg/dL"}]},
-    "doses": [
-        {"start": "2026-03-02T08:00", "amount": "2000 mg", "duration": "2 h", "kind": "loading"},
-        {"start": "2026-03-02T20:00", "amount": "1250 mg", "end": "2026-03-02T21:30"},
-        {"start": "2026-03-03T08:00", "amount": "1250 mg", "duration": "90 min"},
-    ],
-    "levels": [
-        {"time": "2026-03-03T07:35", "conc": "14.2 mg/L"},
-        {"time": "2026-03-03T11:00", "conc": "31.2 mg/L"},
-    ],
-}
+BASE: dict[str, Any] = {**base_case(), "label": "slip scenario"}
 
 
 def _set(path: str, value: Any) -> Callable[[dict], None]:
