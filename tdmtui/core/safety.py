@@ -28,3 +28,9 @@ NOTE_LINE: str = (
     "Decision support only, for adults on intermittent IV vancomycin or aminoglycosides: "
     "verify every input, follow local protocol; clinical judgement decides (see SAFETY.md)."
 )
+
+#: The one-line caution under every result section of the app (fits 80 columns in two lines).
+SCREEN_LINE: str = (
+    "Decision support only: check every number, follow your local protocol, "
+    "and let licensed clinical judgement decide."
+)

@@ -27,6 +27,7 @@ from tdmtui.ui.computing import ComputeMixin
 from tdmtui.ui.document import CaseDocument, new_case_raw
 from tdmtui.ui.filing import FilingMixin
 from tdmtui.ui.messages import CaseEdited
+from tdmtui.ui.safety import first_run, short_text
 from tdmtui.ui.recovery import recovery_path, state_dir, write_recovery
 from tdmtui.ui.sections.doses import DosesSection
 from tdmtui.ui.sections.estimate import EstimateSection
@@ -69,8 +70,9 @@ class TdmApp(ComputeMixin, FilingMixin, App[int]):
     ]
 
     def __init__(self, path: str | None = None, protocol_path: str | None = None, *,
-                 state: Path | None = None) -> None:
+                 state: Path | None = None, first_run_notice: bool = False) -> None:
         super().__init__()
+        self.first_run_notice = first_run_notice
         self.case_path = path
         self.protocol_path = protocol_path
         self.state = state or state_dir()
@@ -116,6 +118,9 @@ class TdmApp(ComputeMixin, FilingMixin, App[int]):
         if self.open_error:
             self.notify(self.open_error, severity="error", markup=False, timeout=8)
         self.offer_recovery()
+        if self.first_run_notice and first_run(self.state):
+            self.notify(" ".join(short_text().split()), title="Before you start (shown once; F1 shows it again)", timeout=30,
+                        markup=False)
         self.request_compute(now=True)
         self.call_after_refresh(self.focus_section)
 
@@ -266,7 +271,7 @@ class TdmApp(ComputeMixin, FilingMixin, App[int]):
 
 def run_app(path: str | None, protocol_path: str | None, mouse: bool = False) -> int:
     """Run the workspace; returns the exit status for the command line."""
-    app = TdmApp(path, protocol_path)
+    app = TdmApp(path, protocol_path, first_run_notice=True)
     result = app.run(mouse=mouse)
     return int(result or 0)
 
