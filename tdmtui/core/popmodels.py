@@ -7,7 +7,7 @@ Each model is one TOML file in ``tdmtui/core/library/models/``. Keys:
 * ``[preference]``: ``rank`` (1 first) and ``source``: which model the
   orchestrator shows first as ``bayesian`` when no model qualifies for ``auto``.
 * ``[verification]``: ``status`` = ``"paper"`` (checked against the
-  publication) or ``"secondary"`` (a secondary transcription only);
+  publication) or ``"secondary"`` (a secondary copy only);
   ``caution`` = text shown with every use of a secondary-only model.
 * ``[covariates]``: the model's OWN covariate rules, applied instead of the
   local protocol's: ``crcl_formula`` (``"cockcroft-gault"``), ``crcl_weight``

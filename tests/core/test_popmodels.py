@@ -1,7 +1,7 @@
 """Population models as data: typical values against the published equations.
 
-Every expected number is typed in from pk-sources.md (the transcription of each
-paper) or worked by hand from the transcribed equation, never computed by the
+Every expected number is typed in from pk-sources.md (the secondary copy of each
+paper) or worked by hand from the copied equation, never computed by the
 code under test. Patients are chosen so that Cockcroft-Gault,
 (140 - age) x weight / (72 x SCr) (pk-sources.md 1.1), gives the paper's
 reference CrCl exactly.
