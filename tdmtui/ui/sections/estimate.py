@@ -43,8 +43,13 @@ def method_columns(result: dict[str, Any]) -> list[tuple[str, dict[str, Any]]]:
     """(column title, estimate dict): the method used first, marked "*", then the others."""
     cols: list[tuple[str, dict[str, Any]]] = []
     if result.get("estimate"):
-        cols.append((f"{result.get('method')}*", result["estimate"]))
+        used = result.get("method")
+        if used == "bayesian" and (result["estimate"].get("model") or {}).get("id"):
+            used = "bay:" + result["estimate"]["model"]["id"].split("-", 1)[-1]
+        cols.append((f"{used}*", result["estimate"]))
     for name, est in (result.get("methods") or {}).items():
+        if name == "bayesian" and (est.get("model") or {}).get("id"):
+            name = f"bayesian:{est['model']['id']}"  # say which model the primary Bayesian estimate used
         if ":" in name:  # "population:vancomycin-some-model" -> "pop:some-model"
             family, model = name.split(":", 1)
             name = f"{family[:3]}:{model.split('-', 1)[-1]}"
