@@ -28,7 +28,7 @@ from tdmtui.core.alerts import Alert, has_stop
 from tdmtui.core.case import Case, parse_case
 from tdmtui.core.errors import NoEstimateError
 from tdmtui.core.estimates import Estimate
-from tdmtui.core.library import LIBRARY_VERSION, Protocol, Rules
+from tdmtui.core.library import LIBRARY_VERSION, Protocol, Rules, library_digest
 from tdmtui.core.models import DoseArrays, PKParams
 from tdmtui.core.patient import RenalSummary, renal_summary
 from tdmtui.core.working import WorkingStep
@@ -138,6 +138,7 @@ def _header(case: Case, protocol: Protocol | None, renal: RenalSummary, rules: R
         "format": RESULT_FORMAT,
         "version": __version__,
         "library_version": LIBRARY_VERSION,
+        "library_sha256": library_digest(),
         "input_sha256": case.sha256,
         "input_saved": case.saved,
         "protocol_sha256": protocol.sha256 if protocol else None,
