@@ -186,10 +186,8 @@ def level_table(ctx: MethodContext) -> list[dict[str, Any]]:
 
 def attach_regimen(ctx: MethodContext, outcome: Outcome, est: Estimate) -> list[Alert]:
     """Design the regimen with the chosen estimate; put it in the result. Returns its alerts."""
-    try:
-        from tdmtui.core.regimen import RegimenInput, design
-    except ImportError:  # regimen package not present in this build
-        return []
+    from tdmtui.core.regimen import RegimenInput, design
+
     p = ctx.case.patient
     plan = design(RegimenInput(
         drug=ctx.case.drug, rules=ctx.rules, case_target=ctx.case.target, params=est.params, history=ctx.history,

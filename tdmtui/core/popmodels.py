@@ -59,10 +59,9 @@ import numpy as np
 from tdmtui.core.alerts import Alert
 from tdmtui.core.errors import InputError, NoEstimateError
 from tdmtui.core.models import PKParams
+from tdmtui.core.units import UMOL_PER_MG_DL
 from tdmtui.core.patient import cockcroft_gault
 
-#: mg/dL -> micromol/L for creatinine (pk-sources.md 1.4).
-UMOL_PER_MG_DL = 88.4
 PARAMS_1 = ("cl", "v1")
 PARAMS_2 = ("cl", "v1", "q", "v2")
 COVARIATES = ("crcl_cg", "crcl_cg_l_h", "tbw", "height", "age", "dial")

@@ -210,6 +210,23 @@ def test_two_processes_saving_at_the_same_moment_never_both_succeed(tmp_path):
 
 # --------------------------------------------------------------------------- autosave recovery
 
+
+async def _restored(case: Path, state: Path) -> tuple[dict, bool]:
+    """Open the case in the app, accept the recovery offer; return the case the app then holds and its dirty flag."""
+    from tdmtui.ui.app import TdmApp
+    from tdmtui.ui.dialogs import AskDialog
+
+    app = TdmApp(str(case), None, state=state)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.pause(0.3)
+        assert isinstance(app.screen, AskDialog)
+        await pilot.press("r")
+        await pilot.pause(0.4)
+        await app.workers.wait_for_complete()
+        await pilot.pause()
+        return app.doc.raw, app.doc.dirty
+
+
 _APP_EDIT_THEN_HANG = """
     import asyncio, sys
     from pathlib import Path
@@ -238,8 +255,6 @@ _APP_EDIT_THEN_HANG = """
 
 
 async def test_autosaved_edit_is_offered_back_after_the_app_is_killed(tmp_path):
-    from tdmtui.ui.app import TdmApp
-    from tdmtui.ui.dialogs import AskDialog
     from tdmtui.ui.recovery import recovery_path
 
     path = tmp_path / "case.json"
@@ -254,17 +269,9 @@ async def test_autosaved_edit_is_offered_back_after_the_app_is_killed(tmp_path):
     assert rec.exists()
     assert stat.S_IMODE(rec.stat().st_mode) == 0o600
     assert json.loads(rec.read_text())["raw"]["patient"]["weight"] == "81 kg"
-    app = TdmApp(str(path), None, state=state)
-    async with app.run_test(size=(80, 24)) as pilot:
-        await pilot.pause(0.3)
-        assert isinstance(app.screen, AskDialog)
-        await pilot.press("r")
-        await pilot.pause(0.4)
-        await app.workers.wait_for_complete()
-        await pilot.pause()
-        assert app.doc.raw["patient"]["weight"] == "81 kg"
-        assert app.doc.dirty
-        await app.workers.wait_for_complete()
+    raw, dirty = await _restored(path, state)
+    assert raw["patient"]["weight"] == "81 kg"
+    assert dirty
 
 
 def _pty_app(case: Path, state: Path):  # noqa: ANN202
@@ -299,8 +306,6 @@ def _read_for(fd: int, seconds: float) -> bytes:
 
 async def test_real_terminal_app_killed_after_typing_keeps_the_edit(tmp_path):
     """``tdmtui CASE`` on a pseudo-terminal: Tab to the label, type, SIGKILL; the edit comes back on reopening."""
-    from tdmtui.ui.app import TdmApp
-    from tdmtui.ui.dialogs import AskDialog
     from tdmtui.ui.recovery import read_recovery, recovery_path
 
     case = tmp_path / "case.json"
@@ -333,11 +338,5 @@ async def test_real_terminal_app_killed_after_typing_keeps_the_edit(tmp_path):
     saved = read_recovery(rec)
     assert saved is not None and saved.raw != json.loads(before)
     assert stat.S_IMODE(rec.stat().st_mode) == 0o600
-    app = TdmApp(str(case), None, state=state)
-    async with app.run_test(size=(80, 24)) as pilot:
-        await pilot.pause(0.3)
-        assert isinstance(app.screen, AskDialog)
-        await pilot.press("r")
-        await pilot.pause(0.4)
-        await app.workers.wait_for_complete()
-        assert app.doc.raw == saved.raw
+    raw, _ = await _restored(case, state)
+    assert raw == saved.raw
