@@ -89,6 +89,7 @@ class TdmApp(ComputeMixin, FilingMixin, App[int]):
         self.note = ""
         self.generation = 0
         self.computing = False
+        self.compute_pending = False
         self.alerts: list[dict[str, str]] = []
         self.crcl: float | None = None
         self._debounce: Any = None

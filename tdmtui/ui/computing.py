@@ -34,6 +34,7 @@ class ComputeMixin:
     protocol_path: str | None
     generation: int
     computing: bool
+    compute_pending: bool
     outcome: Any
     chosen: dict[str, Any] | None
 
@@ -41,6 +42,7 @@ class ComputeMixin:
         """Recompute after a short pause in typing (at once when ``now``)."""
         if self._debounce is not None:
             self._debounce.stop()
+        self.compute_pending = True
         if now:
             self.start_compute()
         else:
@@ -55,6 +57,7 @@ class ComputeMixin:
         from tdmtui.core.case import parse_case
         from tdmtui.core.errors import InputError
 
+        self.compute_pending = False
         self.generation += 1
         try:
             parse_case(self.doc.raw)

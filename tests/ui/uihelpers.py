@@ -7,8 +7,20 @@ from pathlib import Path
 SAMPLES = Path(__file__).resolve().parents[2] / "sample_cases"
 
 
-async def settle(pilot) -> None:
-    """Let debounced edits start their compute, and wait for every worker."""
+async def settle(pilot, limit_s: float = 30.0) -> None:
+    """Let debounced edits start their compute, and wait for every worker.
+
+    Waits on the app's own state (a pending debounced compute, a running
+    worker), not on a fixed pause, so a busy machine cannot make it return early.
+    """
+    app = pilot.app
+    waited = 0.0
     await pilot.pause(0.6)
-    await pilot.app.workers.wait_for_complete()
+    while waited < limit_s:
+        await app.workers.wait_for_complete()
+        await pilot.pause()
+        if not getattr(app, "compute_pending", False) and not app.workers:
+            break
+        await pilot.pause(0.1)
+        waited += 0.1
     await pilot.pause()
