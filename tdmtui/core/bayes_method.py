@@ -5,10 +5,11 @@ fit on the case's levels (bayes) gives one :class:`Estimate` named
 ``bayesian:<model id>``, with 90 % intervals from the Laplace posterior, the
 probability that the current regimen meets its target, observed-vs-predicted
 residuals and how far the estimate moved from the population value. The
-primary model (``auto``'s model when one qualifies, else the first offered one,
-in the order of the model files' ``preference.rank``, that is neither excluded nor flagged out of population, else
-the first not excluded) is also returned as ``bayesian``; its a priori
-prediction as ``population:<model id>``.
+primary model (the first offered one, in the order of the model files'
+``preference.rank``, that is neither excluded nor flagged out of population,
+else the first not excluded) is also returned as ``bayesian``, whatever its
+verification status (a model checked against a secondary copy only carries a
+caution); its a priori prediction as ``population:<model id>``.
 
 Levels: quantified or censored (below/above limits) levels that are in use,
 drawn after the first dose and not during an infusion. One-compartment models
@@ -19,6 +20,8 @@ use them (case-format.md).
 from __future__ import annotations
 
 from typing import Any
+
+import numpy as np
 
 from tdmtui.core.alerts import Alert
 from tdmtui.core.errors import ConvergenceError, NoEstimateError
@@ -32,7 +35,7 @@ from tdmtui.core.working import WorkingStep
 N_DRAWS = 2000
 
 
-def _levels_for(ctx: Any, two_compartment: bool) -> list:
+def levels_for(ctx: Any, two_compartment: bool) -> list:
     from tdmtui.core.course import level_exclusion
 
     out = []
@@ -59,11 +62,10 @@ def _target_bands(ctx: Any) -> dict[str, tuple[float, float]]:
     return bands
 
 
-def _estimate(name: str, fit: Any, levels: list, ctx: Any, offer: Any, a_priori: bool) -> Estimate:
+def _uncertainty(ctx: Any, samples: Any) -> tuple[dict[str, list[float]], float | None]:
+    """90 % intervals of the estimate's figures and the current regimen's probability of target."""
     from tdmtui.core import bayes
 
-    model = fit.model
-    samples = bayes.importance_samples(fit, N_DRAWS, resample=True)
     cur = ctx.current
     iv = bayes.regimen_intervals(samples, cur.dose_mg if cur else None, cur.interval_h if cur else None,
                                  cur.infusion_h if cur else 0.0)
@@ -74,6 +76,17 @@ def _estimate(name: str, fit: Any, levels: list, ctx: Any, offer: Any, a_priori:
     bands = _target_bands(ctx)
     if cur is not None and bands:
         prob = bayes.probability_of_target(samples, cur.dose_mg, cur.interval_h, cur.infusion_h, bands)
+    return interval90, prob
+
+
+def _estimate(name: str, fit: Any, levels: list, ctx: Any, offer: Any, a_priori: bool,
+              samples: Any = None) -> Estimate:
+    from tdmtui.core import bayes
+
+    model = fit.model
+    if samples is None:
+        samples = bayes.importance_samples(fit, N_DRAWS, resample=True)
+    interval90, prob = _uncertainty(ctx, samples)
     typ = fit.typical.params
     steps = [WorkingStep("Model", f"{model.name}: {model.compartments}-compartment population model",
                          model.citation, "", name)]
@@ -92,7 +105,6 @@ def _estimate(name: str, fit: Any, levels: list, ctx: Any, offer: Any, a_priori:
                                      f"observed {r['observed']:.3g}, predicted {r['predicted']:.3g} mg/L",
                                      f"residual {r['residual']:+.3g} mg/L", name))
     extra: dict[str, Any] = {
-        "auto_eligible": model.status == "paper" and not offer.out_of_population and not offer.excluded,
         "diagnostics": {
             "residuals": [dict(r, field=f"levels[{lv.index}]") for r, lv in zip(fit.residuals(), levels)] if not a_priori else [],
             "movement_sd": fit.movement(), "fold_change": fit.fold_change(), "narrowing": fit.narrowing(),
@@ -112,13 +124,30 @@ def _estimate(name: str, fit: Any, levels: list, ctx: Any, offer: Any, a_priori:
                     samples=samples, extra=extra)
 
 
-def run(ctx: Any) -> tuple[dict[str, Estimate], dict[str, str], list[Alert]]:
-    """Every offered model's MAP and a priori estimates; failures by name; the primary model's flags."""
-    from tdmtui.core import bayes, popmodels
+def _covariates(ctx: Any) -> Any:
+    from tdmtui.core import popmodels
 
     p = ctx.case.patient
-    scr = ctx.renal.scr_measured_mg_dl
-    cov = popmodels.Covariates(p.age, p.sex, p.weight, p.height, scr, p.renal_replacement, p.conditions)
+    return popmodels.Covariates(p.age, p.sex, p.weight, p.height, ctx.renal.scr_measured_mg_dl,
+                                p.renal_replacement, p.conditions)
+
+
+def _observations(levels: list) -> Any:
+    from tdmtui.core import bayes
+
+    return bayes.Observations.from_lists([lv.time for lv in levels], [lv.conc for lv in levels],
+                                         [lv.below_loq for lv in levels], [lv.above_uloq for lv in levels])
+
+
+def run(ctx: Any) -> tuple[dict[str, Estimate], dict[str, str], list[Alert]]:
+    """Every offered model's MAP and a priori estimates, their average; failures by name; the flags.
+
+    ``bayesian`` is the model average (:mod:`averaging`) over the models that
+    fit the patient; when none does, the first by rank that is not excluded.
+    """
+    from tdmtui.core import bayes, popmodels
+
+    cov = _covariates(ctx)
     offers = sorted(popmodels.offered_models(ctx.case.drug, cov),
                     key=lambda o: int(o.model.data.get("preference", {}).get("rank", 99)))
     est: dict[str, Estimate] = {}
@@ -126,29 +155,36 @@ def run(ctx: Any) -> tuple[dict[str, Estimate], dict[str, str], list[Alert]]:
     if not offers:
         why["bayesian"] = popmodels.not_available_reason(ctx.case.drug)
         return est, why, []
-    auto, _ = popmodels.auto_model(ctx.case.drug, cov)
     usable_offers = [o for o in offers if not o.excluded]
     in_population = [o for o in usable_offers if not o.out_of_population]
-    primary = next((o for o in usable_offers if auto is not None and o.model.id == auto.id),
-                   (in_population or usable_offers or [None])[0])
+    primary = (in_population or usable_offers or [None])[0]
+    fitted: list[tuple[Any, Any, list, Any]] = []
     for o in offers:
         key = f"bayesian:{o.model.id}"
         if o.excluded:
             why[key] = "; ".join(a.message for a in o.alerts if a.severity == "stop")
             continue
-        levels = _levels_for(ctx, o.model.compartments == 2)
-        obs = bayes.Observations.from_lists([lv.time for lv in levels], [lv.conc for lv in levels],
-                                            [lv.below_loq for lv in levels], [lv.above_uloq for lv in levels])
+        levels = levels_for(ctx, o.model.compartments == 2)
         try:
             prior = bayes.population_fit(o.model, cov, ctx.history)
             est[f"population:{o.model.id}"] = _estimate(f"population:{o.model.id}", prior, [], ctx, o, True)
             if levels:
-                fit = bayes.map_fit(o.model, cov, ctx.history, obs)
-                est[key] = _estimate(key, fit, levels, ctx, o, False)
+                fit = bayes.map_fit(o.model, cov, ctx.history, _observations(levels))
+                samples = bayes.importance_samples(fit, N_DRAWS, resample=True)
+                est[key] = _estimate(key, fit, levels, ctx, o, False, samples)
+                fitted.append((o, fit, levels, samples))
             else:
                 why[key] = "no usable level for a Bayesian fit (the a priori estimate is shown as population)"
         except (NoEstimateError, ConvergenceError) as exc:
             why[key] = getattr(exc, "why", str(exc))
+    members, left_out = _eligible(fitted)
+    for o, reason in left_out:
+        if f"bayesian:{o.model.id}" in est:
+            est[f"bayesian:{o.model.id}"].extra["weight"] = 0.0
+            est[f"bayesian:{o.model.id}"].extra["weight_note"] = reason
+    if members:
+        est["bayesian"], flags = _averaged(ctx, members, est)
+        return est, why, flags
     if primary is None:
         why["bayesian"] = "every offered model is excluded for this patient"
     elif f"bayesian:{primary.model.id}" in est:
@@ -157,6 +193,91 @@ def run(ctx: Any) -> tuple[dict[str, Estimate], dict[str, str], list[Alert]]:
         why["bayesian"] = why.get(f"bayesian:{primary.model.id}", "no estimate")
     flags = list(primary.alerts) if primary is not None else []
     return est, why, flags
+
+
+def _condition_mismatch(o: Any) -> bool:
+    return any(a.code == "model-out-of-population" and a.field == "patient.conditions" for a in o.alerts)
+
+
+def _eligible(fitted: list) -> tuple[list, list]:
+    """Fits that take part in the average, and (offer, why not) for the others."""
+    out, left = [], []
+    for item in fitted:
+        if _condition_mismatch(item[0]):
+            left.append((item[0], "no weight: the model was built only on patients with a condition this patient "
+                                  "does not have"))
+        else:
+            out.append(item)
+    widest = max((len(f[2]) for f in out), default=0)
+    keep = [f for f in out if len(f[2]) == widest]
+    left += [(f[0], "no weight: a one-compartment model cannot use the level drawn in the distribution window "
+                    "that the other models use") for f in out if len(f[2]) != widest]
+    return keep, left
+
+
+def _averaged(ctx: Any, fitted: list, est: dict[str, Estimate]) -> tuple[Estimate, list[Alert]]:
+    from tdmtui.core import averaging
+    from tdmtui.core.models import concentration
+
+    members = [averaging.Member(o.model.id, o.model.name, fit, samples, averaging.log_evidence(fit))
+               for o, fit, _, samples in fitted]
+    w = averaging.weights([m.log_evidence for m in members])
+    for m, x in zip(members, w):
+        est[f"bayesian:{m.model_id}"].extra["weight"] = x
+        est[f"bayesian:{m.model_id}"].extra["log_evidence"] = m.log_evidence
+    params = averaging.point(members, w)
+    mix = averaging.mixture(members, w, N_DRAWS, members[0].fit.seed)
+    interval90, prob = _uncertainty(ctx, mix)
+    levels = fitted[0][2]
+    name = "bayesian"
+    share = ", ".join(f"{m.name.split(' (')[0]} {100 * x:.0f} %" for m, x in zip(members, w))
+    steps = [WorkingStep("Model average", "w_m = p(levels | m) / sum_k p(levels | k); p(levels | m) = the levels' "
+                         "likelihood integrated over the model's prior (importance sampling, equal prior weights)",
+                         "; ".join(f"{m.name.split(' (')[0]}: ln p = {m.log_evidence:.4g}" for m in members),
+                         f"weights {share}", name),
+             WorkingStep("Averaged estimate", "weighted geometric mean of each parameter"
+                         + ("" if len({m.fit.params.is_two_compartment for m in members}) == 1
+                            else " (one-compartment equivalent: CL and Vss)"),
+                         "; ".join(f"{m.name.split(' (')[0]} CL {m.fit.params.cl:.4g} L/h, Vss {m.fit.params.vss:.4g} L"
+                                   for m in members),
+                         f"CL {params.cl:.4g} L/h, Vss {params.vss:.4g} L, ke {params.ke:.4g} /h", name)]
+    obs = _observations(levels)
+    pred = concentration(params, ctx.history, obs.time) if len(obs) else np.zeros(0)
+    kinds = ["below-loq" if lv.below_loq else "above-uloq" if lv.above_uloq else "quantified" for lv in levels]
+    residuals = [{"time_h": lv.time, "observed": lv.conc, "predicted": float(p), "residual": float(lv.conc - p),
+                  "kind": k, "field": f"levels[{lv.index}]"} for lv, p, k in zip(levels, pred, kinds)]
+    offers = [o for o, *_ in fitted]
+    flags = _combined_flags(offers)
+    secondary = any(o.model.status != "paper" for o in offers)
+    model_info = {"id": "model-average", "name": f"the model average ({share})", "citation": averaging.CITATION,
+                  "verification": "secondary" if secondary else "paper", "seed": members[0].fit.seed,
+                  "draws": N_DRAWS, "optimiser": "MAP on each model; weights by importance sampling",
+                  "weights": {m.model_id: x for m, x in zip(members, w)},
+                  "log_evidence": {m.model_id: m.log_evidence for m in members},
+                  "caution": " ".join(o.model.caution for o in offers if o.model.status != "paper")}
+    extra: dict[str, Any] = {"diagnostics": {"residuals": residuals, "flags": [a.to_dict() for a in flags]}}
+    e = Estimate("bayesian", params, [lv.index for lv in levels], steps,
+                 f"model average of {len(members)} population model(s) with {len(levels)} level(s)",
+                 model=model_info, interval90=interval90, target_probability=prob, samples=mix, extra=extra)
+    return e, flags
+
+
+def _combined_flags(offers: list) -> list[Alert]:
+    """The weighted models' flags, the secondary-copy cautions folded into one line."""
+    from tdmtui.core.popmodels import secondary_caution
+
+    out: list[Alert] = []
+    sec = [o.model for o in offers if o.model.status != "paper"]
+    if len(sec) == 1:
+        out.append(Alert("model-secondary-only", "caution", "", secondary_caution(sec[0])))
+    elif sec:
+        names = " and ".join(m.name.split(" (")[0] for m in sec)
+        out.append(Alert("model-secondary-only", "caution", "",
+                         f"{names}: these models' numbers were checked against secondary copies of the papers, not "
+                         "the papers themselves; treat the Bayesian estimate as a guide, compare it with the other "
+                         "methods shown, and confirm with the next level"))
+    out += [a for o in offers for a in o.alerts if a.code != "model-secondary-only"]
+    return out
 
 
 def residual_alerts(e: Estimate, rules: Any) -> list[Alert]:
@@ -172,20 +293,32 @@ def residual_alerts(e: Estimate, rules: Any) -> list[Alert]:
 
 
 def refit(ctx: Any, model_id: str) -> Estimate | None:
-    """MAP again on one model (for the timing sensitivity); None when it does not converge."""
-    from tdmtui.core import bayes, popmodels
+    """MAP again on one model, or the model average again (for the timing sensitivity); None when it fails."""
+    from tdmtui.core import averaging, bayes, popmodels
 
-    p = ctx.case.patient
-    cov = popmodels.Covariates(p.age, p.sex, p.weight, p.height, ctx.renal.scr_measured_mg_dl,
-                               p.renal_replacement, p.conditions)
+    cov = _covariates(ctx)
+    if model_id == "model-average":
+        fitted = []
+        for o in popmodels.offered_models(ctx.case.drug, cov):
+            levels = levels_for(ctx, o.model.compartments == 2)
+            if o.excluded or not levels:
+                continue
+            try:
+                fitted.append((o, bayes.map_fit(o.model, cov, ctx.history, _observations(levels)), levels, None))
+            except (NoEstimateError, ConvergenceError):
+                continue
+        members = _eligible(fitted)[0]
+        if not members:
+            return None
+        ms = [averaging.Member(o.model.id, o.model.name, f, None, averaging.log_evidence(f)) for o, f, _, _ in members]
+        return Estimate("bayesian", averaging.point(ms, averaging.weights([m.log_evidence for m in ms])),
+                        [lv.index for lv in members[0][2]])
     model = popmodels.get_model(model_id)
-    levels = _levels_for(ctx, model.compartments == 2)
+    levels = levels_for(ctx, model.compartments == 2)
     if not levels:
         return None
-    obs = bayes.Observations.from_lists([lv.time for lv in levels], [lv.conc for lv in levels],
-                                        [lv.below_loq for lv in levels], [lv.above_uloq for lv in levels])
     try:
-        fit = bayes.map_fit(model, cov, ctx.history, obs)
+        fit = bayes.map_fit(model, cov, ctx.history, _observations(levels))
     except (NoEstimateError, ConvergenceError):
         return None
     return Estimate("bayesian", fit.params, [lv.index for lv in levels])

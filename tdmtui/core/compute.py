@@ -9,10 +9,13 @@ Order of work (each step's rules are in its own module):
 5. the method used: the one asked for, or by ``auto`` (:func:`choose`);
 6. the regimen (:mod:`regimen`) unless a stop stands.
 
-``auto`` (case-format.md): two-level when two usable levels give a unique
-solution; else a Bayesian estimate on a model verified against its paper
-(none is, yet: such models carry a caution and are shown under ``methods``
-only); else the population estimate.
+``auto`` (case-format.md) never ignores a usable level: two-level when two
+usable levels give a unique solution; else the Bayesian estimate (every
+usable level, censored ones as bounds, whatever the model's verification
+status: a model checked against a secondary copy only carries a caution);
+else a one-level method (a drug without a population model); the population
+estimate only when no usable level exists. :func:`method_reason` says why in
+one sentence for the note.
 """
 
 from __future__ import annotations
@@ -60,16 +63,46 @@ def history_of(case: Case) -> DoseArrays:
     return DoseArrays.from_lists([d.start for d in ds], [d.duration for d in ds], [d.amount for d in ds])
 
 
+#: ``auto``'s order: the first method here that gave an estimate is used.
+AUTO_ORDER = ("two-level", "bayesian", "one-level", "population")
+
+
 def choose(requested: str, estimates: dict[str, Estimate], failures: dict[str, str]) -> str:
     """The method used. Raises NoEstimateError when a requested method gave none."""
     if requested != "auto":
         if requested in estimates:
             return requested
         raise NoEstimateError(requested, failures.get(requested, "this method does not apply to this case"))
-    for name in ("two-level", "bayesian", "population"):
-        if name in estimates and (name != "bayesian" or estimates[name].extra.get("auto_eligible")):
+    for name in AUTO_ORDER:
+        if name in estimates:
             return name
     raise NoEstimateError("auto", "; ".join(f"{k}: {v}" for k, v in failures.items()) or "no method applies")
+
+
+def method_reason(requested: str, used: str, estimates: dict[str, Estimate], failures: dict[str, str],
+                  n_levels: int) -> str:
+    """One sentence for the note: which method and why."""
+    if requested not in ("auto", "nomogram"):
+        return f"{used} was asked for in the case or on the command line."
+    est = estimates[used]
+    n = len(est.levels_used)
+    if used == "two-level":
+        return "two usable levels give a single whole-history solution, so the estimate rests on them alone."
+    if used == "bayesian":
+        name = (est.model or {}).get("name", "the population model")
+        count = "one usable level" if n == 1 else f"{n} usable levels"
+        why = ""
+        if n >= 2:
+            tl = failures.get("two-level", "not available")
+            why = f" and no single two-level solution ({tl.split('; set aside: ')[-1] if 'set aside' in tl else tl.split(' (')[0]})"
+        return f"{count}{why}, so a Bayesian estimate on {name} combines them with what the model expects."
+    if used == "one-level":
+        return (f"one usable level and no Bayesian estimate ({failures.get('bayesian', 'not available')}), so ke is "
+                "solved from that level with the population volume.")
+    if n_levels:
+        return (f"{n_levels} level(s) on record but no method could use them (see the methods not available), so "
+                "population values from CrCl and weight.")
+    return "no usable level yet, so population values from CrCl and weight."
 
 
 def compute(case: Case, protocol: Protocol | None = None, method: str | None = None) -> Outcome:
@@ -97,6 +130,7 @@ def compute(case: Case, protocol: Protocol | None = None, method: str | None = N
         if requested in ("auto", "nomogram") and has_stop(alerts):
             return _stopped(case, protocol, rules, renal, cur, alerts, failures, ctx, estimates)
         raise
+    n_levels = len(methods.levels_for_estimates(ctx))
     alerts += methods.compare(ctx, estimates, used)
     alerts += methods.used_alerts(ctx, estimates[used], estimates)
     from tdmtui.core.sensitivity import timing_sensitivity
@@ -108,6 +142,7 @@ def compute(case: Case, protocol: Protocol | None = None, method: str | None = N
     result = _header(case, protocol, renal, rules, cur)
     result.update({
         "method": "nomogram" if requested == "nomogram" else used,
+        "method_reason": method_reason(requested, used, estimates, failures, n_levels),
         "estimate": est.to_dict(cur, weight),
         "methods": {k: v.to_dict(cur, weight) for k, v in estimates.items() if k != used},
         "methods_unavailable": failures,

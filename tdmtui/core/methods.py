@@ -59,6 +59,7 @@ def run_all(ctx: MethodContext) -> tuple[dict[str, Estimate], dict[str, str]]:
         attempts.insert(2, ("least-squares", lambda: _least_squares(ctx)))
     else:
         why["least-squares"] = f"needs three or more usable levels; {len(ctx.usable)} available"
+    aside = set_aside(ctx)
     for name, fn in attempts:
         if rrt:
             why[name] = "not valid with renal replacement therapy (Cockcroft-Gault and two-level methods do not apply)"
@@ -67,11 +68,27 @@ def run_all(ctx: MethodContext) -> tuple[dict[str, Estimate], dict[str, str]]:
             est[name] = fn()
         except (NoEstimateError, ConvergenceError) as exc:
             why[name] = getattr(exc, "why", str(exc))
+            if aside and name in ("two-level", "sawchuk-zaske", "least-squares"):
+                why[name] += "; set aside: " + "; ".join(aside)
     b_est, b_why, flags = bayes_method.run(ctx)
     est.update(b_est)
     why.update(b_why)
     ctx.model_flags = flags
     return est, why
+
+
+def set_aside(ctx: MethodContext) -> list[str]:
+    """Each level on record that one-compartment methods set aside, named, with why."""
+    out = []
+    for lv in ctx.case.levels:
+        if lv.time > ctx.case.as_of:
+            out.append(f"levels[{lv.index}] ({lv.conc:g} mg/L) is after the as_of time")
+            continue
+        why = level_exclusion(ctx.case, lv, ctx.rules)
+        if why is not None:
+            out.append(f"levels[{lv.index}] ({'<' if lv.below_loq else '>' if lv.above_uloq else ''}{lv.conc:g} mg/L, "
+                       f"{ctx.case.clock.format(lv.time)}) {why[1]}")
+    return out
 
 
 def _least_squares(ctx: MethodContext) -> Estimate:
@@ -123,14 +140,11 @@ def compare(ctx: MethodContext, est: dict[str, Estimate], used: str) -> list[Ale
         gap, what = _gap(a, bay, ctx.current)
         if gap > limit:
             model = (bay.model or {}).get("name", "the population model")
-            secondary = (bay.model or {}).get("verification") != "paper"
             out.append(Alert("methods-disagree-bayesian", "caution", "levels",
                              f"two-level and Bayesian ({model}) differ on {what} by {gap:.0%} (over {limit:.0%}): "
-                             + ("trust the Bayesian estimate less: its model is verified from a secondary source only "
-                                "and its prior pulls towards the model's population"
-                                if secondary else
-                                "trust the two-level estimate less when a level time is uncertain or the levels are "
-                                "close together; trust the Bayesian one less when the patient is outside its population")))
+                             "trust the two-level estimate less when a level time is uncertain or the levels are "
+                             "close together; trust the Bayesian one less when the patient is outside its population "
+                             "or its model was checked against a secondary copy only"))
         if bay.params.is_two_compartment:
             from tdmtui.core.estimates import two_compartment_figures
 
@@ -153,23 +167,28 @@ def used_alerts(ctx: MethodContext, est: Estimate, estimates: dict[str, Estimate
     return list(ctx.model_flags or []) + bayes_method.residual_alerts(est, ctx.rules)
 
 
+def levels_for_estimates(ctx: MethodContext) -> list[Level]:
+    """Levels some method can use: in use, after the first dose, not during an intermittent infusion
+    (censored levels and levels in the distribution window included)."""
+    return bayes_method.levels_for(ctx, True)
+
+
 def _levels_unused(ctx: MethodContext, estimates: dict[str, Estimate]) -> list[Alert]:
-    """A caution when levels exist but the population estimate used ignores them."""
-    measured = [lv for lv in ctx.case.levels if lv.use and lv.time <= ctx.case.as_of]
+    """A caution when usable levels exist but the population estimate used ignores them."""
+    measured = levels_for_estimates(ctx)
     if not measured:
         return []
-    bay = estimates.get("bayesian")
-    if bay is None:
+    users = [name for name in ("two-level", "bayesian", "one-level") if name in estimates]
+    if not users:
         return [Alert("levels-unused", "caution", "method",
-                      f"{len(measured)} level(s) on record but the estimate used is the population one, which ignores "
-                      "them (no two-level solution and no Bayesian model for this case)")]
-    cur = bay.current(ctx.current)
+                      f"{len(measured)} usable level(s) on record but the estimate used is the population one, which "
+                      "ignores them: no method could use them here (see the methods not available)")]
+    other = estimates[users[0]]
+    cur = other.current(ctx.current)
     auc = f"; it gives AUC24 {cur['auc24_mg_h_per_l']:.0f} mg*h/L for the current regimen" if cur else ""
-    name = (bay.model or {}).get("name", "a population model")
     return [Alert("levels-unused", "caution", "method",
-                  f"{len(measured)} level(s) on record but the estimate used is the population one, which ignores them. "
-                  f"A Bayesian estimate on {name} uses them{auc}: set the method to bayesian to use it "
-                  "(its model is verified from a secondary source only, so auto does not choose it)")]
+                  f"{len(measured)} usable level(s) on record but the estimate used is the population one, which "
+                  f"ignores them. The {users[0]} estimate uses them{auc}: the automatic method would choose it")]
 
 
 def level_table(ctx: MethodContext) -> list[dict[str, Any]]:

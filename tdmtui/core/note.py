@@ -26,8 +26,9 @@ METHOD_TEXT = {
                      "Biopharm 1976;4:183-195, citation from memory)",
     "least-squares": "one-compartment model fitted by least squares to every usable level, all doses "
                      "superposed (standard infusion equations)",
-    "bayesian": "maximum a posteriori estimate on a published population model (log-normal "
-                "between-patient variability)",
+    "bayesian": "Bayesian estimate from the drug's published population models that fit the patient, "
+                "each weighted by how well it explains these levels (maximum a posteriori on each model, "
+                "log-normal between-patient variability; model averaging after Uster DW et al. 2021, from memory)",
     "population": "population values from CrCl and weight; no level used",
     "nomogram": "level read against the drug's nomogram; the estimate below is the automatic method's",
 }
@@ -141,6 +142,8 @@ def _estimates(outcome: Any) -> list[str]:
         lines += f.wrap("No estimate: no method applies to this case (see Warnings).")
     else:
         lines += f.wrap(f"Method: {method}: {METHOD_TEXT.get(method, method)}.")
+        if res.get("method_reason"):
+            lines += f.wrap(f"Why this method: {res['method_reason']}")
         if method == "nomogram":
             lines += f.wrap(f"Estimate beside it: {est.get('method')}: {METHOD_TEXT.get(est.get('method'), '')}.")
         if est.get("assumption"):
@@ -151,8 +154,12 @@ def _estimates(outcome: Any) -> list[str]:
         if model:
             lines += f.wrap(f"Model: {model.get('id')}: {model.get('citation', '')}")
             if model.get("seed") is not None:
-                lines += f.wrap(f"Fit: {model.get('optimiser', '-')}; objective {model.get('objective', 0):.4g}; "
+                obj = f"objective {model['objective']:.4g}; " if model.get("objective") is not None else ""
+                lines += f.wrap(f"Fit: {model.get('optimiser', '-')}; {obj}"
                                 f"intervals from {model.get('draws', '-')} draws, seed {model['seed']}.")
+            if model.get("weights"):
+                lines += f.wrap("Model weights (how well each model explains these levels): "
+                                + ", ".join(f"{k} {f.pct(v)}" for k, v in model["weights"].items()) + ".")
             if model.get("covariates"):
                 cov = ", ".join(f"{k} {v:.4g}" for k, v in model["covariates"].items())
                 lines += f.wrap(f"Covariates: {cov}.")

@@ -39,12 +39,15 @@ Each model is one TOML file in ``tdmtui/core/library/models/``. Keys:
   (only what the sources report), ``renal_replacement`` (accepted values),
   ``required_conditions``, ``excluded_conditions``.
 
-How ``auto`` treats them: a model verified only from a secondary source
-carries a caution and is never chosen by ``auto`` (issue 3): it is offered for
-an explicit choice only. :func:`auto_model` returns the first paper-verified
-model that is neither excluded nor out of population, else ``None`` and the
-reason. A drug without a model (amikacin here) has no Bayesian estimate:
-another drug's model is never borrowed.
+How ``auto`` treats them: every model that does not exclude the patient may
+be used, whatever its verification status; a model verified only from a
+secondary copy carries a caution worded for the clinician (the full technical
+caution stays in the audit record). Measured on one-level cases, leaving a
+drawn level unused did more harm than the transcription uncertainty it guarded
+against. :func:`auto_model` returns the first model by ``preference.rank`` that
+is neither excluded nor out of population, else the first not excluded, else
+``None`` and the reason. A drug without a model (amikacin here) has no Bayesian
+estimate: another drug's model is never borrowed.
 """
 
 from __future__ import annotations
@@ -306,7 +309,7 @@ def population_alerts(model: PopModel, cov: Covariates, x: dict[str, float]) -> 
     pop = model.data["population"]
     out: list[Alert] = []
     if model.status != "paper":
-        out.append(Alert("model-secondary-only", "caution", "", model.caution))
+        out.append(Alert("model-secondary-only", "caution", "", secondary_caution(model)))
     for key, var, fld, label, unit in _RANGES:
         rng = pop.get(key)
         if rng is None:
@@ -347,20 +350,32 @@ def offered_models(drug: str, cov: Covariates) -> list[Offer]:
     return [offer(m, cov) for m in _all_models() if m.drug == drug]
 
 
+def secondary_caution(model: PopModel) -> str:
+    """The clinician's wording of a secondary-copy model's caution (details in the audit record)."""
+    return (f"{model.name}: this model's numbers were checked against a secondary copy of the paper, not the "
+            "paper itself; treat the Bayesian estimate as a guide, compare it with the other methods shown, "
+            "and confirm with the next level")
+
+
+def _rank(o: Offer) -> int:
+    return int(o.model.data.get("preference", {}).get("rank", 99))
+
+
 def auto_model(drug: str, cov: Covariates) -> tuple[PopModel | None, str]:
     """The model ``auto`` would use, and why; ``(None, reason)`` when none qualifies.
 
-    Rule: the first (file-name order) model verified against the paper that is
-    neither excluded nor out of population for this patient.
+    Rule: by ``preference.rank``, the first model that is neither excluded nor
+    out of population for this patient, else the first that is not excluded.
+    Verification status does not bar a model (it adds a caution).
     """
-    offers = offered_models(drug, cov)
+    offers = sorted(offered_models(drug, cov), key=_rank)
     if not offers:
         return None, not_available_reason(drug)
-    for o in offers:
-        if o.model.status == "paper" and not o.excluded and not o.out_of_population:
-            return o.model, f"{o.model.name}: verified against the paper and built on patients like this one"
+    usable = [o for o in offers if not o.excluded]
+    inside = [o for o in usable if not o.out_of_population]
+    if inside:
+        return inside[0].model, f"{inside[0].model.name}: built on patients like this one"
+    if usable:
+        return usable[0].model, f"{usable[0].model.name}: the patient is outside every model's population; nearest by rank"
     names = ", ".join(o.model.name for o in offers)
-    if all(o.model.status != "paper" for o in offers):
-        return None, (f"no {drug} model in the library is verified against its paper ({names} are verified "
-                      "from a secondary source only): they can be chosen explicitly, with a caution, but not by auto")
-    return None, f"no paper-verified {drug} model fits this patient's population ({names})"
+    return None, f"every {drug} model in the library excludes this patient ({names})"

@@ -53,6 +53,8 @@ def summary_text(result: dict[str, Any]) -> str:
     if est:
         lines.append("")
         lines += _wrap(f"Method used: {result['method']}" + (f" - {est.get('assumption')}" if est.get("assumption") else ""))
+        if result.get("method_reason"):
+            lines += _wrap(f"Why: {result['method_reason']}")
         lines.append(f"{'method':<19}{'ke /h':>8}{'t1/2 h':>7}{'Vd L':>7}{'L/kg':>6}{'CL L/h':>7}{'AUC24':>8}{'peak':>7}{'trough':>7}")
         lines.append(estimate_line(short_name(result["method"], result["drug"], est), est))
         for name, e in result.get("methods", {}).items():

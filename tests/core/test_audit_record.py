@@ -57,8 +57,8 @@ def test_record_names_versions_input_and_parameters(name, tmp_path, capsys):
 def test_record_of_a_bayesian_estimate_has_model_seed_and_etas(tmp_path, capsys):
     rec, _ = record_of("vanc-trough-only", tmp_path)
     capsys.readouterr()
-    candidates = [rec["estimate"]] + [e for k, e in rec.get("methods", {}).items() if k.startswith("bayesian")]
-    bayes = [e for e in candidates if e and e.get("method") == "bayesian"]
+    candidates = [e for k, e in rec.get("methods", {}).items() if k.startswith("bayesian:")]
+    bayes = [e for e in candidates if e and e.get("method") == "bayesian" and e.get("weight")]
     assert bayes, "vanc-trough-only must carry a Bayesian estimate"
     e = bayes[0]
     model = e["model"]
@@ -73,3 +73,20 @@ def test_record_of_a_bayesian_estimate_has_model_seed_and_etas(tmp_path, capsys)
     assert e["cl_l_per_h"] == pytest.approx(typical["cl_l_per_h"] * math.exp(etas["cl"]), rel=1e-9)
     if "v1" in etas and not typical.get("v2_l"):
         assert e["vd_l"] == pytest.approx(typical["v1_l"] * math.exp(etas["v1"]), rel=1e-9)
+
+
+def test_record_of_the_model_average_gives_back_its_estimate(tmp_path, capsys):
+    # The record holds each model's weight and estimate; the averaged CL is their weighted
+    # geometric mean (the averaging rule documented in tdmtui/core/averaging.py), and the
+    # weights of the models that take part sum to one.
+    rec, _ = record_of("vanc-trough-only", tmp_path)
+    capsys.readouterr()
+    est = rec["estimate"]
+    assert est["model"]["id"] == "model-average"
+    weights = est["model"]["weights"]
+    assert sum(weights.values()) == pytest.approx(1.0, abs=1e-12) and len(weights) >= 2
+    members = {k.split(":", 1)[1]: e for k, e in rec["methods"].items() if k.startswith("bayesian:")}
+    log_cl = sum(w * math.log(members[mid]["cl_l_per_h"]) for mid, w in weights.items())
+    assert est["cl_l_per_h"] == pytest.approx(math.exp(log_cl), rel=1e-9)
+    for mid, w in weights.items():
+        assert members[mid]["weight"] == pytest.approx(w, rel=1e-12)

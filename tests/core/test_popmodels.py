@@ -156,10 +156,21 @@ def test_amikacin_not_available_and_never_borrowed():
     assert model is None and "not available for amikacin" in why
 
 
-def test_auto_never_picks_a_secondary_only_model():
-    for drug in ("vancomycin", "gentamicin", "tobramycin"):
+def test_auto_picks_a_model_that_fits_the_patient_whatever_its_verification():
+    # Thomson 2009 (rank 1) was built on general adult TDM patients; Buelga 2005 only on
+    # haematological malignancy (pk-sources.md 3.4.1-3.4.2): a plain patient gets Thomson,
+    # with a caution worded for the clinician, not the library's transcription notes.
+    expected = {"vancomycin": "vancomycin-thomson-2009", "gentamicin": "gentamicin-staatz-2006",
+                "tobramycin": "tobramycin-conil-2011"}
+    for drug, mid in expected.items():
         model, why = auto_model(drug, patient(60.0, 70.0, 1.0))
-        assert model is None and "secondary source" in why
+        assert model is not None and model.id == mid, why
+        (o,) = [o for o in offered_models(drug, patient(60.0, 70.0, 1.0)) if o.model.id == mid]
+        (caution,) = [a.message for a in o.alerts if a.code == "model-secondary-only"]
+        assert "secondary copy of the paper" in caution and "Table" not in caution
+    # on haemodialysis only Goti 2018 accepts the patient (pk-sources.md 3.4.3)
+    model, _ = auto_model("vancomycin", patient(60.0, 70.0, 1.0, rrt="ihd"))
+    assert model is not None and model.id == "vancomycin-goti-2018"
 
 
 def test_out_of_population_and_exclusion_flags():
