@@ -9,6 +9,7 @@ from __future__ import annotations
 import pkgutil
 import subprocess
 import sys
+from pathlib import Path
 
 import pytest
 
@@ -42,3 +43,23 @@ def test_app_module_import_needs_no_scipy():
     loaded = _loaded_after("import tdmtui.ui.app")
     assert "scipy" not in loaded
     assert "pint" not in loaded
+
+
+def test_compute_of_every_sample_case_needs_no_scipy():
+    # Two-level, least-squares, Bayesian (censored levels too) and population computes use the project's own
+    # solvers (tdmtui.core.solvers); scipy is imported only by the MAP's second-start fallback.
+    samples = Path(__file__).resolve().parents[1] / "sample_cases"
+    code = (
+        "import pathlib\n"
+        "from tdmtui.core.case import load_case\n"
+        "from tdmtui.core.compute import compute\n"
+        "from tdmtui.core.errors import TdmError\n"
+        f"for p in sorted(pathlib.Path({str(samples)!r}).glob('*.json')):\n"
+        "    for m in ('auto', 'two-level', 'least-squares', 'bayesian', 'population'):\n"
+        "        try:\n"
+        "            compute(load_case(p), None, m)\n"
+        "        except TdmError:\n"
+        "            pass\n"
+    )
+    loaded = _loaded_after(code)
+    assert "scipy" not in {m.split(".")[0] for m in loaded}

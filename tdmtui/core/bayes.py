@@ -132,7 +132,7 @@ class Posterior:
             return ofv + np.sum((o.conc - pred) ** 2 / var + np.log(var), 1)
         q = o.quantified
         ofv = ofv + np.sum((o.conc[q] - pred[:, q]) ** 2 / var[:, q] + np.log(var[:, q]), 1)
-        from scipy.special import log_ndtr
+        from tdmtui.core.solvers import log_ndtr
 
         z = (o.conc - pred) / np.sqrt(var)  # Beal M3: P(below LOQ) = Phi(z), P(above ULOQ) = Phi(-z)
         return ofv - 2.0 * np.sum(log_ndtr(z[:, o.below_loq]), 1) - 2.0 * np.sum(log_ndtr(-z[:, o.above_uloq]), 1)
@@ -260,14 +260,14 @@ def map_fit(model: PopModel, covariates: Covariates, doses: DoseArrays, observat
         ConvergenceError: the optimiser failed from both starts, the estimate
             lies on the +-5 SD bound, or the objective is not at a minimum.
     """
-    from scipy.optimize import minimize
-
     typical = model.typical(covariates)
     post = Posterior(model, typical, doses, observations)
     sd = np.sqrt(np.diag(model.omega))
     bound = BOUND_SD * sd
     found, message = _newton(post, np.zeros(sd.size), bound), "Newton from eta = 0"
     if found is None:  # second start: L-BFGS-B from the best point of a +-2 SD grid
+        from scipy.optimize import minimize  # only here: a bounded quasi-Newton we should not write
+
         axes = np.meshgrid(*[np.array([-2.0, 0.0, 2.0]) * s for s in sd], indexing="ij")
         grid = np.stack([a.reshape(-1) for a in axes], 1)
         res = minimize(lambda e: post.derivatives(e)[:2], grid[int(np.argmin(post(grid)))], jac=True,

@@ -6,12 +6,16 @@ history (pk-sources.md 2.2), evaluated by the batch closed form of
 ``w_j = 1 / y_j^2`` (``weighting="proportional"``: each level counts by its
 relative error, for an assay whose error grows with the concentration) or
 ``w_j = 1`` (``"uniform"``). The concentration is proportional to 1/V, so for
-each ke on a grid the best V is exact (weighted linear least squares); the
-best grid point starts scipy.optimize.least_squares on (ln ke, ln V). An
-answer on the search bounds, or a failed solve, raises ConvergenceError.
+each ke on a grid the best V is exact (weighted linear least squares), so the
+fit is a search over ke alone: the best grid point brackets the minimum and a
+golden-section search refines ln ke (the tests check the answer against
+scipy.optimize.least_squares on (ln ke, ln V)). An answer on the search
+bounds raises ConvergenceError.
 """
 
 from __future__ import annotations
+
+import math
 
 import numpy as np
 
@@ -19,6 +23,7 @@ from tdmtui.core.bayes import Observations
 from tdmtui.core.models.batch import Design, batch_concentration
 from tdmtui.core.errors import ConvergenceError, NoEstimateError
 from tdmtui.core.models import DoseArrays
+from tdmtui.core.solvers import golden_min
 
 METHOD = "least-squares"
 MIN_LEVELS = 3
@@ -45,8 +50,6 @@ def least_squares_fit(doses: DoseArrays, observations: Observations,
         NoEstimateError: fewer than three usable quantified levels.
         ConvergenceError: the solver fails or the answer lies on a search bound.
     """
-    from scipy.optimize import least_squares
-
     if weighting not in ("proportional", "uniform"):
         raise ValueError(f"unknown weighting {weighting!r}")
     keep = usable(doses, observations)
@@ -66,17 +69,24 @@ def least_squares_fit(doses: DoseArrays, observations: Observations,
     inv_v = np.maximum(u @ (y * sw) / np.maximum(np.sum(u * u, 1), 1e-300), 1e-12)  # exact best 1/V per ke
     sse = np.sum((y * sw - u * inv_v[:, None]) ** 2, 1)
     best = int(np.argmin(sse))
-    x0 = np.log([grid[best], np.clip(1.0 / inv_v[best], *V_RANGE)])
 
-    def residuals(x: np.ndarray) -> np.ndarray:
-        return sw * (y - unit(np.array([np.exp(x[0])]))[0] / np.exp(x[1]))
+    def profile(x: float) -> float:  # SSE at ke = e^x with its exact best 1/V
+        return _profile(unit(np.array([math.exp(x)]))[0] * sw, y * sw)[0]
 
-    lo, hi = np.log([KE_RANGE[0], V_RANGE[0]]), np.log([KE_RANGE[1], V_RANGE[1]])
-    res = least_squares(residuals, x0, bounds=(lo, hi), jac="3-point", x_scale=1.0,
-                        ftol=1e-14, xtol=1e-14, gtol=1e-14, max_nfev=2000)
-    on_bound = bool(np.any(np.isclose(res.x, lo, rtol=0, atol=1e-6) | np.isclose(res.x, hi, rtol=0, atol=1e-6)))
-    if res.status <= 0 or on_bound or not np.all(np.isfinite(res.x)):
-        why = "the best fit lies on a search bound (levels inconsistent with the doses?)" if on_bound else res.message
-        raise ConvergenceError(f"{METHOD}: no estimate ({why}); check level and dose times, amounts and units")
-    ke, v = (float(np.exp(x)) for x in res.x)
+    x_ke, _ = golden_min(profile, math.log(grid[max(best - 1, 0)]), math.log(grid[min(best + 1, grid.size - 1)]),
+                         xtol=1e-12)
+    ke = math.exp(x_ke)
+    inv_v = _profile(unit(np.array([ke]))[0] * sw, y * sw)[1]
+    v = 1.0 / inv_v if inv_v > 0 else math.inf
+    inside = all(math.log(lo) + 1e-6 < math.log(x) < math.log(hi) - 1e-6
+                 for x, (lo, hi) in ((ke, KE_RANGE), (v, V_RANGE)))
+    if not inside:
+        raise ConvergenceError(f"{METHOD}: no estimate (the best fit lies on a search bound (levels inconsistent "
+                               "with the doses?)); check level and dose times, amounts and units")
     return ke, v
+
+
+def _profile(u: np.ndarray, ys: np.ndarray) -> tuple[float, float]:
+    """(weighted SSE, best 1/V) for weighted unit-volume predictions ``u`` against weighted levels ``ys``."""
+    inv = max(float(u @ ys) / max(float(u @ u), 1e-300), 1e-12)
+    return float(np.sum((ys - u * inv) ** 2)), inv

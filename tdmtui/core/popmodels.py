@@ -244,6 +244,14 @@ def _all_models() -> tuple[PopModel, ...]:
     return tuple(_build(d) for d in model_files())
 
 
+@lru_cache(maxsize=None)
+def _drug_models(drug: str) -> tuple[PopModel, ...]:
+    """One drug's models, parsing only that drug's files."""
+    from tdmtui.core.library import model_files
+
+    return tuple(m for m in (_build(d) for d in model_files(drug)) if m.drug == drug)
+
+
 def all_models() -> tuple[PopModel, ...]:
     """Every model in the library, in file-name order."""
     return _all_models()
@@ -251,7 +259,7 @@ def all_models() -> tuple[PopModel, ...]:
 
 def get_model(model_id: str) -> PopModel:
     """A model by id. Raises InputError naming ``model`` when unknown."""
-    for m in _all_models():
+    for m in _drug_models(model_id.split("-")[0]):
         if m.id == model_id:
             return m
     raise InputError("model", f"no population model {model_id!r} in the library "
@@ -270,7 +278,7 @@ def models_for(drug: str) -> list[PopModel]:
     Raises:
         NoEstimateError: (method ``bayesian``) when the drug has none, e.g. amikacin.
     """
-    found = [m for m in _all_models() if m.drug == drug]
+    found = list(_drug_models(drug))
     if not found:
         raise NoEstimateError("bayesian", not_available_reason(drug))
     return found
@@ -347,7 +355,7 @@ def offer(model: PopModel, cov: Covariates) -> Offer:
 
 def offered_models(drug: str, cov: Covariates) -> list[Offer]:
     """Every model for a drug with its out-of-population flags ([] when the drug has none)."""
-    return [offer(m, cov) for m in _all_models() if m.drug == drug]
+    return [offer(m, cov) for m in _drug_models(drug)]
 
 
 def secondary_caution(model: PopModel) -> str:

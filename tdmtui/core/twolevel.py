@@ -82,13 +82,13 @@ def two_level(doses: DoseArrays, levels: list[Level], clock_fmt=None) -> TwoLeve
     if roots.size > 1:
         raise NoEstimateError(m, "several elimination rates fit these two levels equally well; "
                                  "draw a level after the last dose, or use the Bayesian method")
-    from scipy.optimize import brentq
+    from tdmtui.core.solvers import brent_root
 
     def gfun(k: float) -> float:
         return float(math.log(onecomp.concentration(k, 1.0, doses, ta)) - math.log(onecomp.concentration(k, 1.0, doses, tb)) - target)
 
     i = int(roots[0])
-    ke = float(brentq(gfun, KE_GRID[i], KE_GRID[i + 1], xtol=1e-14, rtol=1e-13))
+    ke = brent_root(gfun, float(KE_GRID[i]), float(KE_GRID[i + 1]), xtol=1e-14, rtol=1e-13)
     f1 = float(onecomp.concentration(ke, 1.0, doses, ta))
     v = f1 / a.conc
     fmt = clock_fmt or (lambda h: f"{h:.2f} h")

@@ -50,3 +50,19 @@ def test_bad_protocol_names_itself(tmp_path):
     with pytest.raises(InputError) as exc:
         load_protocol(p)
     assert exc.value.field == "protocol.nonsense"
+
+
+def test_model_files_are_named_by_id_and_drug_so_one_drug_parses_only_its_own():
+    # Convention (DEVELOPERS.md): models/<id>.toml with id = "<drug>-...": a case reads only its drug's files.
+    from importlib import resources
+
+    import tdmtui.core.library as lib
+
+    root = resources.files(lib.__name__).joinpath("models")
+    names = sorted(p.name for p in root.iterdir() if p.name.endswith(".toml"))
+    for data in lib.model_files():
+        assert f"{data['id']}.toml" in names
+        assert data["id"].startswith(f"{data['drug']}-")
+    assert {d["id"] for d in lib.model_files("vancomycin")} == {n[:-5] for n in names if n.startswith("vancomycin-")}
+    gent = lib.model_files("gentamicin")
+    assert gent and all(d["drug"] == "gentamicin" for d in gent)

@@ -78,11 +78,16 @@ def library_digest() -> str:
     return h.hexdigest()
 
 
-def model_files() -> list[dict[str, Any]]:
-    """Every population model file, parsed (see models/*.toml)."""
+def model_files(drug: str | None = None) -> list[dict[str, Any]]:
+    """Population model files, parsed (see models/*.toml): every one, or only one drug's.
+
+    A model file is named ``<drug>-<id rest>.toml`` after its ``id`` (the library tests check it), so
+    one drug's models are found by name and no other file is parsed.
+    """
     root = resources.files(__package__).joinpath("models")
+    prefix = "" if drug is None else f"{drug}-"
     return [tomllib.loads(p.read_text("utf-8")) for p in sorted(root.iterdir(), key=lambda p: p.name)
-            if p.name.endswith(".toml")]
+            if p.name.endswith(".toml") and p.name.startswith(prefix)]
 
 
 @dataclass

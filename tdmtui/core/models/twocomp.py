@@ -114,7 +114,7 @@ def time_to_fall(
     Between dose events C(t0 + s) = K + a e^(-alpha s) + b e^(-beta s), which
     has at most one turning point (where alpha a e^(-alpha s) = -beta b
     e^(-beta s)); each monotone piece is searched with a bracketed root
-    finder (Brent's method, scipy.optimize.brentq). Doses that start later
+    finder (Brent's method, :func:`tdmtui.core.solvers.brent_root`). Doses that start later
     are honoured.
 
     Returns:
@@ -123,7 +123,7 @@ def time_to_fall(
     Raises:
         ValueError: non-positive parameters, negative or NaN level, NaN t0.
     """
-    from scipy.optimize import brentq
+    from tdmtui.core.solvers import brent_root
 
     alpha, beta, wa, wb = macro_constants(cl, v1, q, v2)
     check_doses(doses)
@@ -156,5 +156,5 @@ def time_to_fall(
             cuts.append(length)
         for lo, hi in zip(cuts[:-1], cuts[1:]):
             if excess(hi) <= 0.0:
-                return float(start + brentq(excess, lo, hi, xtol=1e-12, rtol=4.0 * np.finfo(float).eps))
+                return float(start + brent_root(excess, lo, hi, xtol=1e-12, rtol=4.0 * np.finfo(float).eps))
     return None
