@@ -37,15 +37,26 @@ def _compute(args: argparse.Namespace) -> Any:
     return compute(case, _protocol(args.protocol), args.method)
 
 
-def cmd_compute(args: argparse.Namespace) -> int:
-    outcome = _compute(args)
-    text = json.dumps(outcome.result, indent=2, ensure_ascii=False, allow_nan=False) + "\n"
-    if args.record:
-        from tdmtui.core.case import write_atomic
+def _write_file(path: str | Path, text: str, option: str) -> None:
+    """Write an output file (atomic, 0600); an unwritable place is an error naming the option."""
+    from tdmtui.core.case import write_atomic
+    from tdmtui.core.errors import InputError
 
+    try:
+        write_atomic(path, text.encode("utf-8"))
+    except OSError as exc:
+        raise InputError(option, f"cannot write {path}: {exc.strerror or exc}") from exc
+
+
+def cmd_compute(args: argparse.Namespace) -> int:
+    from tdmtui.core.textsafe import json_safe
+
+    outcome = _compute(args)
+    text = json_safe(json.dumps(outcome.result, indent=2, ensure_ascii=False, allow_nan=False)) + "\n"
+    if args.record:
         record = Path(args.case).with_suffix(".result.json")
-        write_atomic(record, text.encode("utf-8"))
-        print(f"audit record written to {record}", file=sys.stderr)
+        _write_file(record, text, "--record")
+        _say(f"audit record written to {record}")
     if args.json:
         sys.stdout.write(text)
     else:
@@ -61,13 +72,18 @@ def cmd_note(args: argparse.Namespace) -> int:
     outcome = _compute(args)
     text = render_note(outcome)
     if args.out:
-        from tdmtui.core.case import write_atomic
-
-        write_atomic(args.out, text.encode("utf-8"))
-        print(f"note written to {args.out}", file=sys.stderr)
+        _write_file(args.out, text, "--out")
+        _say(f"note written to {args.out}")
     else:
         sys.stdout.write(text)
     return 0
+
+
+def _say(message: str) -> None:
+    """One line on stderr, free text in it neutralised (a case's key names and values reach here)."""
+    from tdmtui.core.textsafe import neutralise
+
+    print(neutralise(message), file=sys.stderr)
 
 
 def _sub_parser(name: str) -> argparse.ArgumentParser:
@@ -112,18 +128,21 @@ def main(argv: list[str] | None = None) -> int:
 
         return run_app(args.case, args.protocol, mouse=args.mouse)
     except InputError as exc:
-        print(f"{exc.field}: {exc.message}" if exc.field else exc.message, file=sys.stderr)
+        _say(f"{exc.field}: {exc.message}" if exc.field else exc.message)
         return 2
     except NoEstimateError as exc:
-        print(f"no estimate by {exc.method}: {exc.why}", file=sys.stderr)
+        _say(f"no estimate by {exc.method}: {exc.why}")
         return 3
+    except UnicodeEncodeError as exc:
+        _say(f"this terminal's character set ({exc.encoding}) cannot show the output; "
+             "use a UTF-8 locale (e.g. LANG=C.UTF-8), or tdmtui note CASE --out FILE")
+        return 1
     except KeyboardInterrupt:
         return 130
     except SystemExit as exc:  # argparse usage errors
         return int(exc.code or 0) if isinstance(exc.code, int) else 2
     except Exception as exc:  # noqa: BLE001 - never a traceback for the user
-        print(f"internal error ({type(exc).__name__}: {exc}); please report it with the case file (see SAFETY.md)",
-              file=sys.stderr)
+        _say(f"internal error ({type(exc).__name__}: {exc}); please report it with the case file (see SAFETY.md)")
         return 1
 
 

@@ -20,6 +20,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any, Iterator
 
+from tdmtui.core.bounds import check_span, check_tree, decode_json, read_case_bytes
 from tdmtui.core.clock import Clock, clock_for
 from tdmtui.core.errors import InputError
 from tdmtui.core.library import DRUGS, Rules
@@ -332,6 +333,7 @@ def parse_case(raw: Any, data: bytes | None = None) -> Case:
         InputError: naming the field.
     """
     raw = _obj(raw, "(case)")
+    check_tree(raw)
     fmt = _need(raw, "format", "")
     if fmt != FORMAT:
         raise InputError("format", f"expected {FORMAT!r}, got {fmt!r}")
@@ -361,6 +363,9 @@ def parse_case(raw: Any, data: bytes | None = None) -> Case:
         if not events:
             raise InputError("as_of", "a case with no doses, levels or dated SCr needs an as_of time")
         as_of, given = max(events), False
+    check_span([(f"doses[{d.index}].start", d.start) for d in doses] + [(f"levels[{lv.index}].time", lv.time) for lv in levels]
+               + [(s.field.removesuffix(".value") + ".time", s.time) for s in patient.scr if s.time is not None]
+               + [("as_of", as_of)])
     digest = hashlib.sha256(data if data is not None else canonical_bytes(raw)).hexdigest()
     return Case(drug, label, as_of, given, clock, patient, doses, levels, schedule, target, method,
                 raw, digest, data is not None)
@@ -372,18 +377,8 @@ def load_case(path: str | Path) -> Case:
     Raises:
         InputError: ``(file)`` when unreadable or not JSON, else naming the field.
     """
-    p = Path(path)
-    try:
-        data = p.read_bytes()
-    except OSError as exc:
-        raise InputError("(file)", f"cannot read {p}: {exc.strerror}") from exc
-    try:
-        raw = json.loads(data.decode("utf-8"))
-    except UnicodeDecodeError as exc:
-        raise InputError("(file)", f"{p} is not UTF-8 text") from exc
-    except json.JSONDecodeError as exc:
-        raise InputError("(file)", f"{p} is not valid JSON (line {exc.lineno}, column {exc.colno}: {exc.msg})") from exc
-    return parse_case(raw, data)
+    data = read_case_bytes(path)
+    return parse_case(decode_json(data, str(path)), data)
 
 
 def write_atomic(path: str | Path, data: bytes, mode: int = 0o600) -> None:

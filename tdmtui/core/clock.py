@@ -18,6 +18,9 @@ from functools import lru_cache
 
 from tdmtui.core.errors import InputError
 
+#: Years a case time may carry (tdmtui.core.bounds documents the limits).
+YEARS = (1900, 2199)
+
 _EPOCH = datetime(1970, 1, 1, tzinfo=timezone.utc)
 _PATTERN = re.compile(
     r"(\d{4})-(\d{2})-(\d{2})T(\d{2}):(\d{2})(?::(\d{2}))?(Z|[+-]\d{2}:\d{2})?"
@@ -50,6 +53,8 @@ def _parse_parts(text: object, field: str) -> tuple[datetime, str | None]:
     if not m:
         raise InputError(field, f"{text!r} is not a date-time YYYY-MM-DDTHH:MM[:SS][offset]")
     y, mo, d, hh, mm, ss, off = m.groups()
+    if not YEARS[0] <= int(y) <= YEARS[1]:
+        raise InputError(field, f"{text!r}: the year must be from {YEARS[0]} to {YEARS[1]}")
     try:
         naive = datetime(int(y), int(mo), int(d), int(hh), int(mm), int(ss or 0))
     except ValueError as exc:

@@ -16,6 +16,7 @@ from typing import Any
 
 from tdmtui.core import notefmt as f
 from tdmtui.core.safety import NOTE_LINE
+from tdmtui.core.textsafe import neutralise
 
 #: Method descriptions and their literature source (pk-sources.md 2.2-2.7).
 METHOD_TEXT = {
@@ -274,7 +275,7 @@ def _record(outcome: Any) -> list[str]:
     else:
         lines.append("Local protocol: none (drug library values only).")
     lines.append(f"As of: {f.when(res.get('as_of'))}" + ("" if case.as_of_given else " (latest event; none given)")
-                 + (f", time zone {case.raw['timezone']}" if case.raw.get("timezone") else "") + ".")
+                 + (f", time zone {case.clock.zone_name}" if case.clock.style == "zone" else "") + ".")
     saved = res.get("input_saved", case.saved)
     lines.append("Case file sha256:" if saved else "Case sha256 (UNSAVED: digest of its canonical form):")
     lines.append(f"  {res.get('input_sha256')}")
@@ -305,4 +306,5 @@ def render_note(outcome: Any, chosen: dict[str, Any] | None = None) -> str:
     lines += _patient(outcome) + _doses(outcome) + _levels(outcome) + _estimates(outcome)
     lines += _regimen(outcome, chosen) + _monitoring(outcome) + _warnings(res)
     lines += [""] + f.wrap(NOTE_LINE, "", "") + [""] + list(SIGNATURE) + _record(outcome)
-    return "\n".join(f.fit(lines)) + "\n"
+    # the output boundary: every line, free text included, loses its control characters here
+    return "\n".join(f.fit([neutralise(line) for line in lines])) + "\n"

@@ -6,6 +6,7 @@ import textwrap
 from typing import Any
 
 from tdmtui.core.safety import NOTE_LINE
+from tdmtui.core.textsafe import neutralise
 
 WIDTH = 80
 
@@ -101,4 +102,5 @@ def summary_text(result: dict[str, Any]) -> str:
             lines += _wrap(f"{w['severity'].upper()} [{w['code']}] {w['field']}: {w['message']}", "  ")
     lines.append("")
     lines += _wrap(NOTE_LINE)
-    return "\n".join(lines) + "\n"
+    # the output boundary: every line, free text included, loses its control characters here
+    return "\n".join(neutralise(line) for line in lines) + "\n"

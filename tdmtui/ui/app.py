@@ -35,6 +35,7 @@ from tdmtui.ui.sections.levels import LevelsSection
 from tdmtui.ui.sections.note import NoteSection
 from tdmtui.ui.sections.patient import PatientSection, derived_text
 from tdmtui.ui.sections.plan import PlanSection
+from tdmtui.ui.textguard import install as guard_terminal
 
 SECTIONS = (("patient", "Patient"), ("doses", "Doses"), ("levels", "Levels"),
             ("estimate", "Estimate"), ("plan", "Plan"), ("note", "Note"))
@@ -72,6 +73,7 @@ class TdmApp(ComputeMixin, FilingMixin, App[int]):
     def __init__(self, path: str | None = None, protocol_path: str | None = None, *,
                  state: Path | None = None, first_run_notice: bool = False) -> None:
         super().__init__()
+        guard_terminal()  # no control character in any free text reaches the terminal
         self.first_run_notice = first_run_notice
         self.case_path = path
         self.protocol_path = protocol_path

@@ -11,9 +11,15 @@ from __future__ import annotations
 from pathlib import Path
 
 from tdmtui.core.case import write_atomic
+from tdmtui.core.textsafe import neutralise_block
 
 COPY_CAVEAT = ("Sent to your clipboard by OSC 52. Some terminals and tmux (unless set-clipboard is on) "
                "block it: if nothing pastes, press w to write the note to a file.")
+
+
+def clipboard_text(text: str) -> str:
+    """What OSC 52 sends: the note with every control character shown, never obeyed."""
+    return neutralise_block(text)
 
 
 def default_note_path(case_path: str | None) -> str:
@@ -27,5 +33,5 @@ def default_note_path(case_path: str | None) -> str:
 def write_note(path: str, text: str) -> Path:
     """Write the note atomically with mode 0600; returns the path written."""
     p = Path(path).expanduser()
-    write_atomic(p, text.encode("utf-8"))
+    write_atomic(p, neutralise_block(text).encode("utf-8"))
     return p

@@ -127,12 +127,12 @@ class FilingMixin:
     # ---------------------------------------------------------------- note
     def action_copy_note(self) -> None:
         """Copy the note by OSC 52, saying plainly it may be blocked."""
-        from tdmtui.ui.clipboard import COPY_CAVEAT
+        from tdmtui.ui.clipboard import COPY_CAVEAT, clipboard_text
 
         if not self.note:
             self.notify("No note yet: the case does not compute.", severity="warning")
             return
-        self.copy_to_clipboard(self.note)
+        self.copy_to_clipboard(clipboard_text(self.note))
         self.notify(COPY_CAVEAT, timeout=8, markup=False)
 
     def action_write_note(self) -> None:

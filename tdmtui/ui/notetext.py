@@ -5,6 +5,7 @@ from __future__ import annotations
 from typing import Any
 
 from tdmtui.ui import formatting as fm
+from tdmtui.core.textsafe import neutralise_block
 from tdmtui.ui.safety import caution_line
 
 
@@ -36,7 +37,7 @@ def note_text(outcome: Any, chosen: dict[str, Any] | None = None) -> str:
         text = text.rstrip("\n") + "\n\n" + extra + "\n"
     if caution_line() not in text:
         text = text.rstrip("\n") + "\n\n" + caution_line() + "\n"
-    return text
+    return neutralise_block(text)
 
 
 def plain_summary(result: dict[str, Any]) -> str:

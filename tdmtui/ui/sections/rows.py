@@ -17,6 +17,7 @@ from textual.widgets import DataTable, Input, Label
 
 from tdmtui.ui.entry import Entry, anchor_for, case_clock, infusion_entry, parsed_time, quantity_entry, time_entry
 from tdmtui.ui.messages import CaseEdited
+from tdmtui.ui.textguard import plain
 from tdmtui.ui.widgets.cycler import Cycler
 from tdmtui.ui.widgets.form import FieldRow, FieldSpec
 
@@ -81,7 +82,7 @@ class RowsSection(Vertical):
         with table.prevent(DataTable.RowHighlighted):
             table.clear()
             for i, row in enumerate(rows):
-                table.add_row(*self.cells(i, row if isinstance(row, dict) else {}), key=str(i))
+                table.add_row(*map(plain, self.cells(i, row if isinstance(row, dict) else {})), key=str(i))
             if rows:
                 self.current = min(keep if keep is not None else self.current, len(rows) - 1)
                 table.move_cursor(row=self.current)
@@ -150,7 +151,7 @@ class RowsSection(Vertical):
             self.doc.insert_rows(self.NAME, 0, [self.new_row()])
             self.current = 0
             table = self.query_one(DataTable)
-            table.add_row(*self.cells(0, self.rows()[0]), key="0")
+            table.add_row(*map(plain, self.cells(0, self.rows()[0])), key="0")
             self.query_one(f"#{self.NAME}-form-title", Label).update(f"{self.TITLE} row 1 of 1  (Esc table)")
         key = widget_id[len(self.NAME) + 1:].removesuffix("-input")
         row = self.rows()[self.current]
