@@ -11,7 +11,6 @@ from __future__ import annotations
 
 import copy
 import hashlib
-import json
 import os
 from dataclasses import dataclass
 from pathlib import Path
@@ -79,8 +78,13 @@ class CaseDocument:
         Raises:
             OSError: unreadable. ValueError: not JSON or not an object.
         """
-        data = Path(path).read_bytes()
-        raw = json.loads(data.decode("utf-8"))
+        from tdmtui.core.bounds import decode_json, read_case_bytes
+        from tdmtui.core.errors import InputError
+
+        try:  # a regular file of bounded size, no key twice (a FIFO or device never blocks the app)
+            raw = decode_json(read_case_bytes(path), str(path))
+        except InputError as exc:
+            raise ValueError(f"{exc.field}: {exc.message}" if exc.field != "(file)" else exc.message) from None
         if not isinstance(raw, dict):
             raise ValueError(f"{path} does not hold a case object")
         return cls(raw, path)
