@@ -51,7 +51,8 @@ def run_all(ctx: MethodContext) -> tuple[dict[str, Estimate], dict[str, str]]:
     attempts: list[tuple[str, Any]] = [
         ("two-level", lambda: _from_twolevel(twolevel.two_level(ctx.history, ctx.usable, ctx.case.clock.format))),
         ("sawchuk-zaske", lambda: _from_twolevel(twolevel.sawchuk_zaske(
-            doses_before, ctx.usable, ctx.current.interval_h if ctx.current else None))),
+            doses_before, ctx.usable, ctx.current.interval_h if ctx.current else None,
+            float(ctx.rules.value("monitoring.steady_state_within_rel"))))),
         ("population", lambda: textbook_population(ctx.rules, ctx.renal.crcl_ml_min, ctx.case.patient.weight,
                                                    ctx.renal.dosing_weight_kg)),
     ]

@@ -28,7 +28,8 @@ def _rerun(ctx: Any, est: Estimate, case: Any) -> Estimate | None:
             r = twolevel.two_level(sub.history, sub.usable)
         elif est.method == "sawchuk-zaske":
             doses = [d for d in case.doses if d.start <= case.as_of]
-            r = twolevel.sawchuk_zaske(doses, sub.usable, ctx.current.interval_h if ctx.current else None)
+            r = twolevel.sawchuk_zaske(doses, sub.usable, ctx.current.interval_h if ctx.current else None,
+                                       float(ctx.rules.value("monitoring.steady_state_within_rel")))
         elif est.method == "bayesian" and est.model:
             return bayes_method.refit(sub, est.model["id"])
         else:

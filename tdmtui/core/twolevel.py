@@ -11,8 +11,17 @@ then V = f(t1; ke) / C1.
 ke from the log-linear slope of two post-distribution levels after one dose,
 Cmax back-extrapolated to the end of infusion, V from the infusion equation
 with a measured pre-dose level (non-steady-state variant) or, without one,
-the steady-state assumption Cmin = Cmax e^(-ke (tau - t')). A pre-dose trough
-and a post-dose peak around one dose use the steady-state assumption for ke.
+the pre-dose concentration the dose history leaves at the start of that dose.
+The steady-state assumption Cmin = Cmax e^(-ke (tau - t')) is used only when
+the history shows the course at steady state (the accumulated pre-dose level
+within ``monitoring.steady_state_within_rel`` of its steady-state value), and
+the working says so; otherwise the accumulated pre-dose concentration is used
+(pk-sources.md 2.4, non-steady-state variant: "use the superposition model with
+all prior doses"). With C_pre = f / V, f the history's pre-dose concentration
+computed with V = 1 L, the volume equation stays closed-form:
+V = [k0 (1 - e^(-ke t')) + ke f e^(-ke t')] / (ke Cmax).
+A pre-dose trough and a post-dose peak around one dose give ke only at steady
+state; off steady state that pair is refused (the two-level fit uses it).
 """
 
 from __future__ import annotations
@@ -109,7 +118,35 @@ def _dose_before(doses: list[Dose], t: float) -> Dose | None:
     return before[-1] if before else None
 
 
-def sawchuk_zaske(doses: list[Dose], levels: list[Level], tau: float | None) -> TwoLevelResult:
+def _history_predose(doses: list[Dose], dose: Dose, ke: float) -> tuple[float, int]:
+    """Concentration (V = 1 L) the doses before ``dose`` leave at its start, and how many there are."""
+    before = [d for d in doses if d.start < dose.start - 1e-9]
+    if not before:
+        return 0.0, 0
+    arr = DoseArrays.from_lists([d.start for d in before], [d.duration for d in before], [d.amount for d in before])
+    return float(onecomp.concentration(ke, 1.0, arr, dose.start)), len(before)
+
+
+def _steady_predose(dose: Dose, ke: float, tau: float) -> float:
+    """Steady-state pre-dose concentration (V = 1 L) of ``dose`` repeated every ``tau`` h (pk-sources.md 2.3)."""
+    tp = dose.duration
+    if tp > 0:
+        cmax = dose.amount / tp * (1 - math.exp(-ke * tp)) / (ke * (1 - math.exp(-ke * tau)))
+    else:
+        cmax = dose.amount / (1 - math.exp(-ke * tau))
+    return cmax * math.exp(-ke * (tau - tp))
+
+
+def _steady_share(doses: list[Dose], dose: Dose, ke: float, tau: float | None) -> tuple[float | None, float, int]:
+    """(history / steady-state pre-dose share or None, history pre-dose with V = 1 L, earlier doses)."""
+    f, n = _history_predose(doses, dose, ke)
+    if tau is None or tau <= dose.duration:
+        return None, f, n
+    return f / _steady_predose(dose, ke, tau), f, n
+
+
+def sawchuk_zaske(doses: list[Dose], levels: list[Level], tau: float | None,
+                  steady_within: float = 0.05) -> TwoLevelResult:
     """Textbook one-interval Sawchuk-Zaske calculation (pk-sources.md 2.4).
 
     Uses the two most recent usable levels. Both after the same dose: ke from
@@ -147,6 +184,7 @@ def sawchuk_zaske(doses: list[Dose], levels: list[Level], tau: float | None) -> 
         prev = [lv for lv in levels[:-2] if lv.time < dose.start and (_dose_before(doses, lv.time) is None or
                                                                      _dose_before(doses, lv.time).end <= lv.time)]
         prev = [lv for lv in prev if _dose_before(doses, dose.start - 1e-9) is None or lv.time > _dose_before(doses, dose.start - 1e-9).start]
+        f_hist = 0.0
         if prev:
             p = prev[-1]
             cpre = p.conc * math.exp(-ke * (dose.start - p.time))
@@ -155,15 +193,28 @@ def sawchuk_zaske(doses: list[Dose], levels: list[Level], tau: float | None) -> 
                                      f"{p.conc:g} x e^(-{ke:.4g} x {dose.start - p.time:.3g})", f"{cpre:.4g} mg/L", m))
             used = [p.index, a.index, b.index]
         else:
-            if tau is None:
-                raise NoEstimateError(m, "no pre-dose level and no current interval for the steady-state assumption")
-            cpre = cmax * math.exp(-ke * (tau - dose.duration))
-            assumption = f"steady state on a {tau:g} h interval"
-            steps.append(WorkingStep("Trough (steady state)", "Cmin = Cmax e^(-ke (tau - t'))",
-                                     f"{cmax:.4g} x e^(-{ke:.4g} x {tau - dose.duration:.3g})", f"{cpre:.4g} mg/L", m))
+            share, f_hist, n_before = _steady_share(doses, dose, ke, tau)
             used = [a.index, b.index]
+            if share is not None and abs(share - 1.0) <= steady_within:
+                cpre = cmax * math.exp(-ke * (tau - dose.duration))
+                f_hist = 0.0
+                assumption = (f"steady state on a {tau:g} h interval (the {n_before} earlier doses put the pre-dose "
+                              f"level at {share:.0%} of its steady-state value)")
+                steps.append(WorkingStep("Trough (steady state)", "Cmin = Cmax e^(-ke (tau - t'))",
+                                         f"{cmax:.4g} x e^(-{ke:.4g} x {tau - dose.duration:.3g}); history at "
+                                         f"{share:.0%} of steady state", f"{cpre:.4g} mg/L", m))
+            else:
+                cpre = 0.0
+                state = "" if share is None else f", {share:.0%} of steady state"
+                assumption = ("first dose: no drug on board before it" if n_before == 0 else
+                              f"not at steady state{state}: pre-dose level accumulated from the {n_before} earlier "
+                              "dose(s) in the history")
+                steps.append(WorkingStep("Pre-dose level (from the history)",
+                                         "Cpre = f / V, f = earlier doses superposed at the dose start with V = 1 L",
+                                         f"{n_before} earlier dose(s), ke {ke:.4g} /h", f"f = {f_hist:.4g} mg/L x L", m))
     else:
         # trough a before dose db, peak b after it; steady-state assumption
+        f_hist = 0.0
         if tau is None:
             raise NoEstimateError(m, "a trough before the dose and a peak after it need the current interval (steady state)")
         if not (da is None or da.end <= a.time) or a.time > db.start:
@@ -176,6 +227,12 @@ def sawchuk_zaske(doses: list[Dose], levels: list[Level], tau: float | None) -> 
         ke = math.log(b.conc / a.conc) / (t_equiv - b.time)
         if ke <= 0:
             raise NoEstimateError(m, "the peak is not above the trough")
+        share, _, n_before = _steady_share(doses, db, ke, tau)
+        if share is None or abs(share - 1.0) > steady_within:
+            raise NoEstimateError(m, f"levels[{a.index}] (trough before the dose) and levels[{b.index}] (peak after it) "
+                                     "give ke only at steady state, and the history is not at steady state"
+                                     + ("" if share is None else f" ({share:.0%} of it after {n_before} doses)")
+                                     + ": use the two-level (whole-history) estimate")
         steps.append(WorkingStep("Elimination rate (steady state)", "ke = ln(Cpeak/Ctrough) / ((tau - dt_trough) - t_peak)",
                                  f"ln({b.conc:g}/{a.conc:g}) / ({tau:g} - {delta:.3g} - {b.time - db.start:.3g})", f"{ke:.4g} /h", m))
         cmax = b.conc * math.exp(ke * (b.time - dose.end))
@@ -187,7 +244,14 @@ def sawchuk_zaske(doses: list[Dose], levels: list[Level], tau: float | None) -> 
                                  f"{cpre:.4g} mg/L", m))
         used = [a.index, b.index]
     tp = dose.duration
-    if tp > 0:
+    if f_hist > 0 and tp > 0:
+        v = (k0 * (1 - math.exp(-ke * tp)) + ke * f_hist * math.exp(-ke * tp)) / (ke * cmax)
+        eq = "V = [k0 (1 - e^(-ke t')) + ke f e^(-ke t')] / (ke Cmax)   (Cpre = f / V)"
+        sub = f"[{k0:.4g} x (1 - e^(-{ke:.4g} x {tp:g})) + {ke:.4g} x {f_hist:.4g} x e^(-{ke:.4g} x {tp:g})] / ({ke:.4g} x {cmax:.4g})"
+    elif f_hist > 0:
+        v = (dose.amount + f_hist) / cmax
+        eq, sub = "V = (D + f) / Cmax   (Cpre = f / V)", f"({dose.amount:g} + {f_hist:.4g}) / {cmax:.4g}"
+    elif tp > 0:
         v = k0 * (1 - math.exp(-ke * tp)) / (ke * (cmax - cpre * math.exp(-ke * tp)))
         eq = "V = k0 (1 - e^(-ke t')) / (ke [Cmax - Cmin e^(-ke t')])"
         sub = f"{k0:.4g} x (1 - e^(-{ke:.4g} x {tp:g})) / ({ke:.4g} x [{cmax:.4g} - {cpre:.4g} x e^(-{ke:.4g} x {tp:g})])"
