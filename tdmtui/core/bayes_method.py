@@ -101,9 +101,14 @@ def _estimate(name: str, fit: Any, levels: list, ctx: Any, offer: Any, a_priori:
                                  f"{len(levels)} level(s); {fit.message}; OFV {fit.objective:.4g}",
                                  f"CL {fit.params.cl:.4g} L/h, Vss {fit.params.vss:.4g} L, ke {fit.params.ke:.4g} /h", name))
         for r, lv in zip(fit.residuals(), levels):
+            if r["kind"] == "quantified":
+                seen, res = f"observed {r['observed']:.3g}", f"residual {r['residual']:+.3g} mg/L"
+            else:
+                side = "below" if r["kind"] == "below-loq" else "above"
+                seen = f"reported {side} the assay limit {r['observed']:.3g} (a bound, not a value)"
+                res = "likelihood of lying " + side + " the limit"
             steps.append(WorkingStep("Observed vs predicted", f"levels[{lv.index}] ({r['kind']})",
-                                     f"observed {r['observed']:.3g}, predicted {r['predicted']:.3g} mg/L",
-                                     f"residual {r['residual']:+.3g} mg/L", name))
+                                     f"{seen}, predicted {r['predicted']:.3g} mg/L", res, name))
     extra: dict[str, Any] = {
         "diagnostics": {
             "residuals": [dict(r, field=f"levels[{lv.index}]") for r, lv in zip(fit.residuals(), levels)] if not a_priori else [],

@@ -64,7 +64,7 @@ def history_of(case: Case) -> DoseArrays:
 
 
 #: ``auto``'s order: the first method here that gave an estimate is used.
-AUTO_ORDER = ("two-level", "bayesian", "one-level", "population")
+AUTO_ORDER = ("two-level", "bayesian", "continuous-steady-state", "one-level", "population")
 
 
 def choose(requested: str, estimates: dict[str, Estimate], failures: dict[str, str]) -> str:
@@ -94,8 +94,13 @@ def method_reason(requested: str, used: str, estimates: dict[str, Estimate], fai
         why = ""
         if n >= 2:
             tl = failures.get("two-level", "not available")
-            why = f" and no single two-level solution ({tl.split('; set aside: ')[-1] if 'set aside' in tl else tl.split(' (')[0]})"
+            short = ("set aside: " + tl.split("; set aside: ")[-1].split("; ")[0] if "set aside" in tl
+                     else tl.split(" (")[0])
+            why = f" and no single two-level solution ({short})"
         return f"{count}{why}, so a Bayesian estimate on {name} combines them with what the model expects."
+    if used == "continuous-steady-state":
+        return ("one level drawn at steady state during a continuous infusion and no Bayesian estimate, so "
+                "CL = rate / level and AUC24 = level x 24.")
     if used == "one-level":
         return (f"one usable level and no Bayesian estimate ({failures.get('bayesian', 'not available')}), so ke is "
                 "solved from that level with the population volume.")

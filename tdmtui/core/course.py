@@ -9,7 +9,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from tdmtui.core.alerts import Alert
-from tdmtui.core.case import Case, Level
+from tdmtui.core.case import Case, Dose, Level
 from tdmtui.core.library import Rules
 
 #: Stable warning codes raised here, with their meaning.
@@ -60,11 +60,26 @@ def level_exclusion(case: Case, level: Level, rules: Rules) -> tuple[str, str] |
         return "level-before-first-dose", "drawn before the first recorded dose"
     window = float(rules.value("windows.post_distribution_h"))
     for d in case.doses:
-        if d.start < level.time < d.end:
+        if d.start < level.time < d.end and not is_continuous(d, rules):
             return "level-in-infusion", "drawn while an infusion was running"
+    if running_continuous(case, level, rules) is not None:
+        return None
     for d in case.doses:
         if d.end <= level.time < d.end + window and d.start < level.time:
             return "level-in-distribution", f"drawn {60 * (level.time - d.end):.0f} min after the end of infusion, inside the {window:g} h distribution window"
+    return None
+
+
+def is_continuous(dose: Dose, rules: Rules) -> bool:
+    """True for an infusion long enough to be a continuous infusion (library ``windows.continuous_min_infusion_h``)."""
+    return dose.duration >= float(rules.value("windows.continuous_min_infusion_h"))
+
+
+def running_continuous(case: Case, level: Level, rules: Rules) -> Dose | None:
+    """The continuous infusion running when the level was drawn, or None."""
+    for d in case.doses:
+        if d.start < level.time < d.end and is_continuous(d, rules):
+            return d
     return None
 
 
@@ -93,7 +108,9 @@ def _timing_alerts(case: Case, rules: Rules) -> list[Alert]:
         elif code == "level-set-aside":
             out.append(_alert(code, "info", f + ".use", f"level {lv.conc:g} mg/L {text}"))
         elif code == "level-censored":
-            out.append(_alert(code, "info", f + ".conc", f"level {text} ({lv.conc:g} mg/L): used as a censored value, never as the limit itself"))
+            out.append(_alert(code, "info", f + ".conc", f"level {text} ({lv.conc:g} mg/L): the Bayesian fit uses it as a bound "
+                                                         "(the probability of lying beyond the limit), never as the value; the "
+                                                         "one-compartment methods state the bound it implies on ke"))
     del window
     return out
 

@@ -6,6 +6,7 @@ for disagreement warnings, then :func:`attach_regimen`.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any
 
@@ -56,6 +57,9 @@ def run_all(ctx: MethodContext) -> tuple[dict[str, Estimate], dict[str, str]]:
         ("population", lambda: textbook_population(ctx.rules, ctx.renal.crcl_ml_min, ctx.case.patient.weight,
                                                    ctx.renal.dosing_weight_kg)),
     ]
+    for name in ONE_LEVEL:
+        if name != "continuous-steady-state" or _latest_in_continuous(ctx):
+            attempts.append((name, lambda name=name: one_level(ctx, name)))
     if len(ctx.usable) >= 3:
         attempts.insert(2, ("least-squares", lambda: _least_squares(ctx)))
     else:
@@ -71,11 +75,75 @@ def run_all(ctx: MethodContext) -> tuple[dict[str, Estimate], dict[str, str]]:
             why[name] = getattr(exc, "why", str(exc))
             if aside and name in ("two-level", "sawchuk-zaske", "least-squares"):
                 why[name] += "; set aside: " + "; ".join(aside)
+            if name in ("two-level", "sawchuk-zaske"):
+                why[name] += "".join(f"; {b}" for b in censored_bounds(ctx))
     b_est, b_why, flags = bayes_method.run(ctx)
     est.update(b_est)
     why.update(b_why)
     ctx.model_flags = flags
     return est, why
+
+
+#: The one-level methods (:mod:`onelevel`), by id.
+ONE_LEVEL = ("one-level", "one-level-steady-state", "continuous-steady-state")
+
+
+def _latest_in_continuous(ctx: MethodContext) -> bool:
+    from tdmtui.core.course import running_continuous
+
+    cands = bayes_method.levels_for(ctx, False)
+    return bool(cands) and running_continuous(ctx.case, cands[-1], ctx.rules) is not None
+
+
+def one_level(ctx: MethodContext, name: str) -> Estimate:
+    """A one-level method on the latest level a one-compartment method can use (censored ones give a bound)."""
+    from tdmtui.core import onelevel
+    from tdmtui.core.course import running_continuous
+
+    cands = [lv for lv in bayes_method.levels_for(ctx, False)]
+    if not cands:
+        raise NoEstimateError(name, "needs one usable level; none available")
+    lv = cands[-1]
+    running = running_continuous(ctx.case, lv, ctx.rules)
+    if name == "continuous-steady-state":
+        if running is None:
+            raise NoEstimateError(name, f"levels[{lv.index}] was not drawn during a continuous infusion")
+    elif running is not None and name == "one-level-steady-state":
+        raise NoEstimateError(name, f"levels[{lv.index}] was drawn during a continuous infusion: see "
+                                    "continuous-steady-state")
+    pop = textbook_population(ctx.rules, ctx.renal.crcl_ml_min, ctx.case.patient.weight, ctx.renal.dosing_weight_kg)
+    before = [d for d in ctx.case.doses if d.start < lv.time]
+    inp = onelevel.OneLevelInput(ctx.history, lv, pop.params.v1, pop.working[1],
+                                 ctx.current.interval_h if ctx.current else None, before[-1] if before else running,
+                                 float(ctx.rules.value("monitoring.steady_state_within_rel")))
+    fn = {"one-level": onelevel.superposition, "one-level-steady-state": onelevel.steady_state_trough,
+          "continuous-steady-state": onelevel.continuous_steady_state}[name]
+    return fn(inp)
+
+
+def censored_bounds(ctx: MethodContext) -> list[str]:
+    """The ke bound each below-limit level implies with the quantified level before it after the same dose.
+
+    C falls at least as fast as e^(-ke dt) after an infusion ends (one compartment), so a later level below
+    the limit LOQ means ke >= ln(C_earlier / LOQ) / dt.
+    """
+    out = []
+    usable = {lv.index for lv in ctx.usable}
+    levels = [lv for lv in ctx.case.levels if lv.time <= ctx.case.as_of]
+    for b in levels:
+        if not (b.below_loq and b.use):
+            continue
+        earlier = [a for a in levels if a.index in usable and a.time < b.time]
+        if not earlier:
+            continue
+        a = earlier[-1]
+        if any(a.time < d.start < b.time for d in ctx.case.doses) or a.conc <= b.conc:
+            continue
+        ke = math.log(a.conc / b.conc) / (b.time - a.time)
+        out.append(f"levels[{b.index}] is below the assay limit (< {b.conc:g} mg/L) {b.time - a.time:.3g} h after "
+                   f"levels[{a.index}] {a.conc:g} mg/L: ke is at least {ke:.4g} /h (half-life at most "
+                   f"{math.log(2) / ke:.3g} h); the Bayesian estimate uses it as that bound")
+    return out
 
 
 def set_aside(ctx: MethodContext) -> list[str]:
@@ -137,6 +205,17 @@ def compare(ctx: MethodContext, est: dict[str, Estimate], used: str) -> list[Ale
                              f"two-level and Sawchuk-Zaske differ on {what} by {gap:.0%} (over {limit:.0%}): "
                              f"trust Sawchuk-Zaske less when the regimen was not at steady state ({b.assumption}); "
                              "the two-level fit uses the whole dose history"))
+    for name in ONE_LEVEL:
+        one = est.get(name)
+        if one is None or bay is None or a is not None:
+            continue
+        gap, what = _gap(one, bay, ctx.current)
+        if gap > limit:
+            out.append(Alert("methods-disagree-one-level", "caution", "levels",
+                             f"{name} and Bayesian differ on {what} by {gap:.0%} (over {limit:.0%}): the one-level "
+                             "answer rests on the population volume and a single level; trust it less when the "
+                             "patient's volume is unusual (obesity, oedema, critical illness); trust the Bayesian one "
+                             "less when the patient is outside its models' populations"))
     if a and bay:
         gap, what = _gap(a, bay, ctx.current)
         if gap > limit:

@@ -31,6 +31,12 @@ METHOD_TEXT = {
                 "each weighted by how well it explains these levels (maximum a posteriori on each model, "
                 "log-normal between-patient variability; model averaging after Uster DW et al. 2021, from memory)",
     "population": "population values from CrCl and weight; no level used",
+    "one-level": "one-compartment model with the population volume; ke solved from one level with every dose "
+                 "superposed (standard infusion equations)",
+    "one-level-steady-state": "the classic single-level method: steady-state infusion equation with the "
+                              "population volume, solved for ke (standard infusion equations)",
+    "continuous-steady-state": "level at steady state during a continuous infusion: CL = rate / level, "
+                               "AUC24 = level x 24 (2020 vancomycin consensus guideline, from memory)",
     "nomogram": "level read against the drug's nomogram; the estimate below is the automatic method's",
 }
 

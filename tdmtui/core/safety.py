@@ -13,11 +13,11 @@ DOC = "SAFETY.md"
 #: shown on first run and in help.
 SHORT_LINES: tuple[str, ...] = (
     "tdmtui is decision support for licensed clinicians, not an automatic dosing",
-    "system. It covers adults on intermittent IV vancomycin, gentamicin,",
-    "tobramycin or amikacin only. Every result rests on the doses, times and",
-    "levels you enter: check them against the chart. Follow your local protocol,",
-    "and let clinical judgement decide. See SAFETY.md for limits and for",
-    "reporting a wrong result.",
+    "system. It covers adults on IV vancomycin (intermittent or continuous),",
+    "gentamicin, tobramycin or amikacin only. Every result rests on the doses,",
+    "times and levels you enter: check them against the chart. Follow your local",
+    "protocol, and let clinical judgement decide. See SAFETY.md for limits and",
+    "for reporting a wrong result.",
 )
 
 #: The short form as one block of text, lines joined with newlines.
@@ -25,7 +25,7 @@ SHORT: str = "\n".join(SHORT_LINES)
 
 #: The one line every chart note and printed result carries (callers may wrap it).
 NOTE_LINE: str = (
-    "Decision support only, for adults on intermittent IV vancomycin or aminoglycosides: "
+    "Decision support only, for adults on IV vancomycin or aminoglycosides: "
     "verify every input, follow local protocol; clinical judgement decides (see SAFETY.md)."
 )
 

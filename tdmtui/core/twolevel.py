@@ -169,6 +169,11 @@ def sawchuk_zaske(doses: list[Dose], levels: list[Level], tau: float | None,
     da, db = _dose_before(doses, a.time), _dose_before(doses, b.time)
     if db is None:
         raise NoEstimateError(m, "the later level precedes every dose")
+    for lv, d in ((a, da), (b, db)):
+        if d is not None and lv.time < d.end:
+            raise NoEstimateError(m, f"levels[{lv.index}] was drawn during an infusion (a continuous one): "
+                                     "Sawchuk-Zaske needs levels after the end of an infusion; the two-level "
+                                     "(whole-history) and Bayesian fits use it")
     steps: list[WorkingStep] = []
     dose = db
     k0 = dose.amount / dose.duration if dose.duration > 0 else math.inf
