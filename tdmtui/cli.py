@@ -17,7 +17,7 @@ import sys
 from pathlib import Path
 from typing import Any
 
-SUBCOMMANDS = ("compute", "note")
+SUBCOMMANDS = ("compute", "note", "import")
 
 
 def _protocol(path: str | None) -> Any:
@@ -106,7 +106,8 @@ def _app_parser() -> argparse.ArgumentParser:
     ap = argparse.ArgumentParser(
         prog="tdmtui",
         description="Therapeutic drug monitoring for vancomycin and aminoglycosides. "
-                    "Commands: 'tdmtui [CASE]' opens the app; 'tdmtui compute CASE [--json]'; 'tdmtui note CASE [--out FILE]'.")
+                    "Commands: 'tdmtui [CASE]' opens the app; 'tdmtui compute CASE [--json]'; 'tdmtui note CASE [--out FILE]'; "
+                    "'tdmtui import BUNDLE.json [--out CASE]' (FHIR R4 export to a case).")
     ap.add_argument("case", nargs="?", help="case file to open (omit for a new case)")
     ap.add_argument("--protocol", metavar="FILE", help="local protocol TOML")
     ap.add_argument("--mouse", action="store_true", help="enable mouse support (off by default for SSH)")
@@ -120,6 +121,10 @@ def main(argv: list[str] | None = None) -> int:
     from tdmtui.core.errors import InputError, NoEstimateError
 
     try:
+        if argv and argv[0] == "import":
+            from tdmtui.importcmd import main as import_main
+
+            return import_main(argv[1:])
         if argv and argv[0] in SUBCOMMANDS:
             args = _sub_parser(argv[0]).parse_args(argv[1:])
             return cmd_compute(args) if argv[0] == "compute" else cmd_note(args)

@@ -15,6 +15,7 @@ from __future__ import annotations
 from typing import Any
 
 from tdmtui.core import notefmt as f
+from tdmtui.core.fhir.provenance import note_lines as imported_note_lines
 from tdmtui.core.safety import NOTE_LINE
 from tdmtui.core.textsafe import neutralise
 
@@ -312,5 +313,6 @@ def render_note(outcome: Any, chosen: dict[str, Any] | None = None) -> str:
     lines += _patient(outcome) + _doses(outcome) + _levels(outcome) + _estimates(outcome)
     lines += _regimen(outcome, chosen) + _monitoring(outcome) + _warnings(res)
     lines += [""] + f.wrap(NOTE_LINE, "", "") + [""] + list(SIGNATURE) + _record(outcome)
+    lines += imported_note_lines(case.raw)
     # the output boundary: every line, free text included, loses its control characters here
     return "\n".join(f.fit([neutralise(line) for line in lines])) + "\n"

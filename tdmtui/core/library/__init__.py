@@ -97,6 +97,8 @@ class Protocol:
     name: str
     sha256: str
     overrides: dict[str, dict[str, tuple[Any, str]]] = field(default_factory=dict)
+    #: ``[local_codes]``: a site's ``system|code`` -> meaning for FHIR import (tdmtui.core.fhir.codes)
+    local_codes: dict[str, Any] = field(default_factory=dict)
 
 
 def load_protocol(path: str | Path) -> Protocol:
@@ -120,8 +122,13 @@ def load_protocol(path: str | Path) -> Protocol:
     name = tree.pop("name", p.stem)
     proto = Protocol(str(name), hashlib.sha256(data).hexdigest())
     for section, body in tree.items():
+        if section == "local_codes":
+            from tdmtui.core.fhir.codes import parse_local_codes
+
+            proto.local_codes = parse_local_codes(body, tuple(DRUGS))
+            continue
         if section not in DRUGS and section != "common":
-            raise InputError(f"protocol.{section}", "expected a drug id or 'common'")
+            raise InputError(f"protocol.{section}", "expected a drug id, 'common' or 'local_codes'")
         if not isinstance(body, dict):
             raise InputError(f"protocol.{section}", "expected a table")
         proto.overrides[section] = flatten(body)
