@@ -26,6 +26,7 @@ from tdmtui.ui.dialogs import HelpScreen
 from tdmtui.ui.computing import ComputeMixin
 from tdmtui.ui.document import CaseDocument, new_case_raw
 from tdmtui.ui.filing import FilingMixin
+from tdmtui.ui.importing import is_export, open_export
 from tdmtui.ui.messages import CaseEdited
 from tdmtui.ui.safety import first_run, short_text
 from tdmtui.ui.recovery import recovery_path, state_dir, write_recovery
@@ -80,7 +81,11 @@ class TdmApp(ComputeMixin, FilingMixin, App[int]):
         self.state = state or state_dir()
         self.doc = CaseDocument(new_case_raw())
         self.open_error = ""
-        if path:
+        self.import_alerts: list[dict[str, str]] = []
+        if path and is_export(path):  # a FHIR export: imported into a new, unsaved case
+            self.doc, self.import_alerts, self.open_error = open_export(path, protocol_path)
+            self.case_path = None
+        elif path:
             try:
                 self.doc = CaseDocument.open(path) if Path(path).exists() else CaseDocument(new_case_raw(), path)
             except (OSError, ValueError) as exc:
@@ -170,7 +175,7 @@ class TdmApp(ComputeMixin, FilingMixin, App[int]):
 
     def show_warnings(self, alerts: list[dict[str, str]]) -> None:
         """The warnings strip: severity in words, stops first; F8 lists all."""
-        self.alerts = fm.sort_alerts(alerts)
+        self.alerts = fm.sort_alerts(list(alerts) + self.import_alerts)
         strip = self.query_one("#warnings", Static)
         if not self.alerts:
             strip.update("No warnings." if self.outcome is not None else "Warnings appear here once the case computes.")
