@@ -252,7 +252,7 @@ def _averaged(ctx: Any, fitted: list, est: dict[str, Estimate]) -> tuple[Estimat
     residuals = [{"time_h": lv.time, "observed": lv.conc, "predicted": float(p), "residual": float(lv.conc - p),
                   "kind": k, "field": f"levels[{lv.index}]"} for lv, p, k in zip(levels, pred, kinds)]
     offers = [o for o, *_ in fitted]
-    flags = _combined_flags(offers)
+    flags = _combined_flags(offers) + structure_alerts(ctx, fitted, w, est)
     secondary = any(o.model.status != "paper" for o in offers)
     model_info = {"id": "model-average", "name": f"the model average ({share})", "citation": averaging.CITATION,
                   "verification": "secondary" if secondary else "paper", "seed": members[0].fit.seed,
@@ -265,6 +265,42 @@ def _averaged(ctx: Any, fitted: list, est: dict[str, Estimate]) -> tuple[Estimat
                  f"model average of {len(members)} population model(s) with {len(levels)} level(s)",
                  model=model_info, interval90=interval90, target_probability=prob, samples=mix, extra=extra)
     return e, flags
+
+
+def structure_alerts(ctx: Any, fitted: list, w: list[float], est: dict[str, Estimate]) -> list[Alert]:
+    """Cautions where the model's structure, not the levels, drives the answer.
+
+    A weighted model whose levels moved a very variable parameter (SD >= ``methods.large_iiv_sd`` on the
+    log scale) by more than ``methods.large_iiv_movement_sd``; and models that differ on the current
+    regimen's AUC24 by more than ``methods.models_disagree_rel``.
+    """
+    r = ctx.rules
+    big, move = float(r.value("methods.large_iiv_sd")), float(r.value("methods.large_iiv_movement_sd"))
+    out: list[Alert] = []
+    for (o, fit, levels, _), x in zip(fitted, w):
+        if x < 0.05:
+            continue
+        for name, sd, m in zip(fit.model.eta_names, fit.omega_sd, fit.eta / fit.omega_sd):
+            if sd >= big and abs(m) > move:
+                out.append(Alert("bayes-large-variability-moved", "caution", "levels",
+                                 f"{o.model.name.split(' (')[0]}: {len(levels)} level(s) moved {name.upper()}, a "
+                                 f"parameter this model lets vary very widely (SD {sd:.2f} on the log scale), "
+                                 f"{abs(m):.1f} SD from its population value: the shape of the curve, and so the "
+                                 "steady-state prediction, rests on the model more than on the levels; a second "
+                                 "level (a peak, or a trough at steady state) would settle it"))
+    aucs = {}
+    for (o, *_), x in zip(fitted, w):
+        cur = est[f"bayesian:{o.model.id}"].current(ctx.current)
+        if cur and x >= 0.05:
+            aucs[o.model.name.split(" (")[0]] = cur["auc24_mg_h_per_l"]
+    limit = float(r.value("methods.models_disagree_rel"))
+    if len(aucs) >= 2 and (max(aucs.values()) - min(aucs.values())) / max(aucs.values()) > limit:
+        parts = ", ".join(f"{k} {v:.0f}" for k, v in aucs.items())
+        out.append(Alert("models-disagree", "caution", "levels",
+                         f"the population models fitted to these levels differ on AUC24 by more than {limit:.0%} "
+                         f"({parts} mg*h/L): the averaged estimate is uncertain; draw a further level before a "
+                         "large change"))
+    return out
 
 
 def _combined_flags(offers: list) -> list[Alert]:

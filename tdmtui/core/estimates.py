@@ -79,14 +79,19 @@ class Estimate:
 
 
 def two_compartment_figures(p: PKParams) -> dict[str, float]:
-    """V1, V2, Q, Vss and alpha/beta half-lives (pk-sources.md 2.6 macro-constants)."""
+    """V1, V2, Q, Vss, alpha/beta half-lives (pk-sources.md 2.6 macro-constants) and ln 2 x Vss / CL.
+
+    The terminal (beta) half-life is what governs how long a level takes to fall; ln 2 x Vss / CL is the
+    one-compartment equivalent shown in the estimate table. They differ when distribution is slow.
+    """
     k10, k12, k21 = p.cl / p.v1, p.q / p.v1, p.q / p.v2
     s = k10 + k12 + k21
     root = math.sqrt(max(s * s - 4 * k10 * k21, 0.0))
     alpha, beta = (s + root) / 2, (s - root) / 2
     return {"cl_l_per_h": p.cl, "v1_l": p.v1, "v2_l": p.v2, "q_l_per_h": p.q, "vss_l": p.vss,
             "alpha_per_h": alpha, "beta_per_h": beta,
-            "alpha_half_life_h": math.log(2) / alpha, "beta_half_life_h": math.log(2) / beta}
+            "alpha_half_life_h": math.log(2) / alpha, "beta_half_life_h": math.log(2) / beta,
+            "vss_half_life_h": math.log(2) * p.vss / p.cl}
 
 
 def textbook_population(rules: Rules, crcl: float, tbw: float, dosing_weight: float) -> Estimate:

@@ -193,7 +193,8 @@ def _estimates(outcome: Any) -> list[str]:
             parts = [f"{label} {fmt(two[k])}{unit}" for k, label, fmt, unit in (
                 ("v1_l", "V1", f.litres, " L"), ("v2_l", "V2", f.litres, " L"), ("q_l_per_h", "Q", f.clearance, " L/h"),
                 ("alpha_half_life_h", "alpha half-life", f.hours, " h"),
-                ("beta_half_life_h", "beta half-life", f.hours, " h")) if two.get(k) is not None]
+                ("beta_half_life_h", "terminal (beta) half-life", f.hours, " h"),
+                ("vss_half_life_h", "ln 2 x Vss / CL", f.hours, " h")) if two.get(k) is not None]
             lines += f.wrap("Two-compartment model (figures above are the one-compartment equivalents, "
                             "Vd = V1 + V2): " + ", ".join(parts) + ".")
     for name, why in (res.get("methods_unavailable") or {}).items():
