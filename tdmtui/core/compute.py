@@ -159,7 +159,7 @@ def compute(case: Case, protocol: Protocol | None = None, method: str | None = N
     if has_stop(alerts):
         result["status"] = "stop"
     else:
-        plan_alerts = methods.attach_regimen(ctx, outcome, est)
+        plan_alerts = methods.attach_regimen(ctx, outcome, est, auto=requested == "auto")
         alerts += plan_alerts
         if has_stop(plan_alerts):
             result["status"] = "stop"

@@ -283,24 +283,38 @@ def level_table(ctx: MethodContext) -> list[dict[str, Any]]:
     return rows
 
 
-def attach_regimen(ctx: MethodContext, outcome: Outcome, est: Estimate) -> list[Alert]:
-    """Design the regimen with the chosen estimate; put it in the result. Returns its alerts."""
+def attach_regimen(ctx: MethodContext, outcome: Outcome, est: Estimate, auto: bool = False) -> list[Alert]:
+    """Design the regimen with the chosen estimate; put it in the result. Returns its alerts.
+
+    ``auto``: the method was chosen automatically; on an extended-interval course where the chart applies
+    (regimen/extended.applies) the nomogram is read, with the individualised estimate beside it.
+    """
+    import dataclasses
+
     from tdmtui.core.regimen import RegimenInput, design
+    from tdmtui.core.regimen.extended import applies
 
     p = ctx.case.patient
-    plan = design(RegimenInput(
+    inp = (RegimenInput(
         drug=ctx.case.drug, rules=ctx.rules, case_target=ctx.case.target, params=est.params, history=ctx.history,
         as_of=ctx.case.as_of, clock=ctx.case.clock, current=ctx.current,
         dosing_weight_kg=ctx.renal.dosing_weight_kg, tbw_kg=p.weight, bmi=ctx.renal.bmi,
         crcl_ml_min=ctx.renal.crcl_ml_min, renal_replacement=p.renal_replacement, conditions=p.conditions,
         samples=est.samples, method=outcome.result.get("method") or est.method, levels=ctx.case.levels,
         doses=ctx.case.doses))
+    extra: list[Alert] = []
+    if auto and inp.method != "nomogram" and applies(inp):
+        inp = dataclasses.replace(inp, method="nomogram")
+        extra.append(Alert("nomogram-auto", "info", "method",
+                           f"extended-interval course with a level in the chart's window: the interval is read on the "
+                           f"nomogram; the individualised estimate ({est.method}) gives the predictions beside it"))
+    plan = design(inp)
     outcome.result["regimen"] = plan.regimen
     outcome.result["target"] = plan.targets
     outcome.result["sources"].update(plan.sources)
     outcome.plan = plan.doses
     outcome.regimen_plan = plan
-    return list(plan.alerts)
+    return extra + list(plan.alerts)
 
 
 def concentration_band(ctx: MethodContext, est: Estimate, plan: DoseArrays | None):  # noqa: ANN201

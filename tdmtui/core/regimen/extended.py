@@ -6,7 +6,14 @@ checks, then the interval read on the chart. When the chart cannot give an
 interval (the level is above the highest line the library or protocol knows)
 and an estimate exists, the regimen is the individualised extended-interval
 design from that estimate (AUC24 / peak / drug-free targets ``extended.*``,
-candidates.py), said so in an alert.
+candidates.py), said so in an alert. A level above the q24h line is never
+answered with a q24h dose: such a design keeps only intervals longer than 24 h,
+and the hand-over holds until the estimate's curve falls below the library's
+threshold (``extended.trough_ceiling``).
+
+:func:`applies` says whether ``auto`` should read the chart: the drug has a
+chart, the standing order is extended-interval and the latest level passes
+every entry check.
 """
 
 from __future__ import annotations
@@ -58,9 +65,13 @@ def nomogram_plan(inp: RegimenInput, targets: Targets, plan: Plan) -> Plan:
             if inp.params is None:
                 return plan
             plan.alerts.append(Alert("nomogram-individualised", "info", "method",
-                                     "the chart gives no interval for this level: individualised extended-interval "
-                                     "dosing from the estimate is shown instead"))
-            return finish(inp, targets, "extended", plan, search_candidates(inp, targets, "extended"), extra=extra)
+                                     "the level is above the q24h line and the chart gives no interval for it: the "
+                                     "individualised estimate from this level sets the interval (never q24h) and "
+                                     "the hold until the level falls below the library's threshold"))
+            cands = search_candidates(inp, targets, "extended")
+            if reading.zone != "q24h":
+                cands = [c for c in cands if c.interval_h > 24.0 + 1e-9]
+            return finish(inp, targets, "extended", plan, cands, extra=extra)
     assert interval is not None
     if inp.params is None:
         return _without_estimate(inp, targets, plan, dose, interval, tinf, extra)
@@ -86,3 +97,17 @@ def _without_estimate(inp: RegimenInput, targets: Targets, plan: Plan, dose: flo
     }
     plan.doses = handover.proposed_doses(first, dose, interval, tinf, inp.as_of + handover.FORECAST_H)
     return plan
+
+
+def applies(inp: RegimenInput) -> bool:
+    """True when the chart can be read for this course (module docstring): auto then reads it."""
+    rules, cur = inp.rules, inp.current
+    if "nomogram.q24_line" not in rules or cur is None or not inp.levels or not inp.doses:
+        return False
+    low = float(rules.get("extended.min_interval_h", 24.0))
+    per_kg = cur.dose_mg / inp.dosing_weight_kg if inp.dosing_weight_kg > 0 else 0.0
+    if cur.interval_h < low or per_kg < float(rules.get("regimen.extended_min_mg_per_kg", float("inf"))):
+        return False
+    reading, found = nomogram.read(rules, inp.doses, inp.levels, inp.dosing_weight_kg, inp.crcl_ml_min,
+                                   inp.renal_replacement, inp.conditions)
+    return reading is not None and not has_stop(found)
