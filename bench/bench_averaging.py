@@ -40,11 +40,14 @@ from pathlib import Path
 import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
+sys.path.insert(0, str(Path(__file__).resolve().parent))
+
+from bench_bayes import patient  # noqa: E402  (the same invented covariate ranges)
 
 from tdmtui.core import averaging, bayes  # noqa: E402
 from tdmtui.core.errors import TdmError  # noqa: E402
 from tdmtui.core.models import DoseArrays  # noqa: E402
-from tdmtui.core.popmodels import Covariates, _build, get_model  # noqa: E402
+from tdmtui.core.popmodels import _build, get_model  # noqa: E402
 
 MODELS = ("vancomycin-thomson-2009", "vancomycin-goti-2018", "vancomycin-buelga-2005")
 DOSE, TAU, TINF, LOQ = 1000.0, 12.0, 1.0, 2.0
@@ -77,21 +80,13 @@ def _model(mid: str):
     return textbook_population() if mid == "textbook-1cpt" else get_model(mid)
 
 
-def patient(rng: np.random.Generator) -> Covariates:
-    return Covariates(age=float(rng.uniform(25, 85)), sex=str(rng.choice(["male", "female"])),
-                      weight=float(rng.uniform(50, 110)), height=float(rng.uniform(155, 190)),
-                      scr=float(rng.uniform(0.6, 1.8)))
-
-
 NOISE = {"assay": (1.0, 0.10), "model": None}
 
 
 def simulate(model, cov, rng, times, noise="assay"):
-    eta = rng.multivariate_normal(np.zeros(len(model.eta_names)), model.omega)
+    eta = dict(zip(model.eta_names, rng.multivariate_normal(np.zeros(len(model.eta_names)), model.omega)))
     typ = model.typical(cov).params
-    vals = {n: getattr(typ, n) for n in ("cl", "v1", "q", "v2")}
-    for n, e in zip(model.eta_names, eta):
-        vals[n] *= math.exp(e)
+    vals = {n: getattr(typ, n) * math.exp(eta.get(n, 0.0)) for n in ("cl", "v1", "q", "v2")}
     doses = DoseArrays.regimen(0.0, DOSE, TAU, TINF, 4)
     c = bayes.batch_concentration([vals["cl"]], [vals["v1"]], [vals["q"]], [vals["v2"]],
                                   bayes.Design.build(doses, times))[0]
