@@ -285,9 +285,12 @@ def test_two_compartment_figures_printed_when_the_estimate_has_them():
     out.result["estimate"] = dict(two_comp[0])
     two = two_comp[0]["two_compartment"]
     m = re.search(r"V1 ([\d.]+) L, V2 ([\d.]+) L, Q ([\d.]+) L/h, alpha half-life ([\d.]+) h, "
-                  r"beta half-life ([\d.]+) h", flat(render_note(out)))
+                  r"terminal \(beta\) half-life ([\d.]+) h, ln 2 x Vss / CL ([\d.]+) h", flat(render_note(out)))
     assert m, "two-compartment line missing"
-    for printed, key in zip(m.groups(), ("v1_l", "v2_l", "q_l_per_h", "alpha_half_life_h", "beta_half_life_h")):
+    for printed, key in zip(m.groups(), ("v1_l", "v2_l", "q_l_per_h", "alpha_half_life_h", "beta_half_life_h",
+                                         "vss_half_life_h")):
         assert close_to_printed(printed, two[key]), key
+    # the one-compartment equivalent half-life is ln 2 x Vss / CL (pk-sources.md 2.1 with ke = CL / Vss)
+    assert two["vss_half_life_h"] == pytest.approx(math.log(2) * two["vss_l"] / two["cl_l_per_h"], rel=1e-12)
     # case-format.md: the one-compartment equivalent Vd is Vss = V1 + V2
     assert two_comp[0]["vd_l"] == pytest.approx(two["v1_l"] + two["v2_l"], rel=1e-9)
