@@ -18,6 +18,25 @@ from pathlib import Path
 from typing import Any
 
 SUBCOMMANDS = ("compute", "note", "import")
+USAGE = ("usage: tdmtui [CASE] | tdmtui compute CASE [--json] [--record] | "
+         "tdmtui note CASE [--full] [--out FILE] | tdmtui import BUNDLE\n"
+         "  tdmtui CASE opens the app (a file that does not exist yet starts a new case saved there);\n"
+         "  'tdmtui --help' or 'tdmtui note --help' lists every option.")
+
+
+def _looks_like_command(word: str) -> bool:
+    """A bare word that is no file and no file name (``help``, ``comptue``): a mistyped command."""
+    return (word.isascii() and word.replace("-", "").isalpha() and not word.startswith("-")
+            and not Path(word).exists())
+
+
+def _unknown_command(word: str) -> int:
+    if word == "help":
+        print(USAGE)
+        return 0
+    print(f"tdmtui: unknown command {word!r} (commands: {', '.join(SUBCOMMANDS)}; a case file name "
+          "ends in .json)\n" + USAGE, file=sys.stderr)
+    return 2
 
 
 def _protocol(path: str | None) -> Any:
@@ -70,7 +89,7 @@ def cmd_note(args: argparse.Namespace) -> int:
     from tdmtui.core.note import render_note
 
     outcome = _compute(args)
-    text = render_note(outcome)
+    text = render_note(outcome, full=args.full)
     if args.out:
         _write_file(args.out, text, "--out")
         _say(f"note written to {args.out}")
@@ -97,6 +116,8 @@ def _sub_parser(name: str) -> argparse.ArgumentParser:
         ap.add_argument("--record", action="store_true", help="also save the JSON result beside the case (CASE.result.json, mode 0600)")
     else:
         ap.add_argument("--out", metavar="FILE", help="write the note to FILE (mode 0600) instead of stdout")
+        ap.add_argument("--full", action="store_true",
+                        help="add every method and model side by side, each dose on its own line, and the references")
     return ap
 
 
@@ -128,12 +149,14 @@ def main(argv: list[str] | None = None) -> int:
         if argv and argv[0] in SUBCOMMANDS:
             args = _sub_parser(argv[0]).parse_args(argv[1:])
             return cmd_compute(args) if argv[0] == "compute" else cmd_note(args)
+        if argv and _looks_like_command(argv[0]):
+            return _unknown_command(argv[0])
         args = _app_parser().parse_args(argv)
         from tdmtui.ui.app import run_app
 
         return run_app(args.case, args.protocol, mouse=args.mouse)
     except InputError as exc:
-        _say(f"{exc.field}: {exc.message}" if exc.field else exc.message)
+        _say(f"{exc.field}: {exc.message}" if exc.field and exc.field != "(file)" else exc.message)
         return 2
     except NoEstimateError as exc:
         _say(f"no estimate by {exc.method}: {exc.why}")

@@ -78,3 +78,25 @@ def test_same_case_gives_byte_identical_json():
     a = run("compute", str(SAMPLES / "vanc-loading-early.json"), "--json")
     b = run("compute", str(SAMPLES / "vanc-loading-early.json"), "--json")
     assert a.returncode == 0 and a.stdout == b.stdout
+
+
+def test_help_prints_usage_and_opens_nothing():
+    r = run("help")
+    assert r.returncode == 0
+    assert r.stdout.startswith("usage: tdmtui")
+    assert "tdmtui note CASE" in r.stdout
+
+
+def test_unknown_command_prints_usage_not_a_new_case(tmp_path):
+    r = subprocess.run([sys.executable, "-m", "tdmtui", "comptue"], capture_output=True, text=True, timeout=60,
+                       cwd=tmp_path)
+    assert r.returncode == 2
+    assert "unknown command 'comptue'" in r.stderr and "usage: tdmtui" in r.stderr
+    assert list(tmp_path.iterdir()) == []  # no case file started
+
+
+def test_a_missing_case_file_is_named(tmp_path):
+    missing = tmp_path / "no-such-case.json"
+    r = run("note", str(missing))
+    assert r.returncode == 2
+    assert r.stderr.strip() == f"cannot read {missing}: No such file or directory"

@@ -21,6 +21,7 @@ from pathlib import Path
 from typing import Any, Iterator
 
 from tdmtui.core.bounds import check_span, check_tree, decode_json, read_case_bytes
+from tdmtui.core.chosen import parse_chosen
 from tdmtui.core.clock import Clock, clock_for
 from tdmtui.core.errors import InputError
 from tdmtui.core.library import DRUGS, Rules
@@ -355,6 +356,7 @@ def parse_case(raw: Any, data: bytes | None = None) -> Case:
     schedule = _parse_schedule(raw.get("schedule"))
     target = _parse_target(raw.get("target"))
     method = _choice(raw.get("method", "auto"), METHODS, "method")
+    parse_chosen(raw)  # checked here so a mistyped choice is named like any other field
     if "as_of" in raw:
         as_of, given = clock.parse(raw["as_of"], "as_of"), True
     else:

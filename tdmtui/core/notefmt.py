@@ -25,6 +25,7 @@ steady-state equations of pk-sources.md 2.2-2.3 through :mod:`tdmtui.core.models
 from __future__ import annotations
 
 import math
+import re
 import textwrap
 from typing import Any
 
@@ -122,11 +123,6 @@ def wrap(text: str, indent: str = "", hang: str = "  ") -> list[str]:
                          break_long_words=True, break_on_hyphens=False) or [indent.rstrip()]
 
 
-def heading(title: str) -> list[str]:
-    """A section heading preceded by a blank line."""
-    return ["", title.upper(), "-" * len(title)]
-
-
 def fit(lines: list[str]) -> list[str]:
     """Every line within :data:`WIDTH` columns (an overlong line is wrapped, never cut)."""
     out: list[str] = []
@@ -184,6 +180,26 @@ def level_timing(t: float, doses: list[Any], interval_h: float | None) -> str:
     return text
 
 
+def level_when(t: float, doses: list[Any]) -> str:
+    """A level's place against the doses in a few words: ``1 h after the end of dose 8``, ``30 min before dose 9``.
+
+    Names the nearer of the end of the dose before and the start of the dose
+    after (the next one due, when the course stops there).
+    """
+    before = [k for k, d in enumerate(doses) if d.start <= t]
+    if not before:
+        return "before the first dose" if doses else "no dose recorded"
+    k = before[-1]
+    d = doses[k]
+    if t < d.end:
+        return f"during the infusion of dose {k + 1}"
+    since = f"{duration(t - d.end)} after the end of dose {k + 1}" if d.duration > 0 else \
+        f"{duration(t - d.start)} after dose {k + 1} (bolus)"
+    if k + 1 < len(doses) and doses[k + 1].start - t < t - d.end:
+        return f"{duration(doses[k + 1].start - t)} before dose {k + 2}"
+    return since
+
+
 def terminal_half_life(params: PKParams) -> float:
     """ln 2 over the slowest disposition rate, h (beta for two compartments, pk-sources.md 2.6)."""
     if not params.is_two_compartment:
@@ -220,7 +236,7 @@ def steady_state_share(params: PKParams, doses: list[Any], t: float, regimen: di
 
 # --- phrases shared by the note's sections -------------------------------------------
 
-MODES = {"auc": "AUC-guided", "peak-trough": "peak and trough, traditional dosing",
+MODES = {"auc": "AUC-guided", "peak-trough": "traditional dosing",
          "extended": "extended-interval", "continuous": "continuous infusion"}
 
 
@@ -232,36 +248,37 @@ def raw_scr(case: Any, index: int | None) -> str:
 
 
 def target_lines(result: dict[str, Any], case: Any, default_mic: float | None) -> list[str]:
-    """Target bands with their reasons, and the MIC."""
+    """Target bands, each with the name of its source (never an empty one), and the MIC."""
     tg = result.get("target")
-    lines: list[str] = []
     if tg:
-        bands = []
+        groups: dict[str, list[str]] = {}
         for key, label, fmt, unit in (("auc24_mg_h_per_l", "AUC24", auc, "mg*h/L"),
-                                      ("peak_mg_per_l", "Peak", conc, "mg/L"),
-                                      ("trough_mg_per_l", "Trough", conc, "mg/L"),
+                                      ("peak_mg_per_l", "peak", conc, "mg/L"),
+                                      ("trough_mg_per_l", "trough", conc, "mg/L"),
                                       ("css_mg_per_l", "Css", conc, "mg/L")):
             if tg.get(key):
                 lo, hi = tg[key]
                 src = key.split("_")[0]
-                why = (tg.get("citations") or {}).get(src) or (tg.get("sources") or {}).get(src, "")
-                bands.append(f"{label} {fmt(lo)}-{fmt(hi)} {unit}: {why}.")
+                origin = (tg.get("sources") or {}).get(src, "")
+                why = short_source((tg.get("citations") or {}).get(src) or "")
+                if origin == "case" or not why:
+                    why = {"case": "written in the case", "protocol": "local protocol"}.get(origin, "drug library")
+                groups.setdefault(why, []).append(f"{label} {fmt(lo)}-{fmt(hi)} {unit}")
+        bands = [f"{', '.join(items)} ({why})" for why, items in groups.items()]
         ref = str(tg.get("peak_reference") or "")
         if ref.startswith("start+"):
-            bands.append(f"Peak read {ref[6:].replace('h', ' h').replace('  ', ' ')} after the start of the dose.")
-        lines.append(f"Target ({MODES.get(str(tg.get('mode')), str(tg.get('mode', '-')))}):")
-        for band in bands:
-            lines += wrap(band, "  ", "  ")
+            bands.append(f"peak read {ref[6:].replace('h', ' h').replace('  ', ' ')} after the start of the dose")
+        text = f"Target, {MODES.get(str(tg.get('mode')), str(tg.get('mode', '-')))}: " + "; ".join(bands)
         mic = tg.get("mic_mg_per_l")
     else:
-        lines.append("Target: not assessed (no regimen is designed while a stop stands).")
+        text = "Target: not assessed (no regimen is designed while a stop stands)"
         mic = case.target.mic
     given = case.target.mic is not None
     if mic is None and default_mic is not None:
         mic = default_mic
-    lines.append(f"MIC: {mic:g} mg/L" + ("." if given else " (assumed: library default; none given in the case).")
-                 if mic is not None else "MIC: not given.")
-    return lines
+    text += (f". MIC {mic:g} mg/L" + ("." if given else " (default; none given).")
+             if mic is not None else ". MIC not given.")
+    return wrap(text)
 
 
 def estimate_cells(e: dict[str, Any]) -> tuple[str, ...]:
@@ -282,22 +299,63 @@ def predicted(p: dict[str, Any]) -> str:
 
 
 def regimen_words(r: dict[str, Any]) -> str:
-    """``1000 mg every 12 h, infused over 1 h``, or for a continuous infusion ``a continuous infusion of 93.8 mg/h``."""
+    """``1000 mg every 12 h over 1 h``, or for a continuous infusion ``a continuous infusion of 93.8 mg/h``."""
     if r.get("mode") == "continuous" or r.get("infusion_h", 0) >= r.get("interval_h", 1):
         rate = r.get("rate_mg_per_h") or r["dose_mg"] / r["infusion_h"]
         return f"a continuous infusion of {rate:.1f} mg/h"
-    return f"{mg(r['dose_mg'])} mg {every(r['interval_h'])}, infused over {duration(r['infusion_h'])}"
+    return f"{mg(r['dose_mg'])} mg {every(r['interval_h'])} over {duration(r['infusion_h'])}"
 
 
-def level_name(case: Any, field: str) -> str:
-    """``levels[1]`` as ``19.0 mg/L at 2026-01-15 19:30``."""
-    for lv in case.levels:
-        if field == f"levels[{lv.index}]":
-            return f"{conc(lv.conc)} mg/L at {when(case.clock.format(lv.time))}"
-    return field
+# --- words for clinicians ---------------------------------------------------------------
+
+#: Remarks about how a fact was checked: they belong to the library and the audit record, not the chart.
+_CHECK_REMARKS = re.compile(
+    r"\s*\[(?:library|protocol|confirmed[^\]]*|from memory[^\]]*)\]"
+    r"|,?\s*(?:citation(?: details)? )?from memory"
+    r"|,\s*confirmed(?:-secondary)?(?: text)?(?=[);,.]|$)"
+    r"|,?\s*year not confirmed", re.IGNORECASE)
+_PATHS = (
+    (re.compile(r"\bdoses\[(\d+)\](?:\.\w+)?"), "dose"),
+    (re.compile(r"\blevels\[(\d+)\](?:\.\w+)?"), "level"),
+    (re.compile(r"\bpatient\.scr\[(\d+)\](?:\.\w+)?"), "SCr value"),
+)
 
 
-def row_name(name: str, e: dict[str, Any]) -> str:
-    """A method's table label, naming its model when the method id does not."""
-    model = (e.get("model") or {}).get("id")
-    return f"{name}:{model}" if model and ":" not in name and name != "population" else name
+def plain_source(text: str) -> str:
+    """A source as a clinician reads it: remarks on how it was checked removed."""
+    out = _CHECK_REMARKS.sub("", str(text or ""))
+    return re.sub(r"\(\s*\)|\s+(?=[),.;])", "", out).strip(" ;,")
+
+
+def short_source(text: str) -> str:
+    """The name of a source, e.g. ``2020 vancomycin consensus guideline`` or ``KDIGO 2012``."""
+    text = plain_source(text)
+    head, colon, _ = text.partition(":")
+    if colon and "(" not in head:
+        return head.strip()
+    inner = text[text.find("(") + 1:].split(")")[0] if "(" in text else text
+    return re.split(r"[;,]", inner)[0].strip()
+
+
+def plain_paths(text: str) -> str:
+    """Case paths in words: ``doses[2]`` -> ``dose 3``, ``levels[0].time`` -> ``level 1``."""
+    for pattern, word in _PATHS:
+        text = pattern.sub(lambda m, w=word: f"{w} {int(m.group(1)) + 1}", text)
+    return re.sub(r"\bpatient\.(\w+)", lambda m: m.group(1).replace("_", " "), text)
+
+
+def dose_runs(doses: list[Any]) -> list[list[int]]:
+    """Indices of the doses in runs of the same amount, infusion, kind and timing at a steady interval."""
+    runs: list[list[int]] = []
+    for k, d in enumerate(doses):
+        run = runs[-1] if runs else None
+        if run:
+            last = doses[run[-1]]
+            step = d.start - last.start
+            same = (d.amount, d.duration, d.kind, d.timing) == (last.amount, last.duration, last.kind, last.timing)
+            regular = len(run) < 2 or abs(step - (last.start - doses[run[-2]].start)) < 1 / 120
+            if same and regular and step > 0 and d.timing == "actual":
+                run.append(k)
+                continue
+        runs.append([k])
+    return runs

@@ -94,6 +94,7 @@ class TdmApp(ComputeMixin, FilingMixin, App[int]):
         self.outcome: Any = None
         self.chosen: dict[str, Any] | None = None
         self.note = ""
+        self.note_full = False
         self.generation = 0
         self.computing = False
         self.compute_pending = False
@@ -262,19 +263,34 @@ class TdmApp(ComputeMixin, FilingMixin, App[int]):
 
     @on(PlanSection.RegimenChosen)
     def regimen_chosen(self, event: PlanSection.RegimenChosen) -> None:
-        """Remember the chosen regimen; the note names it."""
+        """Save the choice in the case (``chosen_regimen``): the note gives it as the regimen."""
+        from tdmtui.core.chosen import KEY, chosen_raw
+
         self.chosen = event.regimen
+        self.doc.snapshot("choose a regimen")
+        self.doc.raw[KEY] = chosen_raw(event.regimen)
+        if self.outcome is not None:  # the note follows at once; the recompute brings the record up to date
+            self.outcome.case.raw[KEY] = self.doc.raw[KEY]
+        self.post_message(CaseEdited(KEY))
         self.refresh_note()
-        self.notify("Regimen chosen: it is named in the note (section 6).", timeout=3)
+        self.notify("Regimen chosen: the note gives it as the regimen; ctrl+s saves it with the case.", timeout=4)
 
     def refresh_note(self) -> None:
-        """Rebuild the note from the latest result and choice."""
+        """Rebuild the note from the latest result and the case's choice."""
         from tdmtui.ui.notetext import note_text
 
         if self.outcome is None:
             return
-        self.note = note_text(self.outcome, self.chosen)
+        saved = self.doc.opened.sha256 if self.doc.opened is not None and not self.doc.dirty else None
+        self.note = note_text(self.outcome, full=self.note_full, saved_digest=saved)
         self.query_one(NoteSection).show(self.note)
+
+    def action_note_full(self) -> None:
+        """Note: show or hide the full section (every method, every model, references)."""
+        self.note_full = not self.note_full
+        self.refresh_note()
+        self.notify("Note: full detail shown (f hides it)." if self.note_full else "Note: standard length.",
+                    timeout=3)
 
 
 def run_app(path: str | None, protocol_path: str | None, mouse: bool = False) -> int:

@@ -71,14 +71,27 @@ class ComputeMixin:
         if self._spinner is not None:
             self._spinner.stop()
         self._spinner = self.set_timer(SPINNER_AFTER_S, self._show_spinner)
-        self.compute_case(self.generation, copy.deepcopy(self.doc.raw))
+        self.compute_case(self.generation, copy.deepcopy(self.doc.raw), self.saved_bytes())
+
+    def saved_bytes(self) -> bytes | None:
+        """The case file's bytes when the case is unchanged since it was opened or saved (its digest is the file's)."""
+        import json
+        from pathlib import Path
+
+        if self.doc.dirty or not self.doc.path or self.doc.opened is None:
+            return None
+        try:
+            data = Path(self.doc.path).read_bytes()
+            return data if json.loads(data.decode("utf-8")) == self.doc.raw else None
+        except (OSError, ValueError):
+            return None
 
     def _show_spinner(self) -> None:
         if self.computing:
             self.set_status("Computing... (the result updates when it is done)")
 
     @work(thread=True, exclusive=True, exit_on_error=False, group="compute")
-    def compute_case(self, generation: int, raw: dict[str, Any]) -> None:
+    def compute_case(self, generation: int, raw: dict[str, Any], data: bytes | None = None) -> None:
         """Worker thread: run the engine and post what happened (never touches widgets)."""
         t0 = time.perf_counter()
         try:
@@ -91,7 +104,7 @@ class ComputeMixin:
                 from tdmtui.core.library import load_protocol
 
                 protocol = load_protocol(self.protocol_path)
-            outcome = compute_raw(raw, protocol=protocol)
+            outcome = compute_raw(raw, data, protocol=protocol)
             outcome.plot_data = build_plot_data(outcome)
             self.post_message(EstimateReady(generation, outcome, time.perf_counter() - t0))
         except InputError as exc:
@@ -112,9 +125,8 @@ class ComputeMixin:
         self.query_one(EstimateSection).show(event.outcome, getattr(event.outcome, "plot_data", None))
         plan = self.query_one(PlanSection)
         plan.show(event.outcome)
-        had_choice = self.chosen is not None
         self.chosen = plan.options[plan.chosen] if plan.chosen is not None else None
-        if had_choice and self.chosen is None:
+        if self.doc.raw.get("chosen_regimen") and self.chosen is None:
             self.notify("The chosen regimen is no longer offered after this change: choose again in Plan.",
                         severity="warning", timeout=6)
         self.refresh_note()

@@ -97,6 +97,7 @@ class FilingMixin:
         """After a save: remove the recovery file and say so."""
         remove_recovery(recovery_path(self.doc.path, self.state))
         self.update_header()
+        self.refresh_note()  # the note's record now names the saved file
         self.notify(f"Saved {self.doc.path}", timeout=3, markup=False)
 
     def action_quit_app(self) -> None:

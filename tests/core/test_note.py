@@ -51,6 +51,11 @@ def note_of(name: str) -> str:
     return render_note(outcome_of(name))
 
 
+@lru_cache(maxsize=None)
+def full_note_of(name: str) -> str:
+    return render_note(outcome_of(name), full=True)
+
+
 def flat(text: str) -> str:
     """Whitespace-normalised text (the note wraps sentences at 80 columns)."""
     return " ".join(text.split())
@@ -83,30 +88,18 @@ def test_note_matches_golden_file(name):
 
 # --- every printed estimate figure is the engine's, rounded as documented ----------
 
-def table_rows(note: str) -> dict[str, list[str]]:
-    """The methods table: label -> [ke, t1/2, Vd, CL, AUC24] as printed."""
+def table_rows(note: str) -> list[list[str]]:
+    """The methods table of the full note, in order: [ke, t1/2, Vd, CL, AUC24] as printed."""
     lines = note.splitlines()
     start = next(i for i, line in enumerate(lines) if line.startswith("Method ") and "ke /h" in line)
-    rows: dict[str, list[str]] = {}
-    pending = ""
+    rows: list[list[str]] = []
     for line in lines[start + 1:]:
         if line.startswith("AUC24 in mg*h/L"):
             break
         if len(line) < 40 or not line[-40:].strip():
-            pending = line.strip()
             continue
-        label = line[:-40].strip() or pending
-        rows[label] = line[-40:].split()
-        pending = ""
+        rows.append(line[-40:].split())
     return rows
-
-
-def result_for(res: dict, label: str) -> dict:
-    if label.endswith(" (used)"):
-        return res["estimate"]
-    if label in res["methods"]:
-        return res["methods"][label]
-    return res["methods"][label.split(":")[0]]  # a method id shown with its model
 
 
 @pytest.mark.parametrize("name", [p.stem for p in ALL_SAMPLES])
@@ -114,10 +107,12 @@ def test_printed_estimates_equal_result_rounded(name):
     res = outcome_of(name).result
     if not res.get("estimate"):
         pytest.skip(f"{name}: no estimate (status {res['status']})")
-    rows = table_rows(note_of(name))
-    assert len(rows) == 1 + len(res["methods"])
-    for label, cells in rows.items():
-        e = result_for(res, label)
+    rows = table_rows(full_note_of(name))
+    # the table lists the estimate used, then every other method in the result's order
+    estimates = [res["estimate"], *res["methods"].values()]
+    assert len(rows) == len(estimates)
+    for cells, e in zip(rows, estimates):
+        label = e.get("method")
         ke, t_half, vd, cl, auc24 = cells
         # rounding rule (notefmt docstring): ke 3 significant figures, t1/2 and Vd 1 decimal,
         # CL 2 decimals, AUC24 whole number
@@ -133,7 +128,7 @@ def test_printed_estimates_equal_result_rounded(name):
             assert close_to_printed(auc24, cur), (label, auc24, cur)
 
 
-PREDICTED = re.compile(r"Predicted at steady state: peak ([\d.]+) mg/L, trough ([\d.]+) mg/L, "
+PREDICTED = re.compile(r"predicted at steady state peak ([\d.]+) mg/L, trough ([\d.]+) mg/L, "
                        r"AUC24 ([\d.]+) mg\*h/L")
 
 
@@ -156,13 +151,19 @@ def test_bayesian_intervals_printed_from_result():
     iv = (res.get("estimate") or {}).get("interval90")
     if not iv:
         pytest.skip("vanc-trough-only has no Bayesian interval in its result")
-    m = re.search(r"90 % intervals: ke ([\d.]+)-([\d.]+) /h, Vd ([\d.]+)-([\d.]+) L, "
-                  r"CL ([\d.]+)-([\d.]+) L/h, AUC24 ([\d.]+)-([\d.]+) mg\*h/L", flat(note_of("vanc-trough-only")))
+    m = re.search(r"90 % intervals \(\d+ draws, seed \d+\): ke ([\d.]+)-([\d.]+) /h, Vd ([\d.]+)-([\d.]+) L, "
+                  r"CL ([\d.]+)-([\d.]+) L/h, AUC24 ([\d.]+)-([\d.]+) mg\*h/L", flat(full_note_of("vanc-trough-only")))
     assert m, "interval line missing"
     values = [*iv["ke_per_h"], *iv["vd_l"], *iv["cl_l_per_h"], *iv["auc24_mg_h_per_l"]]
     for printed, value in zip(m.groups(), values):
         assert close_to_printed(printed, value), (printed, value)
-    assert f"seed {res['estimate']['model']['seed']}" in flat(note_of("vanc-trough-only"))
+    assert f"seed {res['estimate']['model']['seed']}" in flat(full_note_of("vanc-trough-only"))
+    # the standard note gives the CL and AUC24 intervals of the estimate used
+    m = re.search(r"90 % interval: CL ([\d.]+)-([\d.]+) L/h, AUC24 now ([\d.]+)-([\d.]+) mg\*h/L",
+                  flat(note_of("vanc-trough-only")))
+    assert m, "standard interval line missing"
+    for printed, value in zip(m.groups(), [*iv["cl_l_per_h"], *iv["auc24_mg_h_per_l"]]):
+        assert close_to_printed(printed, value), (printed, value)
 
 
 # --- layout and the standing elements, for every sample case -------------------------
@@ -178,7 +179,7 @@ def test_cli_note_for_every_sample(path, capsys):
     for label in ("Pharmacist:", "Date/time:", "Prescriber contacted:"):
         assert any(re.fullmatch(rf"{re.escape(label)}\s*_{{20,}}", line) for line in lines), label
     digest = hashlib.sha256(path.read_bytes()).hexdigest()
-    assert f"  {digest}" in lines
+    assert f"Case sha256 {digest}" in lines
 
 
 def test_stop_case_says_no_regimen_and_why():
@@ -209,8 +210,7 @@ def test_unsaved_case_is_marked_and_digested_canonically():
     raw = base_case()
     text = render_note(compute_raw(raw))
     canonical = (json.dumps(raw, ensure_ascii=False, indent=2) + "\n").encode("utf-8")
-    assert "UNSAVED" in text
-    assert f"  {hashlib.sha256(canonical).hexdigest()}" in text.splitlines()
+    assert f"UNSAVED sha256 {hashlib.sha256(canonical).hexdigest()}" in text.splitlines()
 
 
 # --- level timing and steady state ------------------------------------------------------
@@ -218,18 +218,23 @@ def test_unsaved_case_is_marked_and_digested_canonically():
 def test_level_times_relative_to_doses():
     # base_case: dose 2 20:00-21:30 on 03-02, dose 3 08:00-09:30 on 03-03; levels 07:35 and 11:00
     # 07:35 - 21:30 = 10 h 05 min; 08:00 - 07:35 = 25 min; 11:00 - 09:30 = 1 h 30 min (worked by hand)
-    text = flat(render_note(compute_raw(base_case())))
-    assert "14.2 mg/L: drawn 10 h 05 min after the end of the infusion of dose 2; 25 min before dose 3" in text
-    assert "31.2 mg/L: drawn 1 h 30 min after the end of the infusion of dose 3" in text
+    out = compute_raw(base_case())
+    text = flat(render_note(out, full=True))
+    assert "14.2 mg/L: 10 h 05 min after the end of the infusion of dose 2; 25 min before dose 3" in text
+    assert "31.2 mg/L: 1 h 30 min after the end of the infusion of dose 3" in text
+    # the standard note names the nearer dose event only
+    short = flat(render_note(out))
+    assert "14.2 mg/L: 25 min before dose 3." in short
+    assert "31.2 mg/L: 1 h 30 min after the end of dose 3." in short
 
 
 def test_level_during_infusion_and_set_aside():
     raw = base_case()
     raw["levels"].append({"time": "2026-03-03T09:05", "conc": "48.0 mg/L", "use": False,
                           "reason": "drawn from the infusion line"})
-    text = flat(render_note(compute_raw(raw)))
+    text = flat(render_note(compute_raw(raw), full=True))
     # 09:05 - 08:00 = 1 h 05 min into the 90 min infusion of dose 3 (by hand)
-    assert "48.0 mg/L: drawn during the infusion of dose 3, 1 h 05 min after its start" in text
+    assert "48.0 mg/L: during the infusion of dose 3, 1 h 05 min after its start" in text
     assert "SET ASIDE: drawn from the infusion line" in text
 
 
@@ -250,18 +255,136 @@ def test_duration_wording():
                                                                             "9 h 45 min"]
 
 
-def test_regimen_chosen_in_review_is_printed_beside_the_proposal():
-    out = outcome_of("vanc-steady-state")
-    alts = (out.result.get("regimen") or {}).get("alternatives") or []
-    if not alts:
-        pytest.skip("no alternative regimen in the result of vanc-steady-state")
-    alt = alts[0]
-    text = flat(render_note(out, chosen=alt))
-    m = re.search(r"Chosen in review instead: ([\d.]+) mg every .*?AUC24 ([\d.]+) mg\*h/L", text)
-    assert m, "chosen regimen missing"
-    assert float(m.group(1)) == pytest.approx(alt["dose_mg"])
-    assert close_to_printed(m.group(2), alt["predicted"]["auc24_mg_h_per_l"])
-    assert "Chosen in review" not in render_note(out, chosen=out.result["regimen"])
+def test_chosen_regimen_in_the_case_is_the_regimen_of_the_note(tmp_path, capsys):
+    # the case's chosen_regimen names an alternative: the note gives it with its own timing
+    raw = json.loads((SAMPLES / "vanc-steady-state.json").read_text(encoding="utf-8"))
+    res = outcome_of("vanc-steady-state").result
+    alt = res["regimen"]["alternatives"][0]
+    raw["chosen_regimen"] = {"dose": f"{alt['dose_mg']:g} mg", "interval": f"{alt['interval_h']:g} h",
+                             "duration": f"{alt['infusion_h'] * 60:g} min"}
+    path = tmp_path / "chosen.json"
+    path.write_text(json.dumps(raw), encoding="utf-8")
+    assert main(["note", str(path)]) == 0
+    text = flat(capsys.readouterr().out)
+    m = re.search(r"Chosen in review: [a-z ,]+ ([\d.]+) mg every ([\d.]+) h over .*?AUC24 ([\d.]+) mg\*h/L", text)
+    assert m, text
+    assert float(m.group(1)) == pytest.approx(alt["dose_mg"]) and float(m.group(2)) == alt["interval_h"]
+    assert close_to_printed(m.group(3), alt["predicted"]["auc24_mg_h_per_l"])
+    assert "Proposed:" not in text and "(The tool proposed 1000 mg every 12 h over 1 h.)" in text
+    # its hold, next dose and levels, not the proposal's
+    assert f"next dose at {alt['next_dose_at'].replace('T', ' ')}" in text
+    for nl in alt["next_levels"]:
+        assert f"{nl['kind']} at {nl['at'].replace('T', ' ')}" in text
+    for nl in res["regimen"]["next_levels"]:
+        assert nl["at"].replace("T", " ") not in text
+    # the working's new-dose step follows the chosen regimen
+    assert f"given as {alt['dose_mg']:g} mg" in text
+
+
+def test_a_choice_no_longer_offered_says_so_and_keeps_the_proposal():
+    raw = json.loads((SAMPLES / "vanc-steady-state.json").read_text(encoding="utf-8"))
+    raw["chosen_regimen"] = {"dose": "3000 mg", "interval": "6 h", "duration": "2 h"}
+    text = flat(render_note(compute_raw(raw)))
+    assert "Proposed: hold, then change to 1000 mg every 12 h over 1 h" in text
+    assert "The regimen chosen in review (3000 mg every 6 h over 2 h) is no longer offered" in text
+
+
+@pytest.mark.parametrize("value, field", [({"dose": "750", "interval": "8 h", "duration": "1 h"}, "chosen_regimen.dose"),
+                                          ({"dose": "750 mg", "duration": "1 h"}, "chosen_regimen.interval"),
+                                          ("750 mg q8h", "chosen_regimen")])
+def test_a_mistyped_choice_is_an_input_error_naming_it(tmp_path, capsys, value, field):
+    raw = json.loads((SAMPLES / "vanc-steady-state.json").read_text(encoding="utf-8"))
+    raw["chosen_regimen"] = value
+    path = tmp_path / "bad.json"
+    path.write_text(json.dumps(raw), encoding="utf-8")
+    assert main(["note", str(path)]) == 2
+    assert capsys.readouterr().err.startswith(field + ":")
+
+
+# --- written for clinicians, short, complete ----------------------------------------------
+
+#: Remarks about how a source was checked, and program internals, that must not reach the chart.
+DEVELOPER_TEXT = ("from memory", "confirmed", "re-typed", "verify against", "year not", "secondary copy",
+                  "[library]", "pk-sources", "patient.", "doses[", "levels[", "rule tbw", "crcl_cg", "eta =",
+                  "auto does not", "(used)")
+#: Two-level and one-level cases of the usual kind: the standard note fits in 60 lines.
+STANDARD = ("vanc-steady-state", "vanc-trough-only", "gent-peak-trough", "amikacin", "vanc-late-dose",
+            "vanc-obese", "vanc-continuous", "gent-new-start")
+
+
+@pytest.mark.parametrize("name", [p.stem for p in ALL_SAMPLES])
+def test_note_speaks_to_clinicians_within_80_columns(name):
+    for text in (note_of(name), full_note_of(name)):
+        assert max(len(line) for line in text.splitlines()) <= 80
+        low = text.lower()
+        found = [w for w in DEVELOPER_TEXT if w.lower() in low and not (w == "(used)" and text is full_note_of(name))]
+        assert not found, f"{name}: developer-facing text {found}"
+        assert not re.search(r":\s*\.|\(\s*\)", text), f"{name}: an empty source"
+    lines = note_of(name).splitlines()
+    if name in STANDARD:
+        assert len(lines) <= 60, f"{name}: {len(lines)} lines"
+    assert "REFERENCES" not in note_of(name) and "EVERY METHOD" not in note_of(name)
+
+
+@pytest.mark.parametrize("name", [p.stem for p in ALL_SAMPLES])
+def test_full_note_lists_each_reference_once(name):
+    text = full_note_of(name)
+    if "REFERENCES" not in text:
+        return
+    refs = text.split("REFERENCES\n", 1)[1].split("\n\n", 1)[0]
+    items = [flat(x) for x in re.split(r"\n(?=\d+\. )", refs)]
+    assert len(items) == len(set(items))
+    # a reference is listed, not repeated in the text above it
+    for item in items:
+        body = item.split(". ", 1)[1][:40]
+        assert flat(text.split("REFERENCES")[0]).count(body) == 0, body
+
+
+def test_unverified_model_gets_one_plain_sentence():
+    text = flat(note_of("vanc-trough-only"))
+    assert text.count("this model's values have not been checked against its published paper") == 1
+    assert "Thomson 2009: this model's values" in text
+
+
+def test_model_inputs_in_words_with_the_reason_they_differ():
+    # Cockcroft-Gault by hand with total body weight (pk-sources.md 1.1): (140 - 48) x 88 / (72 x 1.1) = 102.2
+    text = flat(note_of("vanc-trough-only"))
+    assert ("its inputs: CrCl 102 mL/min (Cockcroft-Gault, total body weight, as the model defines it; the "
+            "headline CrCl is 87 mL/min: it uses ideal body weight 75.0 kg), weight 88 kg.") in text
+    # with ideal body weight 75.0 kg: (140 - 48) x 75 / (72 x 1.1) = 87.1 mL/min, the headline figure
+    assert "CrCl 87 mL/min (Cockcroft-Gault, ideal body weight, SCr 1.1 mg/dL)" in text
+
+
+def test_chance_of_target_of_the_proposal_is_in_the_note():
+    res = outcome_of("vanc-trough-only").result
+    p = res["regimen"]["predicted"]["target_probability"]
+    m = re.search(r"Proposed: .*?chance of meeting the target (\d+) %", flat(note_of("vanc-trough-only")))
+    assert m and int(m.group(1)) == round(100 * p)
+
+
+def test_working_is_the_textbook_calculation():
+    # W5 (pk-sources.md worked example; sample_cases/README.md): ke = ln(40/19)/9 = 0.0827 /h,
+    # Cmax = 40 e^(ke x 1 h), CL = ke x V, AUC24 = daily dose / CL
+    text = flat(note_of("vanc-steady-state"))
+    ke = math.log(40.0 / 19.0) / 9.0
+    assert f"ke = ln(C1/C2) / (t2 - t1) = ln(40.0/19.0) / 9 h = {ke:.4f} /h" in text
+    assert f"= {40.0 * math.exp(ke):.1f} mg/L (end of infusion)" in text
+    est = outcome_of("vanc-steady-state").result["estimate"]
+    assert f"AUC24 now = 3000 / {est['cl_l_per_h']:.2f} = {3000 / est['cl_l_per_h']:.0f} mg*h/L" in text
+    # each "a / b = c" and "a x b = c" in the working, recomputed here, gives the printed c
+    work = note_of("vanc-steady-state").split("Working (to check by hand):")[1].split("Other methods")[0]
+    checked = 0
+    for a, op, b, c in re.findall(r"(?<![\w.])(?<![x/] )([\d.]+) ([/x]) ([\d.]+) = ([\d.]+)(?![\d.]* x)", flat(work)):
+        got = float(a) / float(b) if op == "/" else float(a) * float(b)
+        assert abs(got - float(c)) <= 0.006 * abs(float(c)) + 0.05, (a, op, b, c)
+        checked += 1
+    assert checked >= 3, work
+
+
+def test_two_compartment_working_states_vss():
+    text = flat(note_of("vanc-trough-only"))
+    two = outcome_of("vanc-trough-only").result["estimate"]["two_compartment"]
+    assert f"Vss = V1 + V2 = {two['v1_l']:.1f} + {two['v2_l']:.1f} = " in text
 
 
 def test_protocol_floor_and_record(tmp_path, capsys):
@@ -273,8 +396,7 @@ def test_protocol_floor_and_record(tmp_path, capsys):
     # latest measured SCr 0.9 mg/dL is below the 1.0 floor (sample case file)
     assert "SCr floor 1 mg/dL (protocol: demo local rule); CrCl computed with the floor instead of the " \
            "measured 0.9 mg/dL." in flat(text)
-    assert "Local protocol: Demo ward, sha256:" in text
-    assert f"  {hashlib.sha256(proto.read_bytes()).hexdigest()}" in text.splitlines()
+    assert f"local protocol Demo ward (sha256 {hashlib.sha256(proto.read_bytes()).hexdigest()})" in flat(text)
 
 
 def test_two_compartment_figures_printed_when_the_estimate_has_them():
@@ -285,7 +407,8 @@ def test_two_compartment_figures_printed_when_the_estimate_has_them():
     out.result["estimate"] = dict(two_comp[0])
     two = two_comp[0]["two_compartment"]
     m = re.search(r"V1 ([\d.]+) L, V2 ([\d.]+) L, Q ([\d.]+) L/h, alpha half-life ([\d.]+) h, "
-                  r"terminal \(beta\) half-life ([\d.]+) h, ln 2 x Vss / CL ([\d.]+) h", flat(render_note(out)))
+                  r"terminal \(beta\) half-life ([\d.]+) h, ln 2 x Vss / CL ([\d.]+) h",
+                  flat(render_note(out, full=True)))
     assert m, "two-compartment line missing"
     for printed, key in zip(m.groups(), ("v1_l", "v2_l", "q_l_per_h", "alpha_half_life_h", "beta_half_life_h",
                                          "vss_half_life_h")):

@@ -84,7 +84,7 @@ async def test_type_a_new_vancomycin_case_fit_choose_and_copy_note(state):
         assert app.chosen["dose_mg"] == second[1]["dose_mg"]
         await pilot.press("f7", "c")
         assert app.clipboard == app.note
-        assert "Regimen chosen in review" in app.clipboard
+        assert "Chosen in review: " in app.clipboard
         assert f"{app.chosen['dose_mg']:.0f} mg" in app.clipboard
 
 
@@ -305,9 +305,10 @@ async def test_write_note_to_a_file_0600(state, sample_copy):
         await pilot.press("enter")
         await pilot.pause()
     out = path.with_name("vanc-steady-state.note.txt")
-    from tdmtui.ui.safety import caution_line
+    from tdmtui.core.safety import NOTE_LINE
 
-    assert out.read_text() == app.note and caution_line() in app.note  # the note carries the caution
+    # the note carries the standing caution (wrapped at 80 columns)
+    assert out.read_text() == app.note and " ".join(NOTE_LINE.split()) in " ".join(app.note.split())
     assert stat.S_IMODE(os.stat(out).st_mode) == 0o600
 
 

@@ -110,10 +110,13 @@ class EstimateSection(Vertical):
 
 
 def working_text(outcome: Any) -> str:
-    """The "show working" text: each step's equation and the numbers put into it."""
-    if outcome is None or not outcome.working:
+    """The working of the note (to check by hand), then the engine's own steps with their numbers."""
+    if outcome is None or not outcome.result.get("estimate"):
         return "No working to show."
-    lines = []
+    from tdmtui.core.note import chosen_of
+    from tdmtui.core.noteplan import working_block
+
+    lines = working_block(outcome, chosen_of(outcome)[0]) + ["", "How the engine solved it:"]
     for i, w in enumerate(outcome.working, 1):
         lines.append(f"{i}. {w.title}" + (f"  [{w.method}]" if getattr(w, "method", "") else ""))
         lines.append(f"   {w.equation}")

@@ -1,4 +1,4 @@
-"""Note: the chart note, copied to the clipboard (c) or written to a file (w)."""
+"""Note: the chart note, copied to the clipboard (c), written to a file (w), full detail (f)."""
 
 from __future__ import annotations
 
@@ -16,10 +16,11 @@ class NoteSection(Vertical):
     BINDINGS = [
         Binding("c", "app.copy_note", "Copy note", id="note.copy"),
         Binding("w", "app.write_note", "Write to file", id="note.write"),
+        Binding("f", "app.note_full", "Full detail", id="note.full"),
     ]
 
     def compose(self) -> ComposeResult:
-        yield Label("c copy to clipboard (OSC 52)   w write to a file (0600)", classes="section-title")
+        yield Label("c copy (OSC 52)  w write to a file (0600)  f full detail on/off", classes="section-title")
         with VerticalScroll(id="note-scroll"):
             yield Static("The note appears when the case computes.", id="note-text", markup=False)
         yield Label(COPY_CAVEAT, id="note-caveat", classes="caution", markup=False)

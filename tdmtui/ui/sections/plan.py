@@ -11,6 +11,7 @@ from textual.containers import Vertical
 from textual.message import Message
 from textual.widgets import DataTable, Label, Static
 
+from tdmtui.core.chosen import offered, parse_chosen, same
 from tdmtui.ui import formatting as fm
 from tdmtui.ui.safety import caution_line
 
@@ -19,10 +20,17 @@ COLUMNS = ("", "Action", "Dose", "Every", "Over", "AUC24", "Peak", "Trough", "Pr
 
 def candidates(result: dict[str, Any]) -> list[dict[str, Any]]:
     """The regimens to choose from: the proposal first, then the alternatives."""
-    reg = result.get("regimen") or {}
-    if reg.get("candidates"):
-        return list(reg["candidates"])
-    return ([reg] if reg else []) + list(reg.get("alternatives") or [])
+    return offered(result)
+
+
+def chosen_in(raw: dict[str, Any]) -> dict[str, Any] | None:
+    """The case's ``chosen_regimen``, or None (absent or not readable: the engine names it)."""
+    from tdmtui.core.errors import InputError
+
+    try:
+        return parse_chosen(raw)
+    except InputError:
+        return None
 
 
 def probability_text(c: dict[str, Any]) -> str:
@@ -79,13 +87,12 @@ class PlanSection(Vertical):
         """Fill the proposal and candidates from an Outcome (None clears)."""
         result = outcome.result if outcome is not None else {}
         self.query_one("#plan-summary", Static).update(summary_lines(result))
-        before = self.options[self.chosen] if self.chosen is not None and self.chosen < len(self.options) else None
         self.options = candidates(result)
         self.chosen = None
-        if before is not None:  # keep the choice when the same regimen is still offered after a recompute
-            key = (before.get("dose_mg"), before.get("interval_h"), before.get("infusion_h"))
+        wanted = chosen_in(outcome.case.raw) if outcome is not None else None
+        if wanted is not None:  # the case's choice, when it is still offered
             for i, c in enumerate(self.options):
-                if (c.get("dose_mg"), c.get("interval_h"), c.get("infusion_h")) == key:
+                if same(c, wanted):
                     self.chosen = i
         self.fill()
 
