@@ -98,25 +98,22 @@ def _doses(outcome: Any, full: bool) -> list[str]:
     if not doses:
         return lines + ["Doses: none recorded (the course has not started)."]
     runs = [[k] for k in range(len(doses))] if full else f.dose_runs(doses)
-    if len(runs) > 1:
-        lines.append(f"Doses given ({len(doses)}):")
-    for run in runs:
+    for n, run in enumerate(runs):
         d = doses[run[0]]
         flags = [d.kind] if d.kind != "maintenance" else []
         flags += [d.timing + " time"] if d.timing != "actual" else []
         flags += ["after the assessment time: not used"] if d.start > case.as_of else []
         tail = f"  ({', '.join(flags)})" if flags else ""
         start = f.when(case.clock.format(d.start))
-        lead = "Doses given: " if len(runs) == 1 else "  "
+        lead = "Doses: " if n == 0 else "       "
         if len(run) == 1:
             lines.append(f"{lead}{run[0] + 1}. {start}  {f.mg(d.amount)} mg over {f.duration(d.duration)}{tail}")
             continue
         last = f.when(case.clock.format(doses[run[-1]].start))
         last = last[5:] if last[:4] == start[:4] else last  # the year once
         step = doses[run[1]].start - d.start
-        lead = "Doses " if len(runs) == 1 else "  "
-        lines += f.wrap(f"{lead}{run[0] + 1}-{run[-1] + 1}: {f.mg(d.amount)} mg over {f.duration(d.duration)} "
-                        f"{f.every(step)} from {start} to {last}{tail}", "", "      ")
+        lines += f.wrap(f"{lead}{run[0] + 1}-{run[-1] + 1}. {f.mg(d.amount)} mg over {f.duration(d.duration)} "
+                        f"{f.every(step)}, {start} to {last}{tail}", "", "         ")
     return lines
 
 

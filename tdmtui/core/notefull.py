@@ -59,15 +59,16 @@ def _crcl_words(outcome: Any, model_id: str, value: float) -> str:
                                                            renal.crcl_weight_kg))
         if float(rules.get("crcl_cap_ml_min", 0) or 0) and value >= float(rules["crcl_cap_ml_min"]) - 0.5:
             why.append(f"the model caps CrCl at {float(rules['crcl_cap_ml_min']):.0f} mL/min")
-        if float(rules.get("scr_floor_mg_dl", 0) or 0) > 0:
-            why.append(f"the model raises SCr below {f.scr(float(rules['scr_floor_mg_dl']))} mg/dL to it")
+        floor = float(rules.get("scr_floor_mg_dl", 0) or 0)
+        if floor > 0 and renal is not None and renal.scr_measured_mg_dl < floor:
+            why.append(f"the model raises SCr to {f.scr(floor)} mg/dL")
         if renal is not None and renal.scr_used_mg_dl > renal.scr_measured_mg_dl:
             why.append("it uses the SCr floor")
         text += f"; the headline CrCl is {headline:.0f} mL/min" + (": " + ", ".join(why) if why else "")
     return text + ")"
 
 
-def inputs_in_words(outcome: Any, e: dict[str, Any]) -> str:
+def input_parts(outcome: Any, e: dict[str, Any]) -> list[str]:
     """The values a model was given, in words, only those the model uses."""
     model = e.get("model") or {}
     mid, cov = str(model.get("id") or ""), model.get("covariates") or {}
@@ -81,17 +82,37 @@ def inputs_in_words(outcome: Any, e: dict[str, Any]) -> str:
             parts.append(f"{label} {float(cov[key]):g} {unit}")
     if "dial" in used and "dial" in cov:
         parts.append("on intermittent haemodialysis" if cov["dial"] else "not on dialysis")
-    return ", ".join(parts)
+    return parts
+
+
+def inputs_in_words(outcome: Any, e: dict[str, Any]) -> str:
+    """:func:`input_parts` joined."""
+    return ", ".join(input_parts(outcome, e))
 
 
 def model_words(outcome: Any) -> list[str]:
-    """The model behind the estimate used and what it was given (empty for level methods)."""
+    """The model behind the estimate used and what it was given (empty for level methods).
+
+    For a model average, the inputs the models share are given once and the
+    others with the model's name.
+    """
     e = outcome.result.get("estimate") or {}
     model = e.get("model") or {}
     if not model.get("id"):
         return []
-    words = inputs_in_words(outcome, e)
-    return f.wrap(f"Model: {model.get('name') or model['id']}" + (f"; its inputs: {words}." if words else "."))
+    if not model.get("weights"):
+        words = inputs_in_words(outcome, e)
+        return f.wrap(f"Model: {model.get('name') or model['id']}" + (f"; its inputs: {words}." if words else "."))
+    each = []
+    for mid in model["weights"]:
+        part = (outcome.result.get("methods") or {}).get(f"bayesian:{mid}") or {}
+        each.append((str((part.get("model") or {}).get("name", mid)).split(" (")[0], input_parts(outcome, part)))
+    common = [p for p in each[0][1] if all(p in parts for _, parts in each)] if each else []
+    extra = [f"{name} also {', '.join(p for p in parts if p not in common)}" for name, parts in each
+             if any(p not in common for p in parts)]
+    if not common and not extra:
+        return []
+    return f.wrap("Model inputs: " + "; ".join([", ".join(common)] + extra if common else extra) + ".")
 
 
 def _table(res: dict[str, Any]) -> list[str]:

@@ -41,9 +41,12 @@ def model_label(e: dict[str, Any]) -> str:
 
 
 def method_label(name: str, e: dict[str, Any]) -> str:
-    """One naming of a method everywhere: ``bayesian (Thomson 2009)``, ``population (Goti 2018)``."""
+    """One naming of a method everywhere: ``bayesian (Thomson 2009)``, ``population (Goti 2018)``.
+
+    The model-averaged Bayesian estimate is ``bayesian (model average)``.
+    """
     family = name.split(":", 1)[0]
-    model = model_label(e)
+    model = model_label(e).removeprefix("the ")
     return f"{family} ({model})" if model and family in ("bayesian", "population") else family
 
 
@@ -70,8 +73,12 @@ def estimate_lines(outcome: Any, regimen: dict[str, Any] | None, model_words: li
         return lines + f.wrap("No estimate: no method applies to this case (see Warnings).")
     used = est.get("method", method)
     nums = _level_numbers(outcome, est.get("levels_used") or [])
-    lines += f.wrap(f"Method: {method_label(used, est)} ({METHOD_TEXT.get(used, used)})"
-                    + (f" on level{'s' if ' ' in nums else ''} {nums}." if nums else "."))
+    why = res.get("method_reason")
+    on = f" on level{'s' if ' ' in nums else ''} {nums}" if nums else ""
+    if why and method != "nomogram":  # the engine's one sentence says why this method and what it rests on
+        lines += f.wrap(f"Method: {method_label(used, est)}{on}: {f.plain_paths(why)}")
+    else:
+        lines += f.wrap(f"Method: {method_label(used, est)} ({METHOD_TEXT.get(used, used)}){on}.")
     if method == "nomogram":
         lines += f.wrap(f"Estimate beside it: {method_label(used, est)}: {METHOD_TEXT.get(used, '')}.")
     vkg = f" ({est['vd_l_per_kg']:.2f} L/kg)" if est.get("vd_l_per_kg") else ""
@@ -166,12 +173,14 @@ def monitoring_lines(outcome: Any, reg: dict[str, Any] | None) -> list[str]:
 def _warning_text(w: dict[str, Any]) -> str:
     if w.get("code") == "model-secondary-only":
         name = str(w.get("message", "")).split(":", 1)[0] or "This model"
-        return (f"{name}: this model's values have not been checked against its published paper; "
-                "weigh its estimate against the measured levels.")
+        whose = "these models' values have" if " and " in name else "this model's values have"
+        return (f"{name}: {whose} not been checked against the published paper; "
+                "weigh the estimate against the measured levels.")
     text = str(w.get("message", ""))
     text = text.replace("verified from a secondary source only, so auto does not choose it",
                         "not checked against its published paper, so it is not chosen unless asked for")
     text = text.replace("is verified from a secondary source only", "has not been checked against its published paper")
+    text = text.replace("was checked against a secondary copy only", "has not been checked against its published paper")
     text = text.replace(" is not confirmed", " is uncertain").replace(" not confirmed", " uncertain")
     return f.plain_paths(f.plain_source(text))
 
