@@ -92,6 +92,9 @@ class TdmApp(ComputeMixin, FilingMixin, App[int]):
                 self.open_error = f"Could not open {path}: {exc}. Started a new case instead."
                 self.case_path = None
         self.outcome: Any = None
+        self.protocol: Any = None
+        self.protocol_note = ""
+        self.load_protocol()
         self.chosen: dict[str, Any] | None = None
         self.note = ""
         self.note_full = False
@@ -120,7 +123,23 @@ class TdmApp(ComputeMixin, FilingMixin, App[int]):
         yield Static("", id="status", markup=False)
         yield Footer(compact=True)
 
+    def load_protocol(self) -> None:
+        """The local protocol, as the command line takes it: ``--protocol``, else the default file if present."""
+        from tdmtui.core.errors import InputError
+        from tdmtui.core.library import default_protocol_path, load_protocol
+
+        path = self.protocol_path or (str(default_protocol_path()) if default_protocol_path().is_file() else None)
+        if not path:
+            return
+        try:
+            self.protocol = load_protocol(path)
+        except (InputError, OSError) as exc:
+            why = f"{exc.field}: {exc.message}" if isinstance(exc, InputError) else str(exc)
+            self.protocol_note = f"Local protocol {path} NOT used ({why}): library values apply."
+
     def on_mount(self) -> None:
+        if self.protocol_note:
+            self.notify(self.protocol_note, severity="error", markup=False, timeout=10)
         self.update_header()
         self.update_tabs()
         self.show_warnings([])
@@ -146,7 +165,9 @@ class TdmApp(ComputeMixin, FilingMixin, App[int]):
         """Drug, patient summary (age, sex, weight, CrCl), file name and saved/unsaved state."""
         raw = self.doc.raw
         p = raw.get("patient", {}) if isinstance(raw.get("patient"), dict) else {}
-        _, _, self.crcl = derived_text(raw)
+        _, _, self.crcl = derived_text(raw, self.protocol)
+        if self.outcome is not None and self.outcome.case.raw == raw:  # the engine's own figure for this case
+            self.crcl = self.outcome.result["patient"]["crcl_ml_min"]
         crcl = fm.qty(self.crcl, "crcl_ml_min") if self.crcl is not None else "?"
         sex = {"male": "M", "female": "F"}.get(p.get("sex", ""), "?")
         who = f"{p.get('age') or '? yr'} {sex} {p.get('weight') or '? kg'} CrCl {crcl}"
@@ -220,7 +241,8 @@ class TdmApp(ComputeMixin, FilingMixin, App[int]):
     def focus_section(self) -> None:
         """Focus the section's table, else its first focusable widget."""
         section = self.query_one(f"#{self.current_section()}")
-        tables = [t for t in section.query(DataTable) if t.focusable]
+        # the patient form starts at its first field (its SCr table is one of its fields)
+        tables = [t for t in section.query(DataTable) if t.focusable] if section.id != "patient" else []
         for widget in tables or section.query("*"):
             if widget.focusable:
                 section.screen.set_focus(widget)  # at once, on the workspace screen (not a dialog)
@@ -243,10 +265,9 @@ class TdmApp(ComputeMixin, FilingMixin, App[int]):
         """After any edit: header, recovery file, recompute."""
         self.doc.dirty = True
         self.update_header()
+        self.query_one(PatientSection).update_derived()
         self.autosave()
         self.request_compute()
-        if event.what in ("undo", "repeat") or event.what.startswith(("add", "delete", "patient.drug")):
-            pass
 
     def autosave(self) -> None:
         """Write the recovery file (atomic, 0600)."""

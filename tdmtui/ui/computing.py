@@ -99,12 +99,7 @@ class ComputeMixin:
             from tdmtui.core.errors import InputError, NoEstimateError
             from tdmtui.ui.widgets.plotdata import build_plot_data
 
-            protocol = None
-            if self.protocol_path:
-                from tdmtui.core.library import load_protocol
-
-                protocol = load_protocol(self.protocol_path)
-            outcome = compute_raw(raw, data, protocol=protocol)
+            outcome = compute_raw(raw, data, protocol=self.protocol)
             outcome.plot_data = build_plot_data(outcome)
             self.post_message(EstimateReady(generation, outcome, time.perf_counter() - t0))
         except InputError as exc:
@@ -122,6 +117,7 @@ class ComputeMixin:
         self.mark_field("", "")
         self.outcome = event.outcome
         result = event.outcome.result
+        self.update_header()
         self.query_one(EstimateSection).show(event.outcome, getattr(event.outcome, "plot_data", None))
         plan = self.query_one(PlanSection)
         plan.show(event.outcome)
@@ -161,9 +157,10 @@ class ComputeMixin:
         if self._marked is not None:
             self._marked.show("", "")
             self._marked = None
-        scr = self.doc.get(("patient", "scr"), "")
+        from tdmtui.ui.sections.scr import ScrRows
+
         target = widget_id_for(field, self.query_one(DosesSection).current, self.query_one(LevelsSection).current,
-                               len(scr) if isinstance(scr, list) else 1)
+                               self.query_one(ScrRows).current)
         if target and field and message:
             try:
                 row = self.query_one(f"#{target}", FieldRow)

@@ -5,7 +5,7 @@ from __future__ import annotations
 import re
 
 _PATIENT = {"patient.age": "pt-age", "patient.sex": "pt-sex", "patient.weight": "pt-weight",
-            "patient.height": "pt-height", "patient.scr": "pt-scr", "patient.renal_replacement": "pt-rrt",
+            "patient.height": "pt-height", "patient.scr": "scr-value", "patient.renal_replacement": "pt-rrt",
             "as_of": "pt-as_of", "target.mic": "pt-mic", "drug": "pt-drug", "label": "pt-label"}
 _DOSE_KEYS = {"start": "start", "amount": "amount", "duration": "infusion", "end": "infusion", "kind": "kind",
               "timing": "timing", "": "start"}
@@ -15,13 +15,13 @@ _ROW = re.compile(r"(doses|levels)\[(\d+)\](?:\.(\w+))?")
 _SCR = re.compile(r"patient\.scr\[(\d+)\](?:\.(\w+))?")
 
 
-def widget_id_for(field: str, dose_row: int, level_row: int, scr_count: int = 2) -> str:
+def widget_id_for(field: str, dose_row: int, level_row: int, scr_row: int = 0) -> str:
     """The FieldRow id for a case path, or "" when no form shows it now.
 
     Args:
         field: e.g. ``doses[2].amount``, ``patient.weight``, ``target.auc24[1]``.
         dose_row, level_row: the rows the doses and levels forms show now.
-        scr_count: how many SCr values the case has (the form shows the last two).
+        scr_row: the SCr row the patient form shows now.
     """
     if field in _PATIENT:
         return _PATIENT[field]
@@ -32,9 +32,7 @@ def widget_id_for(field: str, dose_row: int, level_row: int, scr_count: int = 2)
     m = _SCR.fullmatch(field)
     if m:
         index, key = int(m.group(1)), m.group(2) or "value"
-        latest = index == scr_count - 1
-        base = "pt-scr" if latest else "pt-scr_prev"
-        return base + ("_time" if key == "time" else "")
+        return ("scr-time" if key == "time" else "scr-value") if index == scr_row else ""
     m = _ROW.fullmatch(field)
     if m:
         name, index, key = m.group(1), int(m.group(2)), m.group(3) or ""

@@ -44,7 +44,7 @@ async def test_type_a_new_vancomycin_case_fit_choose_and_copy_note(state):
         await pilot.press("tab", "m")  # sex: first letter chooses
         await type_into(pilot, "#pt-weight-input", "92")
         await type_into(pilot, "#pt-height-input", "178")
-        await type_into(pilot, "#pt-scr-input", "97 umol/L")
+        await type_into(pilot, "#scr-value-input", "97 umol/L")
         p = app.doc.raw["patient"]
         assert (p["age"], p["sex"], p["weight"], p["height"], p["scr"]) == ("67 yr", "male", "92 kg", "178 cm", "97 umol/L")
         # derived values as typed: CrCl shown in the header

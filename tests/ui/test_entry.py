@@ -69,14 +69,15 @@ def test_parse_repeat_names_its_mistake():
 
 @pytest.mark.parametrize("field, expected", [
     ("patient.weight", "pt-weight"), ("target.auc24[1]", "pt-target"), ("as_of", "pt-as_of"),
-    ("patient.scr[1].value", "pt-scr"), ("patient.scr[0].time", "pt-scr_prev_time"),
+    ("patient.scr[1].value", "scr-value"), ("patient.scr[1].time", "scr-time"), ("patient.scr[0].time", ""),
+    ("patient.scr", "scr-value"),
     ("doses[2].end", "doses-infusion"), ("doses[3].amount", ""), ("levels[0].below_loq", "levels-limit"),
     ("levels[0]", "levels-time"), ("format", ""),
 ])
 def test_engine_fields_map_to_form_fields(field, expected):
     from tdmtui.ui.fieldmap import widget_id_for
 
-    assert widget_id_for(field, dose_row=2, level_row=0, scr_count=2) == expected
+    assert widget_id_for(field, dose_row=2, level_row=0, scr_row=1) == expected
 
 
 def test_schedule_entry_reads_the_standing_order():

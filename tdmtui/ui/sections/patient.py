@@ -16,6 +16,7 @@ from tdmtui.ui import formatting as fm
 from tdmtui.ui.entry import (Entry, case_clock, parsed_time, quantity_entry, target_entry, target_text,
                              time_entry)
 from tdmtui.ui.messages import CaseEdited
+from tdmtui.ui.sections.scr import ScrRows
 from tdmtui.ui.widgets.cycler import Cycler
 from tdmtui.ui.widgets.form import FieldRow, FieldSpec
 
@@ -26,10 +27,6 @@ FIELDS = (
     FieldSpec("sex", "Sex", "choice", options=SEXES),
     FieldSpec("weight", "Weight", "quantity:weight", "kg"),
     FieldSpec("height", "Height", "quantity:height", "cm"),
-    FieldSpec("scr", "SCr latest", "quantity:scr", "mg/dL"),
-    FieldSpec("scr_time", "  drawn", "time", hint="date-time (optional)"),
-    FieldSpec("scr_prev", "SCr before", "quantity:scr", "mg/dL"),
-    FieldSpec("scr_prev_time", "  drawn", "time", hint="date-time"),
     FieldSpec("rrt", "Dialysis", "choice", options=RENAL_REPLACEMENT),
     FieldSpec("as_of", "Assess at", "time", hint="now (default: last event)"),
     FieldSpec("mic", "MIC", "quantity:conc", "mg/L"),
@@ -40,8 +37,9 @@ _PATHS = {"drug": ("drug",), "label": ("label",), "age": ("patient", "age"), "se
           "weight": ("patient", "weight"), "height": ("patient", "height"),
           "rrt": ("patient", "renal_replacement"), "as_of": ("as_of",), "mic": ("target", "mic"),
           "method": ("method",)}
-_KINDS = {"age": ("age", "yr"), "weight": ("weight", "kg"), "height": ("height", "cm"), "scr": ("scr", "mg/dL"),
-          "scr_prev": ("scr", "mg/dL"), "mic": ("conc", "mg/L")}
+_KINDS = {"age": ("age", "yr"), "weight": ("weight", "kg"), "height": ("height", "cm"), "mic": ("conc", "mg/L")}
+#: The SCr history (a table of its own) comes after this field.
+_SCR_AFTER = "height"
 
 
 def scr_entries(raw: dict[str, Any]) -> list[dict[str, str]]:
@@ -53,17 +51,12 @@ def scr_entries(raw: dict[str, Any]) -> list[dict[str, str]]:
     return [{"time": "", "value": scr}] if scr else []
 
 
-def set_scr(raw: dict[str, Any], latest: dict[str, str], prev: dict[str, str]) -> None:
-    """Write the SCr back: one timeless value as a string, otherwise a list of {time, value}."""
-    pat = raw.setdefault("patient", {})
-    if not prev.get("value") and not prev.get("time") and not latest.get("time"):
-        pat["scr"] = latest.get("value", "")
-        return
-    pat["scr"] = [s for s in (prev, latest) if s.get("value") or s.get("time")]
+def derived_text(raw: dict[str, Any], protocol: Any = None) -> tuple[str, str, float | None]:
+    """Two lines of derived values and the CrCl (mL/min), from the raw patient. Never raises.
 
-
-def derived_text(raw: dict[str, Any]) -> tuple[str, str, float | None]:
-    """Two lines of derived values and the CrCl (mL/min), from the raw patient. Never raises."""
+    ``protocol``: the local protocol the engine uses too (its SCr floor and weight rules), so the
+    CrCl here is the engine's.
+    """
     from tdmtui.core.library import Rules
     from tdmtui.core.patient import renal_summary
     from tdmtui.core.units import parse_quantity
@@ -85,8 +78,8 @@ def derived_text(raw: dict[str, Any]) -> tuple[str, str, float | None]:
             raise InputError("patient.scr", "needed")
         if len(series) > 1 and any(t is None for t, _, _ in series):
             series = [(None, series[-1][1], series[-1][2])]
-        summary = renal_summary(age, str(p.get("sex")), weight, height, series, Rules(str(raw.get("drug"))),
-                                clock=clock)
+        summary = renal_summary(age, str(p.get("sex")), weight, height, series,
+                                Rules(str(raw.get("drug")), protocol), clock=clock)
     except (InputError, ValueError, KeyError) as exc:
         why = exc.message if isinstance(exc, InputError) else str(exc)
         return "Derived values appear when age, sex, weight, height and SCr read.", f"({why})", None
@@ -108,6 +101,9 @@ class PatientSection(VerticalScroll):
     def compose(self) -> ComposeResult:
         for spec in FIELDS:
             yield FieldRow(spec, prefix="pt")
+            if spec.key == _SCR_AFTER:
+                yield Label("SCr history (a add, x delete, u undo, Enter edit, Esc table):", classes="form-title")
+                yield ScrRows(self.doc, id="scr")
         yield Label("", id="derived-1", classes="derived", markup=False)
         yield Label("", id="derived-2", classes="derived", markup=False)
 
@@ -119,13 +115,7 @@ class PatientSection(VerticalScroll):
         raw = self.doc.raw
         if key == "target":
             return target_text(raw.get("target"))
-        if key in _PATHS:
-            return self.doc.get(_PATHS[key], "")
-        entries = scr_entries(raw)
-        latest = entries[-1] if entries else {}
-        prev = entries[-2] if len(entries) > 1 else {}
-        return {"scr": latest.get("value", ""), "scr_time": latest.get("time", ""),
-                "scr_prev": prev.get("value", ""), "scr_prev_time": prev.get("time", "")}[key]
+        return self.doc.get(_PATHS[key], "")
 
     def reload(self) -> None:
         """Show the case's values in the form."""
@@ -136,11 +126,12 @@ class PatientSection(VerticalScroll):
             if spec.key == "method" and not value:
                 value = "auto"
             self.query_one(f"#pt-{spec.key}", FieldRow).load(value)
+        self.query_one(ScrRows).reload()
         self.update_derived()
 
     def update_derived(self) -> float | None:
         """Recompute IBW, AdjBW, BMI, CrCl, eGFR from what reads now."""
-        line1, line2, crcl = derived_text(self.doc.raw)
+        line1, line2, crcl = derived_text(self.doc.raw, getattr(self.app, "protocol", None))
         self.query_one("#derived-1", Label).update(line1)
         self.query_one("#derived-2", Label).update(line2)
         return crcl
@@ -149,13 +140,13 @@ class PatientSection(VerticalScroll):
         """Evaluate a patient field's text."""
         if key in _KINDS:
             kind, unit = _KINDS[key]
-            path = ".".join(_PATHS.get(key, ("patient", "scr")))
+            path = ".".join(_PATHS[key])
             if key == "mic" and not text.strip():
                 return Entry(None)
             return quantity_entry(text, kind, unit, path)
-        if key in ("scr_time", "scr_prev_time", "as_of"):
+        if key == "as_of":
             if not text.strip():
-                return Entry("" if key != "as_of" else None, "" if key != "as_of" else "default: the last event")
+                return Entry(None, "default: the last event")
             return time_entry(text, None, case_clock(self.doc.raw), key)
         if key == "target":
             return target_entry(text)
@@ -187,17 +178,8 @@ class PatientSection(VerticalScroll):
             else:
                 self.doc.raw.pop("target", None)
             self.doc.dirty = True
-        elif key in _PATHS:
-            self.doc.set(_PATHS[key], e.stored)
         else:
-            entries = scr_entries(self.doc.raw)
-            latest = entries[-1] if entries else {"time": "", "value": ""}
-            prev = entries[-2] if len(entries) > 1 else {"time": "", "value": ""}
-            target, part = {"scr": (latest, "value"), "scr_time": (latest, "time"),
-                            "scr_prev": (prev, "value"), "scr_prev_time": (prev, "time")}[key]
-            target[part] = e.stored or ""
-            set_scr(self.doc.raw, latest, prev)
-            self.doc.dirty = True
+            self.doc.set(_PATHS[key], e.stored)
         self.query_one(f"#pt-{key}", FieldRow).show(e.note, e.error)
         self.update_derived()
         self.post_message(CaseEdited(f"patient.{key}"))

@@ -148,7 +148,7 @@ class RowsSection(Vertical):
             return
         event.stop()
         if not self.rows():  # typing into the empty form starts the first row: nothing typed is dropped
-            self.doc.insert_rows(self.NAME, 0, [self.new_row()])
+            self.insert(0, [self.new_row()])
             self.current = 0
             table = self.query_one(DataTable)
             table.add_row(*map(plain, self.cells(0, self.rows()[0])), key="0")
@@ -160,6 +160,7 @@ class RowsSection(Vertical):
             self.query_one(f"#{self.NAME}-{key}", FieldRow).show(e.note, e.error)
             return
         self.store(key, e, row)
+        self.stored()
         self.doc.dirty = True
         self.query_one(f"#{self.NAME}-{key}", FieldRow).show(e.note, e.error)
         self.refresh_row()
@@ -195,10 +196,21 @@ class RowsSection(Vertical):
         """A new row for "add" (subclasses)."""
         raise NotImplementedError
 
+    def insert(self, at: int, rows: list[dict[str, Any]]) -> None:
+        """Insert rows into the case (undoable); subclasses keeping rows elsewhere override it."""
+        self.doc.insert_rows(self.NAME, at, rows)
+
+    def remove(self, index: int) -> None:
+        """Delete one row from the case (undoable)."""
+        self.doc.delete_row(self.NAME, index)
+
+    def stored(self) -> None:
+        """After a field's value went into its row (subclasses may tidy the case's form)."""
+
     def action_add(self) -> None:
         """Add a row after the last one, pre-filled from it, and start editing it."""
         at = len(self.rows())
-        self.doc.insert_rows(self.NAME, at, [self.new_row()])
+        self.insert(at, [self.new_row()])
         self.current = at
         self.reload(at)
         self.post_message(CaseEdited(f"add {self.NAME}"))
@@ -208,7 +220,7 @@ class RowsSection(Vertical):
         """Delete the current row (u undoes)."""
         if not self.rows():
             return
-        self.doc.delete_row(self.NAME, self.current)
+        self.remove(self.current)
         self.reload(max(self.current - 1, 0) if self.current >= len(self.rows()) else self.current)
         self.post_message(CaseEdited(f"delete {self.NAME}"))
         self.app.notify("Row deleted: press u to undo.", timeout=4)
