@@ -10,6 +10,9 @@ from textual.widgets import Label, Static
 from tdmtui.ui.clipboard import COPY_CAVEAT
 
 
+TITLE = "c copy  w write to a file  f full detail"
+
+
 class NoteSection(Vertical):
     """The note text with copy and write keys."""
 
@@ -20,11 +23,12 @@ class NoteSection(Vertical):
     ]
 
     def compose(self) -> ComposeResult:
-        yield Label("c copy (OSC 52)  w write to a file (0600)  f full detail on/off", classes="section-title")
+        yield Label(TITLE, id="note-title", classes="section-title", markup=False)
         with VerticalScroll(id="note-scroll"):
             yield Static("The note appears when the case computes.", id="note-text", markup=False)
         yield Label(COPY_CAVEAT, id="note-caveat", classes="caution", markup=False)
 
     def show(self, text: str) -> None:
-        """Show the note text."""
+        """Show the note text and its length (arrows and PgUp/PgDn scroll it)."""
         self.query_one("#note-text", Static).update(text)
+        self.query_one("#note-title", Label).update(f"{TITLE}  ({len(text.splitlines())} lines, PgDn)")
