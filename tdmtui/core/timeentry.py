@@ -26,8 +26,10 @@ from tdmtui.core.clock import Clock
 from tdmtui.core.errors import InputError
 from tdmtui.core.units import parse_quantity
 
-_CLOCK = re.compile(r"([01]?\d|2[0-3]):([0-5]\d)")
-_RELATIVE = re.compile(r"([+-])\s*([0-9]+(?:\.[0-9]+)?|\.[0-9]+)\s*([a-z]+)")
+_CLOCK = re.compile(r"([01]?\d|2[0-3]):([0-5]\d)|([01]\d|2[0-3])([0-5]\d)")  # 08:05, 8:05 or 0805
+_PART = r"(?:[0-9]+(?:\.[0-9]+)?|\.[0-9]+)\s*[a-z]+"
+_RELATIVE = re.compile(rf"([+-])\s*((?:{_PART}\s*)+)")  # +12h, +90 min, +12h25min, +12h 25min
+_PARTS = re.compile(r"([0-9]+(?:\.[0-9]+)?|\.[0-9]+)\s*([a-z]+)")
 _SPACED_ISO = re.compile(r"(\d{4}-\d{2}-\d{2}) (\d{1,2}:\d{2}.*)")
 
 
@@ -58,6 +60,13 @@ def _full(text: str, clock: Clock, field: str) -> TimeEntry:
     return TimeEntry(text, hours, "")
 
 
+def _span(h: float) -> str:
+    """``12 h``, ``12 h 25 min``, ``90 min`` (to the minute)."""
+    total = int(round(h * 60))
+    hh, mm = divmod(total, 60)
+    return f"{mm} min" if hh == 0 else (f"{hh} h" if mm == 0 else f"{hh} h {mm} min")
+
+
 def resolve_time(text: str, anchor: float | None, clock: Clock, field: str) -> TimeEntry:
     """Turn what was typed into a case time.
 
@@ -81,7 +90,8 @@ def resolve_time(text: str, anchor: float | None, clock: Clock, field: str) -> T
             raise InputError(field, f"{s!r} is a clock time but there is no row above to take the date from; "
                                     "type the full date-time (YYYY-MM-DDTHH:MM)")
         above = clock.to_datetime(anchor)
-        moment = above.replace(hour=int(m.group(1)), minute=int(m.group(2)), second=0, microsecond=0)
+        hh, mm = (m.group(1), m.group(2)) if m.group(1) is not None else (m.group(3), m.group(4))
+        moment = above.replace(hour=int(hh), minute=int(mm), second=0, microsecond=0)
         rolled = moment < above
         if rolled:
             moment = moment + timedelta(days=1)
@@ -95,15 +105,15 @@ def resolve_time(text: str, anchor: float | None, clock: Clock, field: str) -> T
         if anchor is None:
             raise InputError(field, f"{s!r} is relative but there is no row above to count from; "
                                     "type the full date-time (YYYY-MM-DDTHH:MM)")
-        sign, number, unit = m.groups()
-        step = parse_quantity(f"{number} {unit}", "time", field)
+        sign, parts = m.groups()
+        step = sum(parse_quantity(f"{number} {unit}", "time", field) for number, unit in _PARTS.findall(parts))
         hours = anchor + (step if sign == "+" else -step)
         iso = clock.format(hours)
-        return TimeEntry(iso, clock.parse(iso, field), f"{sign}{step:g} h from {clock.format(anchor)}: {iso}")
+        return TimeEntry(iso, clock.parse(iso, field), f"{sign}{_span(step)} from {clock.format(anchor)}: {iso}")
     if s[:1].isdigit() and len(s) >= 10:
         return _full(s, clock, field)
-    raise InputError(field, f"{s!r} is not a time: type 2026-03-03T08:00, a clock time 08:00 "
-                            "(date from the row above) or a relative time +12h")
+    raise InputError(field, f"{s!r} is not a time: type 2026-03-03T08:00, a clock time 08:00 or 0805 "
+                            "(date from the row above) or a relative time +12h, +12h 25min")
 
 
 def duration_between(start: float, end: float, field: str) -> float:

@@ -172,11 +172,22 @@ class TdmApp(ComputeMixin, FilingMixin, App[int]):
         sex = {"male": "M", "female": "F"}.get(p.get("sex", ""), "?")
         who = f"{p.get('age') or '? yr'} {sex} {p.get('weight') or '? kg'} CrCl {crcl}"
         name = Path(self.doc.path).name if self.doc.path else "new case"
-        state = "UNSAVED" if self.doc.dirty or not self.doc.path else "saved"
+        state = "saved" if self.matches_file() else "UNSAVED"
         text = f" {raw.get('drug', '?')} | {who} | {name} [{state}]"
         header = self.query_one("#header", Static)
         header.update(text)
         header.set_class(state == "UNSAVED", "-unsaved")
+
+    def matches_file(self) -> bool:
+        """True only when the case file exists and holds exactly the case on screen."""
+        import json
+
+        if not self.doc.path:
+            return False
+        try:
+            return json.loads(Path(self.doc.path).read_bytes().decode("utf-8")) == self.doc.raw
+        except (OSError, ValueError):
+            return False
 
     def current_section(self) -> str:
         """The id of the section on screen."""
@@ -262,8 +273,8 @@ class TdmApp(ComputeMixin, FilingMixin, App[int]):
     # ---------------------------------------------------------------- edits, autosave, compute
     @on(CaseEdited)
     def case_edited(self, event: CaseEdited) -> None:
-        """After any edit: header, recovery file, recompute."""
-        self.doc.dirty = True
+        """After any edit: header, recovery file, recompute (an undo back to the file is not unsaved)."""
+        self.doc.dirty = not self.matches_file()
         self.update_header()
         self.query_one(PatientSection).update_derived()
         self.autosave()

@@ -141,11 +141,13 @@ class ComputeMixin:
         self.outcome = None
         self.query_one(EstimateSection).show(None, None)
         self.query_one(PlanSection).show(None)
-        where = f"{event.field}: " if event.field else ""
+        from tdmtui.ui.fieldmap import rows_in_words
+
+        where = f"{rows_in_words(event.field)}: " if event.field else ""
         if event.kind == "input" and self.field_is_empty(event.field):
             event.message = "still to fill in"
         label = {"input": "INPUT", "no-estimate": "NO ESTIMATE", "error": "ERROR"}[event.kind]
-        self.set_status(f"{label} {where}{event.message}", error=True)
+        self.set_status(f"{label} {where}{rows_in_words(event.message)}", error=True)
         self.mark_field(event.field, event.message)
         self.show_warnings([])
         self.query_one(NoteSection).show("No note: the case does not compute yet.\n" + f"{label} {where}{event.message}")

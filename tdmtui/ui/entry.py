@@ -95,7 +95,7 @@ def case_clock(raw: dict[str, Any]) -> Clock:
         times.append(("as_of", raw["as_of"]))
     try:
         return clock_for(times, raw.get("timezone"))
-    except InputError:
+    except (InputError, OSError):  # a zone name being typed ("Europe") may name a folder
         return Clock("naive")
 
 

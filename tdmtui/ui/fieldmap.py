@@ -6,7 +6,9 @@ import re
 
 _PATIENT = {"patient.age": "pt-age", "patient.sex": "pt-sex", "patient.weight": "pt-weight",
             "patient.height": "pt-height", "patient.scr": "scr-value", "patient.renal_replacement": "pt-rrt",
-            "as_of": "pt-as_of", "target.mic": "pt-mic", "drug": "pt-drug", "label": "pt-label"}
+            "as_of": "pt-as_of", "target.mic": "pt-mic", "drug": "pt-drug", "label": "pt-label",
+            "patient.conditions": "pt-conditions", "patient.comedications": "pt-comeds",
+            "target.indication": "pt-indication", "timezone": "pt-timezone"}
 _DOSE_KEYS = {"start": "start", "amount": "amount", "duration": "infusion", "end": "infusion", "kind": "kind",
               "timing": "timing", "": "start"}
 _LEVEL_KEYS = {"time": "time", "conc": "conc", "below_loq": "limit", "above_uloq": "limit", "use": "use",
@@ -25,6 +27,10 @@ def widget_id_for(field: str, dose_row: int, level_row: int, scr_row: int = 0) -
     """
     if field in _PATIENT:
         return _PATIENT[field]
+    if field.startswith("patient.conditions["):
+        return "pt-conditions"
+    if field.startswith("patient.comedications["):
+        return "pt-comeds"
     if field.startswith("target."):
         return "pt-target"
     if field == "schedule" or field.startswith("schedule."):
@@ -41,3 +47,16 @@ def widget_id_for(field: str, dose_row: int, level_row: int, scr_row: int = 0) -
         if name == "levels" and index == level_row and key in _LEVEL_KEYS:
             return f"levels-{_LEVEL_KEYS[key]}"
     return ""
+
+
+_ANY_ROW = re.compile(r"\b(doses|levels|patient\.scr)\[(\d+)\](?:\.(\w+))?")
+_ROW_WORD = {"doses": "dose", "levels": "level", "patient.scr": "SCr"}
+
+
+def rows_in_words(text: str) -> str:
+    """Case rows counted as the tables show them: ``doses[2].amount`` -> ``dose 3 amount``."""
+    def word(m: re.Match[str]) -> str:
+        key = f" {m.group(3).replace('_', ' ')}" if m.group(3) else ""
+        return f"{_ROW_WORD[m.group(1)]} {int(m.group(2)) + 1}{key}"
+
+    return _ANY_ROW.sub(word, text)

@@ -10,6 +10,9 @@ from tdmtui.core.errors import InputError
 from tdmtui.core.units import parse_quantity
 
 _NUM_UNIT = re.compile(r"\s*([0-9]*\.?[0-9]+)\s*([^\s0-9].*?)?\s*")
+_NEGATIVE = re.compile(r"\s*-\s*[0-9]*\.?[0-9]+.*")
+#: Quantities that are more than 0 for any patient or dose.
+_POSITIVE = ("weight", "height", "age", "dose", "scr")
 
 
 def complete_quantity(text: str, default_unit: str) -> str:
@@ -35,7 +38,12 @@ def check_quantity(text: str, kind: str, field: str, default_unit: str) -> tuple
     stored = complete_quantity(text, default_unit)
     if not stored:
         return "", None, "needed"
+    if _NEGATIVE.fullmatch(text):
+        return stored, None, "must be positive"
     try:
-        return stored, parse_quantity(stored, kind, field), ""
+        value = parse_quantity(stored, kind, field)
     except InputError as exc:
         return stored, None, exc.message
+    if value <= 0 and kind in _POSITIVE:
+        return stored, None, "must be positive"
+    return stored, value, ""

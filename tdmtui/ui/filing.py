@@ -16,6 +16,34 @@ from tdmtui.ui.document import ChangedOnDisk, new_case_raw
 from tdmtui.ui.recovery import find_recovery, recovery_path, remove_recovery
 
 
+def local_time(stamp: str) -> str:
+    """A UTC stamp (``2026-03-03T08:00:00Z``) in this machine's local time, said so."""
+    from datetime import datetime
+
+    try:
+        moment = datetime.fromisoformat(stamp.replace("Z", "+00:00")).astimezone()
+    except ValueError:
+        return stamp
+    return moment.strftime("%Y-%m-%d %H:%M") + " local time"
+
+
+def changed_parts(before: dict[str, Any], after: dict[str, Any]) -> str:
+    """Which parts of the case differ, in words: ``patient (weight), doses (3 -> 4 rows)``."""
+    out = []
+    for key in sorted(set(before) | set(after)):
+        a, b = before.get(key), after.get(key)
+        if a == b:
+            continue
+        if isinstance(a, list) and isinstance(b, list) and len(a) != len(b):
+            out.append(f"{key} ({len(a)} -> {len(b)} rows)")
+        elif isinstance(a, dict) and isinstance(b, dict):
+            inner = [k for k in sorted(set(a) | set(b)) if a.get(k) != b.get(k)]
+            out.append(f"{key} ({', '.join(inner)})")
+        else:
+            out.append(key)
+    return ", ".join(out) or "nothing"
+
+
 class FilingMixin:
     """Save, save-as, recovery offer, quit prompt, note copy and write."""
 
@@ -43,8 +71,9 @@ class FilingMixin:
                 remove_recovery(rec.path)
 
         self.push_screen(AskDialog(
-            f"Unsaved work from {rec.saved_at} was found for "
+            f"Unsaved work from {local_time(rec.saved_at)} was found for "
             f"{Path(self.doc.path).name if self.doc.path else 'a new case'} (the app stopped before saving).\n"
+            f"What differs from the file: {changed_parts(current or new_case_raw(), rec.raw)}.\n"
             "Restore it? (discard deletes it; Esc keeps it for next time and opens the file as saved)",
             [("r", "restore"), ("d", "discard")], escape="later"), answer)
 
@@ -98,6 +127,15 @@ class FilingMixin:
         remove_recovery(recovery_path(self.doc.path, self.state))
         self.update_header()
         self.refresh_note()  # the note's record now names the saved file
+        if not self.matches_file():
+            self.notify(f"NOT saved: {self.doc.path} does not hold the case after writing it.", severity="error",
+                        markup=False, timeout=10)
+            return
+        status = str(self.query_one("#status").content)
+        if self.outcome is None and status.startswith(("INPUT", "ERROR")):
+            self.notify(f"Saved {self.doc.path}, with the input as typed; it does not compute yet: {status}",
+                        severity="warning", timeout=8, markup=False)
+            return
         self.notify(f"Saved {self.doc.path}", timeout=3, markup=False)
 
     def action_quit_app(self) -> None:

@@ -71,9 +71,11 @@ def severity_word(severity: str) -> str:
 
 
 def alert_line(alert: dict[str, str]) -> str:
-    """One warning as a line: "CAUTION levels[1].time: message"."""
-    where = f"{alert['field']}: " if alert.get("field") else ""
-    return f"{severity_word(alert.get('severity', 'info'))} {where}{alert.get('message', '')}"
+    """One warning as a line, rows counted as the tables show them: "CAUTION level 2 time: message"."""
+    from tdmtui.ui.fieldmap import rows_in_words
+
+    where = f"{alert['field']}: " if alert.get("field") and alert["field"] != "levels" else ""
+    return rows_in_words(f"{severity_word(alert.get('severity', 'info'))} {where}{alert.get('message', '')}")
 
 
 def sort_alerts(alerts: list[dict[str, str]]) -> list[dict[str, str]]:

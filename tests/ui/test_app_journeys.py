@@ -281,7 +281,7 @@ async def test_infusion_by_end_time_and_a_level_set_aside_with_reason(state, sam
         assert app.doc.raw["levels"][0]["use"] is False
         await settle(pilot)
         status = str(app.screen.query_one("#status", Static).content)
-        assert status.startswith("INPUT levels[0].reason")  # a set-aside level needs its reason
+        assert status.startswith("INPUT level 1 reason")  # a set-aside level needs its reason (rows as the table counts)
         await type_into(pilot, "#levels-reason-input", "drawn from the line")
         assert app.doc.raw["levels"][0]["reason"] == "drawn from the line"
         await settle(pilot)

@@ -96,3 +96,34 @@ def test_repeat_rows_rejects_zero_interval_and_silly_counts():
         repeat_rows(row, 0.0, 3, NAIVE)
     with pytest.raises(InputError):
         repeat_rows(row, 12.0, 0, NAIVE)
+
+
+@pytest.mark.parametrize("typed, expected", [
+    ("+12h25min", "2026-03-03T20:25"), ("+12h 25min", "2026-03-03T20:25"), ("+1 h 30 min", "2026-03-03T09:30"),
+    ("0805", "2026-03-04T08:05"), ("2359", "2026-03-03T23:59"), ("-2h", "2026-03-03T06:00"),
+])
+def test_times_as_people_type_them(typed, expected):
+    # clock arithmetic by hand from the row above at 2026-03-03 08:00; for 0805 the row above is at
+    # 08:10, so 08:05 is earlier and rolls to the next day (as 08:05 typed with a colon does)
+    from tdmtui.core.clock import Clock
+    from tdmtui.core.timeentry import resolve_time
+
+    clock = Clock("naive")
+    anchor = clock.parse("2026-03-03T08:10", "x") if typed == "0805" else clock.parse("2026-03-03T08:00", "x")
+    assert resolve_time(typed, anchor, clock, "doses[1].start").iso == expected
+
+
+def test_a_negative_or_zero_weight_must_be_positive():
+    from tdmtui.ui.entry import quantity_entry
+
+    for typed in ("-70", "-70 kg", "0"):
+        e = quantity_entry(typed, "weight", "kg", "patient.weight")
+        assert e.error == "must be positive" and e.stored  # kept as typed, never dropped
+
+
+def test_messages_count_rows_as_the_tables_show_them():
+    from tdmtui.ui.fieldmap import rows_in_words
+
+    assert rows_in_words("doses[2].amount: a dose must be more than 0 mg") == "dose 3 amount: a dose must be more than 0 mg"
+    assert rows_in_words("levels[0].below_loq") == "level 1 below loq"
+    assert rows_in_words("patient.scr[1].time") == "SCr 2 time"

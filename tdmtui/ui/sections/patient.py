@@ -28,6 +28,10 @@ FIELDS = (
     FieldSpec("weight", "Weight", "quantity:weight", "kg"),
     FieldSpec("height", "Height", "quantity:height", "cm"),
     FieldSpec("rrt", "Dialysis", "choice", options=RENAL_REPLACEMENT),
+    FieldSpec("conditions", "Conditions", "text", hint="e.g. burns, ecmo (comma between; F1 lists all)"),
+    FieldSpec("comeds", "Co-meds", "text", hint="nephrotoxins and others, comma between"),
+    FieldSpec("indication", "Indication", "text", hint="e.g. MRSA bacteraemia"),
+    FieldSpec("timezone", "Time zone", "text", hint="e.g. Europe/London (times without offset)"),
     FieldSpec("as_of", "Assess at", "time", hint="now (default: last event)"),
     FieldSpec("mic", "MIC", "quantity:conc", "mg/L"),
     FieldSpec("target", "Target", "target", hint="e.g. auc24 400-600 (empty: library)"),
@@ -36,8 +40,12 @@ FIELDS = (
 _PATHS = {"drug": ("drug",), "label": ("label",), "age": ("patient", "age"), "sex": ("patient", "sex"),
           "weight": ("patient", "weight"), "height": ("patient", "height"),
           "rrt": ("patient", "renal_replacement"), "as_of": ("as_of",), "mic": ("target", "mic"),
+          "conditions": ("patient", "conditions"), "comeds": ("patient", "comedications"),
+          "indication": ("target", "indication"), "timezone": ("timezone",),
           "method": ("method",)}
 _KINDS = {"age": ("age", "yr"), "weight": ("weight", "kg"), "height": ("height", "cm"), "mic": ("conc", "mg/L")}
+#: Fields holding a list in the case, typed with commas between.
+_LISTS = ("conditions", "comeds")
 #: The SCr history (a table of its own) comes after this field.
 _SCR_AFTER = "height"
 
@@ -49,6 +57,40 @@ def scr_entries(raw: dict[str, Any]) -> list[dict[str, str]]:
     if isinstance(scr, list):
         return [dict(s) for s in scr if isinstance(s, dict)]
     return [{"time": "", "value": scr}] if scr else []
+
+
+def list_entry(text: str, key: str, drug: str) -> Entry:
+    """Conditions or co-medications typed with commas between; conditions from the library's list.
+
+    Stored as the case's list (None when empty); a condition the library does not
+    document is kept as typed and named.
+    """
+    from tdmtui.core.library import DRUGS, Rules
+
+    items = [x.strip() for x in text.split(",") if x.strip()]
+    if not items:
+        return Entry(None, "none recorded")
+    if key == "conditions":
+        items = [x.lower().replace(" ", "-") for x in items]
+        known = tuple(Rules(drug).get("conditions", {}) or {}) if drug in DRUGS else ()
+        unknown = [x for x in items if known and x not in known]
+        if unknown:
+            return Entry(items, "", f"{', '.join(unknown)}: not in the list ({', '.join(known)})")
+    return Entry(items, f"{len(items)} recorded")
+
+
+def zone_entry(text: str) -> Entry:
+    """An IANA time zone name (``Europe/London``), or empty for none."""
+    name = text.strip()
+    if not name:
+        return Entry(None, "none: times carry offsets or use clock arithmetic")
+    from zoneinfo import ZoneInfo, ZoneInfoNotFoundError
+
+    try:
+        ZoneInfo(name)
+    except (ZoneInfoNotFoundError, ValueError, OSError):  # "Europe" alone names a folder
+        return Entry(name, "", f"{name!r} is not a time zone name (e.g. Europe/London, America/Chicago)")
+    return Entry(name, "times without an offset are read in this zone")
 
 
 def derived_text(raw: dict[str, Any], protocol: Any = None) -> tuple[str, str, float | None]:
@@ -115,7 +157,10 @@ class PatientSection(VerticalScroll):
         raw = self.doc.raw
         if key == "target":
             return target_text(raw.get("target"))
-        return self.doc.get(_PATHS[key], "")
+        value = self.doc.get(_PATHS[key], "")
+        if key in _LISTS:
+            return ", ".join(str(v) for v in value) if isinstance(value, list) else value
+        return value
 
     def reload(self) -> None:
         """Show the case's values in the form."""
@@ -150,6 +195,12 @@ class PatientSection(VerticalScroll):
             return time_entry(text, None, case_clock(self.doc.raw), key)
         if key == "target":
             return target_entry(text)
+        if key in _LISTS:
+            return list_entry(text, key, str(self.doc.raw.get("drug")))
+        if key == "timezone":
+            return zone_entry(text)
+        if key == "indication":
+            return Entry(text.strip() or None)
         return Entry(text)
 
     @on(Input.Changed)
@@ -162,6 +213,8 @@ class PatientSection(VerticalScroll):
         key = wid[3:].removesuffix("-input")
         e = self.entry(key, event.control.value)  # the field as it is now (a queued event may be stale)
         shown = target_text(e.stored) if key == "target" and isinstance(e.stored, dict) else e.stored
+        if key in _LISTS and isinstance(e.stored, list):
+            shown = ", ".join(e.stored)
         if shown == self.value_of(key) or (e.stored is None and not self.value_of(key)):
             self.query_one(f"#pt-{key}", FieldRow).show(e.note, e.error)
             return
