@@ -156,7 +156,7 @@ def main(argv: list[str] | None = None) -> int:
 
         return run_app(args.case, args.protocol, mouse=args.mouse)
     except InputError as exc:
-        _say(f"{exc.field}: {exc.message}" if exc.field and exc.field != "(file)" else exc.message)
+        _say(f"{exc.field}: {exc.message}" if exc.field else exc.message)
         return 2
     except NoEstimateError as exc:
         _say(f"no estimate by {exc.method}: {exc.why}")

@@ -99,4 +99,4 @@ def test_a_missing_case_file_is_named(tmp_path):
     missing = tmp_path / "no-such-case.json"
     r = run("note", str(missing))
     assert r.returncode == 2
-    assert r.stderr.strip() == f"cannot read {missing}: No such file or directory"
+    assert str(missing) in r.stderr and "No such file" in r.stderr and r.stderr.count("\n") == 1

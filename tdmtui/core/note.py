@@ -33,11 +33,6 @@ SIGNATURE = ("Pharmacist: ____________________________________",
              "Prescriber contacted: __________________________")
 
 
-def heading(title: str) -> list[str]:
-    """A section heading after a blank line."""
-    return ["", title.upper()]
-
-
 def weight_words(rp: dict[str, Any], weight: float, used: float) -> str:
     for label, value in (("total body weight", weight), ("ideal body weight", rp.get("ibw_kg")),
                          ("adjusted body weight", rp.get("adjbw_kg"))):
@@ -49,7 +44,7 @@ def weight_words(rp: dict[str, Any], weight: float, used: float) -> str:
 def _patient(outcome: Any) -> list[str]:
     case, res, renal, rules = outcome.case, outcome.result, outcome.renal, outcome.rules
     p, rp = case.patient, res["patient"]
-    lines = heading("Patient and course")
+    lines = f.heading("Patient and course")
     extra = [f"BMI {rp['bmi_kg_m2']:.1f}"] if rp.get("bmi_kg_m2") is not None else []
     extra += [f"IBW {f.kg(rp['ibw_kg'])} kg"] + ([f"AdjBW {f.kg(rp['adjbw_kg'])} kg"] if rp.get("adjbw_kg") else [])
     lines += f.wrap(f"{p.age:g} yr {p.sex}, {f.kg(p.weight)} kg, {p.height:.0f} cm; {', '.join(extra)}.")

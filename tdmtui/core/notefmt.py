@@ -123,6 +123,11 @@ def wrap(text: str, indent: str = "", hang: str = "  ") -> list[str]:
                          break_long_words=True, break_on_hyphens=False) or [indent.rstrip()]
 
 
+def heading(title: str) -> list[str]:
+    """A section heading after a blank line (the note's headings carry no underline)."""
+    return ["", title.upper()]
+
+
 def fit(lines: list[str]) -> list[str]:
     """Every line within :data:`WIDTH` columns (an overlong line is wrapped, never cut)."""
     out: list[str] = []

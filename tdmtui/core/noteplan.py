@@ -29,10 +29,6 @@ METHOD_TEXT = {
 }
 
 
-def _heading(title: str) -> list[str]:
-    return ["", title.upper()]
-
-
 def model_label(e: dict[str, Any]) -> str:
     """A model's short name, e.g. ``Thomson 2009``."""
     model = e.get("model") or {}
@@ -68,7 +64,7 @@ def estimate_lines(outcome: Any, regimen: dict[str, Any] | None, model_words: li
     """Method, estimate, model and its inputs, the working by hand, the other methods in one line."""
     res = outcome.result
     est, method = res.get("estimate"), res.get("method")
-    lines = _heading("Estimate")
+    lines = f.heading("Estimate")
     if not est:
         return lines + f.wrap("No estimate: no method applies to this case (see Warnings).")
     used = est.get("method", method)
@@ -115,7 +111,7 @@ def regimen_lines(outcome: Any, reg: dict[str, Any] | None, picked: bool,
     """Current regimen, the regimen given (chosen or proposed), its timing, the others considered."""
     res = outcome.result
     est, cur, proposal = res.get("estimate") or {}, res.get("current_regimen"), res.get("regimen")
-    lines = _heading("Plan")
+    lines = f.heading("Plan")
     if cur:
         now = ": predicted at steady state " + f.predicted(est["current"]) if est.get("current") else ""
         lines += f.wrap(f"Current: {f.regimen_words(cur)} ({cur.get('source', '')}){now}.")
@@ -187,7 +183,7 @@ def _warning_text(w: dict[str, Any]) -> str:
 
 def warning_lines(result: dict[str, Any], full: bool = False) -> list[str]:
     """Every stop and caution (information-only warnings with ``full``), case paths in words."""
-    lines = _heading("Warnings")
+    lines = f.heading("Warnings")
     ws = result.get("warnings") or []
     shown = [w for w in ws if full or w.get("severity") != "info"]
     for w in shown:
