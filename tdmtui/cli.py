@@ -40,12 +40,9 @@ def _unknown_command(word: str) -> int:
 
 
 def _protocol(path: str | None) -> Any:
-    from tdmtui.core.library import default_protocol_path, load_protocol
+    from tdmtui.core.library import protocol_or_default
 
-    if path:
-        return load_protocol(path)
-    default = default_protocol_path()
-    return load_protocol(default) if default.is_file() else None
+    return protocol_or_default(path)
 
 
 def _compute(args: argparse.Namespace) -> Any:

@@ -31,20 +31,12 @@ def parser() -> argparse.ArgumentParser:
     return ap
 
 
-def _protocol(path: str | None):  # noqa: ANN202 - Protocol or None
-    from tdmtui.core.library import default_protocol_path, load_protocol
-
-    if path:
-        return load_protocol(path)
-    default = default_protocol_path()
-    return load_protocol(default) if default.is_file() else None
-
-
 def main(argv: list[str]) -> int:
     """Run the import; InputError propagates to the command line (exit 2)."""
     from tdmtui.core.case import canonical_bytes, write_atomic
     from tdmtui.core.errors import InputError
     from tdmtui.core.fhir import check_case, import_export
+    from tdmtui.core.library import protocol_or_default
 
     args = parser().parse_args(argv)
     if args.out and Path(args.out).exists() and not args.force:
@@ -58,7 +50,7 @@ def main(argv: list[str]) -> int:
 
         check_structure(data)
     imported = import_export(data, Path(args.bundle).name, drug=args.drug, as_of=args.as_of,
-                             protocol=_protocol(args.protocol))
+                             protocol=protocol_or_default(args.protocol))
     sys.stderr.write(imported.report.text())
     check_case(imported)
     text = canonical_bytes(imported.raw)

@@ -11,8 +11,6 @@ from __future__ import annotations
 
 import json
 from pathlib import Path
-from typing import Any
-
 from tdmtui.ui.document import CaseDocument, new_case_raw
 
 
@@ -26,22 +24,14 @@ def is_export(path: str) -> bool:
         return False
 
 
-def _protocol(path: str | None) -> Any:
-    from tdmtui.core.library import default_protocol_path, load_protocol
-
-    if path:
-        return load_protocol(path)
-    default = default_protocol_path()
-    return load_protocol(default) if default.is_file() else None
-
-
 def open_export(path: str, protocol_path: str | None) -> tuple[CaseDocument, list[dict[str, str]], str]:
     """``(document, import warnings, error)``: the imported case unsaved, or a new case and why not."""
     from tdmtui.core.errors import InputError
     from tdmtui.core.fhir import import_export
+    from tdmtui.core.library import protocol_or_default
 
     try:
-        imported = import_export(Path(path).read_bytes(), Path(path).name, protocol=_protocol(path=protocol_path))
+        imported = import_export(Path(path).read_bytes(), Path(path).name, protocol=protocol_or_default(protocol_path))
     except OSError as exc:
         return CaseDocument(new_case_raw()), [], f"Could not read {path}: {exc.strerror}. Started a new case instead."
     except InputError as exc:

@@ -143,6 +143,14 @@ def default_protocol_path() -> Path:
     return Path(base) / "tdmtui" / "protocol.toml"
 
 
+def protocol_or_default(path: str | Path | None) -> Protocol | None:
+    """The protocol given, else the default file when it exists, else None."""
+    if path:
+        return load_protocol(path)
+    default = default_protocol_path()
+    return load_protocol(default) if default.is_file() else None
+
+
 class Rules:
     """One drug's library values with a protocol's overrides on top.
 
