@@ -133,12 +133,13 @@ def _patient(c: _Case, patient: Entry | None, age_at: str | None) -> None:
             c.missing(part, "the export holds no Patient resource")
         return
     r, name = patient.resource, patient.name
-    sex = SEX.get(r.get("gender"))
+    gender = r.get("gender")
+    sex = SEX.get(gender) if isinstance(gender, str) else None
     if sex:
         c.patient["sex"] = sex
         c.put("patient.sex", sex, name, f"sex {sex} (gender)")
     else:
-        c.missing("patient.sex", f"gender {r.get('gender')!r} is not male or female (the renal equations need one)")
+        c.missing("patient.sex", f"gender {gender!r} is not male or female (the renal equations need one)")
     try:
         born = birth_date(r.get("birthDate"))
         if age_at is None:

@@ -137,7 +137,7 @@ def _infusion_minutes(amount: Decimal, unit: str, rate: object) -> Decimal:
     if not isinstance(rate, dict):
         raise Skip("an effectiveDateTime without an end or a rate: the infusion time is unknown")
     code = rate.get("code")
-    if rate.get("system") not in (None, UCUM) or code not in MASS_RATE_MG_PER_H:
+    if rate.get("system") not in (None, UCUM) or not isinstance(code, str) or code not in MASS_RATE_MG_PER_H:
         raise Skip(f"rate in {code!r}: only a mass rate (mg/h) gives the infusion time "
                    "(a volume rate needs the infused volume, which is not given)")
     mg = amount * {"mg": Decimal(1), "g": Decimal(1000), "ug": Decimal("0.001")}[unit]
@@ -149,6 +149,8 @@ def _infusion_minutes(amount: Decimal, unit: str, rate: object) -> Decimal:
 
 def minutes_text(minutes: Decimal) -> tuple[str, bool]:
     """A duration in minutes as a case string, and whether it was rounded (to 0.01 min, under a second)."""
+    if minutes > 10**6:
+        raise Skip(f"an infusion of {minutes:.0f} min is not a dose")
     q = minutes.quantize(Decimal("0.01"))
     return f"{number_text(q.normalize() if q == q.to_integral() else q)} min", q != minutes
 
@@ -192,7 +194,7 @@ def map_administration(e: Entry, export: Export, book: CodeBook, patient: Entry 
 
 
 def _hours(value: object, unit: object, what: str) -> Decimal:
-    if unit not in TIME_H:
+    if not isinstance(unit, str) or unit not in TIME_H:
         raise Skip(f"{what} unit {unit!r} is not min, h or d")
     return number(value, what) * TIME_H[str(unit)]
 
@@ -215,14 +217,17 @@ def map_request(e: Entry, export: Export, book: CodeBook, patient: Entry | None,
     instructions = r.get("dosageInstruction")
     if not isinstance(instructions, list) or len(instructions) != 1:
         raise Skip("expected exactly one dosageInstruction")
-    repeat = field(instructions[0], "timing", "repeat") or {}
+    repeat = field(instructions[0], "timing", "repeat")
+    if not isinstance(repeat, dict):
+        raise Skip("no timing.repeat: the interval is unknown")
     freq = number(repeat.get("frequency", 1), "timing.repeat.frequency")
     if freq != freq.to_integral() or freq < 1:
         raise Skip(f"timing.repeat.frequency {freq} is not a whole number of doses")
     if "period" not in repeat:
         raise Skip("no timing.repeat.period: the interval is unknown")
     sched: dict[str, Any] = {"interval": _hours_text(_hours(repeat["period"], repeat.get("periodUnit"), "the period") / freq)}
-    how = field(instructions[0], "doseAndRate", 0) or {}
+    how = field(instructions[0], "doseAndRate", 0)
+    how = how if isinstance(how, dict) else {}
     if "doseQuantity" in how:
         amount, unit = quantity(how["doseQuantity"], "dose", "the ordered dose")
         sched["dose"] = f"{number_text(amount)} {unit}"

@@ -43,6 +43,10 @@ def case_time(text: object, what: str) -> str:
     day, hh, mm, ss, frac, off = m.groups()
     if frac and frac.strip("0"):
         raise Skip(f"{what} {text} has fractions of a second (the case keeps whole seconds)")
+    try:
+        moment(text)
+    except ValueError:
+        raise Skip(f"{what} {text} is not a real date and time") from None
     out = f"{day}T{hh}:{mm}" + (f":{ss}" if ss and ss != "00" else "")
     return out + (off or "")
 
@@ -125,7 +129,9 @@ def concept_words(concept: object) -> str:
     """The text and display names of a CodeableConcept, lower case."""
     if not isinstance(concept, dict):
         return ""
-    parts = [concept.get("text")] + [c.get("display") for c in concept.get("coding", []) if isinstance(c, dict)]
+    coding = concept.get("coding")
+    parts = [concept.get("text")] + [c.get("display") for c in (coding if isinstance(coding, list) else [])
+                                     if isinstance(c, dict)]
     return " ".join(p for p in parts if isinstance(p, str)).lower()
 
 
