@@ -106,3 +106,32 @@ def test_mixture_draws_follow_the_weights():
     first = set(np.round(members[0].samples.cl, 12))
     share = np.mean([round(x, 12) in first for x in mix.cl])
     assert share == pytest.approx(0.3, abs=0.002)
+
+
+def test_structure_cautions_name_the_model_and_the_parameter(monkeypatch):
+    # A trough reported below 2 mg/L and a peak of 41.7 mg/L on 1250 mg q12h: Thomson 2009's very
+    # variable V2 (130 % CV, omega^2 1.30, pk-sources.md 3.4.2) is moved about 1.6 SD, and Thomson and
+    # Goti differ on AUC24 by about a third. Weights forced equal so both models count (the rule's
+    # thresholds are the library's methods.large_iiv_* and methods.models_disagree_rel).
+    import copy
+
+    from tdmtui.core.compute import compute_raw
+    from tdmtui.core.library import Rules
+
+    monkeypatch.setattr(averaging, "weights", lambda lev: [1.0 / len(lev)] * len(lev))
+    t = lambda h: f"2026-04-{1 + int((8 + h) // 24):02d}T{int((8 + h) % 24):02d}:{int(round((h % 1) * 60)):02d}"  # noqa: E731
+    raw = {"format": "tdmtui.case/1", "drug": "vancomycin", "as_of": t(95.5), "timezone": "UTC",
+           "patient": {"age": "55 yr", "sex": "male", "weight": "80 kg", "height": "178 cm", "scr": "1.575 mg/dL"},
+           "doses": [{"start": t(12.0 * i), "amount": "1250 mg", "duration": "60 min"} for i in range(8)],
+           "levels": [{"time": t(83.75), "conc": "2.0 mg/L", "below_loq": True},
+                      {"time": t(86.5), "conc": "41.661 mg/L"}],
+           "schedule": {"interval": "12 h", "dose": "1250 mg", "duration": "60 min"}}
+    res = compute_raw(copy.deepcopy(raw)).result
+    codes = {w["code"]: w["message"] for w in res["warnings"]}
+    assert res["method"] == "bayesian"
+    assert "bayes-large-variability-moved" in codes and "Thomson 2009" in codes["bayes-large-variability-moved"]
+    assert "V2" in codes["bayes-large-variability-moved"]
+    aucs = [e["current"]["auc24_mg_h_per_l"] for k, e in res["methods"].items() if k.startswith("bayesian:")
+            and e.get("weight")]
+    limit = float(Rules("vancomycin").value("methods.models_disagree_rel"))
+    assert (max(aucs) - min(aucs)) / max(aucs) > limit and "models-disagree" in codes
