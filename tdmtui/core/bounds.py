@@ -43,32 +43,32 @@ __all__ = ["YEARS", "MAX_FILE_BYTES", "MAX_DEPTH", "MAX_TEXT", "MAX_ROWS", "MAX_
 
 
 
-def read_case_bytes(path: str | Path) -> bytes:
-    """The bytes of a case file: a regular file of at most :data:`MAX_FILE_BYTES`.
+def read_case_bytes(path: str | Path, field: str = "(file)", limit: int = MAX_FILE_BYTES) -> bytes:
+    """The bytes of a case (or protocol) file: a regular file of at most ``limit`` bytes.
 
     Raises:
-        InputError: ``(file)`` for a missing or unreadable file, a device, a FIFO or a folder, or one too large.
+        InputError: naming ``field`` for a missing or unreadable file, a device, a FIFO or a folder, or one too large.
     """
     p = Path(path)
     try:
         # O_NONBLOCK: opening a FIFO with no writer must not wait forever
         fd = os.open(p, os.O_RDONLY | getattr(os, "O_NONBLOCK", 0) | getattr(os, "O_NOCTTY", 0))
     except OSError as exc:
-        raise InputError("(file)", f"cannot read {p}: {exc.strerror}") from exc
+        raise InputError(field, f"cannot read {p}: {exc.strerror}") from exc
     try:
         info = os.fstat(fd)
         if not stat.S_ISREG(info.st_mode):
-            raise InputError("(file)", f"{p} is not a regular file (a device, pipe or folder cannot be a case)")
-        if info.st_size > MAX_FILE_BYTES:
-            raise InputError("(file)", f"{p} is {info.st_size:,} bytes; a case file is at most {MAX_FILE_BYTES:,}")
+            raise InputError(field, f"{p} is not a regular file (a device, pipe or folder cannot be read as one)")
+        if info.st_size > limit:
+            raise InputError(field, f"{p} is {info.st_size:,} bytes; at most {limit:,} are read")
         with os.fdopen(fd, "rb", closefd=False) as fh:
-            data = fh.read(MAX_FILE_BYTES + 1)
+            data = fh.read(limit + 1)
     except OSError as exc:
-        raise InputError("(file)", f"cannot read {p}: {exc.strerror}") from exc
+        raise InputError(field, f"cannot read {p}: {exc.strerror}") from exc
     finally:
         os.close(fd)
-    if len(data) > MAX_FILE_BYTES:
-        raise InputError("(file)", f"{p} grew past {MAX_FILE_BYTES:,} bytes while being read")
+    if len(data) > limit:
+        raise InputError(field, f"{p} grew past {limit:,} bytes while being read")
     return data
 
 

@@ -26,7 +26,7 @@ from typing import Any
 import numpy as np
 
 from tdmtui import __version__
-from tdmtui.core import checks, course, methods
+from tdmtui.core import checks, course, limits, methods
 from tdmtui.core.alerts import Alert, has_stop
 from tdmtui.core.case import Case, parse_case
 from tdmtui.core.errors import NoEstimateError
@@ -160,6 +160,7 @@ def compute(case: Case, protocol: Protocol | None = None, method: str | None = N
         result["status"] = "stop"
     else:
         plan_alerts = methods.attach_regimen(ctx, outcome, est, auto=requested == "auto")
+        plan_alerts += limits.guard(case.drug, result, outcome.plan, p.weight)  # the final, separate check
         alerts += plan_alerts
         if has_stop(plan_alerts):
             result["status"] = "stop"

@@ -320,3 +320,60 @@ def check_result(result: dict[str, Any]) -> list[str]:
             if isinstance(v, (int, float)) and not (math.isfinite(v) and v >= 0):
                 problems.append(f"regimen.predicted.{k} = {v}")
     return problems
+
+
+# --------------------------------------------------------------------------- never-exceed limits
+
+
+def _never_exceed(drug: str) -> dict[str, float]:
+    """The drug's never_exceed values read straight from its library file (not through the engine)."""
+    import tomllib
+
+    tree = tomllib.loads((ROOT / "tdmtui" / "core" / "library" / "drugs" / f"{drug}.toml").read_text("utf-8"))
+    return {k: float(v["value"]) for k, v in tree["never_exceed"].items()}
+
+
+def _over(x: float, limit: float) -> bool:
+    return not math.isfinite(x) or x > limit * (1 + 1e-9)
+
+
+def limit_problems(result: dict[str, Any], tbw_kg: float, plan: Any = None) -> list[str]:
+    """Every proposed dose, loading dose, daily total and rate (regimen, alternatives, planned doses)
+    checked against the library's never_exceed values, recomputed here from the proposal's own figures."""
+    reg = result.get("regimen")
+    if not reg:
+        return []
+    lim = _never_exceed(result["drug"])
+    problems = []
+    for j, r in enumerate([reg] + list(reg.get("alternatives") or [])):
+        where = "regimen" if j == 0 else f"regimen.alternatives[{j - 1}]"
+        if r.get("mode") == "continuous":
+            rate = r["rate_mg_per_h"]
+            daily = rate * 24.0
+            if _over(rate, lim["rate_mg_per_h"]):
+                problems.append(f"{where}: rate {rate} mg/h")
+        else:
+            dose, interval, inf = r["dose_mg"], r["interval_h"], r["infusion_h"]
+            daily = dose * 24.0 / interval
+            for what, x, key in (("dose", dose, "single_dose_mg"), ("dose/kg", dose / tbw_kg, "single_dose_mg_per_kg"),
+                                 ("rate", dose / inf if inf > 0 else math.inf, "rate_mg_per_h")):
+                if _over(x, lim[key]):
+                    problems.append(f"{where}: {what} {x:g} over {lim[key]:g}")
+        for what, x, key in (("daily", daily, "daily_dose_mg"), ("daily/kg", daily / tbw_kg, "daily_dose_mg_per_kg")):
+            if _over(x, lim[key]):
+                problems.append(f"{where}: {what} {x:g} over {lim[key]:g}")
+        ld = r.get("loading_dose")
+        if ld:
+            for what, x, key in (("loading", ld["dose_mg"], "loading_dose_mg"),
+                                 ("loading/kg", ld["dose_mg"] / tbw_kg, "single_dose_mg_per_kg"),
+                                 ("loading rate", ld["dose_mg"] / ld["infusion_h"] if ld["infusion_h"] > 0 else math.inf,
+                                  "rate_mg_per_h")):
+                if _over(x, lim[key]):
+                    problems.append(f"{where}: {what} {x:g} over {lim[key]:g}")
+    if plan is not None:
+        for a, d in zip(plan.amount, plan.duration):
+            if d > 0 and _over(a / d, lim["rate_mg_per_h"]):
+                problems.append(f"planned dose {a:g} mg over {d:g} h: rate over {lim['rate_mg_per_h']:g}")
+            if d < 12 and _over(a, max(lim["single_dose_mg"], lim["loading_dose_mg"])):
+                problems.append(f"planned dose {a:g} mg over {lim['single_dose_mg']:g}")
+    return problems

@@ -8,8 +8,9 @@ positive parameters and regimen figures.
 
 Counts (printed in the "reliability: fuzz counts" section of the run):
 10,000 mutated sample cases and 1,500 byte-damaged files through loading and
-validation, 1,000 hypothesis-generated cases, 300 seeded cases through the
-full compute, a sample through the command line in a subprocess. Seeds are
+validation, 1,000 hypothesis-generated cases, 2,000 seeded cases through the
+full compute (every proposal checked against the never-exceed limits; in two
+worker processes), a sample through the command line in a subprocess. Seeds are
 fixed, and hypothesis runs derandomised, so CI sees the same cases every run.
 """
 
@@ -27,8 +28,8 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from relhelpers import (DRUGS, FIELD_RE, FUZZ_COUNTS, JUNK, ROOT, UNITS, check_result, mutate, mutate_bytes,
-                        plausible_case, resolve, sample_raws)
+from relhelpers import (DRUGS, FIELD_RE, FUZZ_COUNTS, JUNK, ROOT, UNITS, check_result, limit_problems, mutate,
+                        mutate_bytes, plausible_case, resolve, sample_raws)
 from tdmtui.core import checks, course
 from tdmtui.core.case import Case, load_case, parse_case
 from tdmtui.core.compute import compute, compute_raw
@@ -40,7 +41,7 @@ SEED = 20260301
 N_MUTATED = 10_000
 N_BYTES = 1_500
 N_GENERATED = 1_000
-N_COMPUTE = 300
+N_COMPUTE = 2_000
 
 #: Known core bugs found by fuzzing, each pinned by an xfail(strict) test at the
 #: end of this file: (exception type, text in the failing source line).
@@ -112,6 +113,10 @@ def run_one(raw: object, stage: str, failures: list[str], full: bool = False) ->
                 return
             FUZZ_COUNTS[f"{stage}: computed"] += 1
             failures.extend(f"{stage}: {p} in {json.dumps(raw)[:300]}" for p in check_result(outcome.result))
+            failures.extend(f"{stage}: never-exceed: {p} in {json.dumps(raw)[:300]}"
+                            for p in limit_problems(outcome.result, case.patient.weight, outcome.plan))
+            if outcome.result.get("regimen"):
+                FUZZ_COUNTS[f"{stage}: proposals checked against the never-exceed limits"] += 1
             if outcome.params is not None:
                 prm = outcome.params
                 if not all(math.isfinite(x) and x > 0 for x in (prm.cl, prm.v1, prm.ke, prm.half_life)):
@@ -248,17 +253,41 @@ def test_generated_cases_load_or_are_rejected_naming_a_field(raw):
 # --------------------------------------------------------------------------- full compute
 
 
-def test_seeded_plausible_and_mutated_cases_compute_to_finite_positive_results():
-    rng = random.Random(SEED + 2)
+def _compute_chunk(raws: list[object]) -> tuple[list[str], dict[str, int]]:
+    """Run a share of the full-compute cases (in a worker process); its failures and counts."""
+    FUZZ_COUNTS.clear()
     failures: list[str] = []
-    stage = "seeded cases (full compute)"
+    for raw in raws:
+        run_one(raw, "seeded cases (full compute)", failures, full=True)
+    return failures, dict(FUZZ_COUNTS)
+
+
+def in_workers(fn, items: list, workers: int = 2) -> list:  # noqa: ANN001
+    """``fn`` over ``workers`` interleaved shares of ``items`` in forked processes (CI has 2 cores)."""
+    import multiprocessing
+    from concurrent.futures import ProcessPoolExecutor
+
+    shares = [items[k::workers] for k in range(workers)]
+    with ProcessPoolExecutor(workers, mp_context=multiprocessing.get_context("fork")) as pool:
+        return list(pool.map(fn, shares))
+
+
+def test_seeded_plausible_and_mutated_cases_compute_to_finite_positive_results():
+    """2,000 cases through the whole compute; every proposal within the library's never-exceed limits."""
+    rng = random.Random(SEED + 2)
+    raws = []
     for i in range(N_COMPUTE):
         raw = plausible_case(rng)
-        if i % 3 == 2:
-            raw = mutate(raw, rng, n=1)
-        run_one(raw, stage, failures, full=True)
+        raws.append(mutate(raw, rng, n=1) if i % 3 == 2 else raw)
+    failures: list[str] = []
+    for share_failures, counts in in_workers(_compute_chunk, raws):
+        failures += share_failures
+        FUZZ_COUNTS.update(counts)
+    stage = "seeded cases (full compute)"
     assert not failures, "\n".join(failures[:10])
+    assert FUZZ_COUNTS[f"{stage}: cases"] == N_COMPUTE
     assert FUZZ_COUNTS[f"{stage}: computed"] >= N_COMPUTE // 2
+    assert FUZZ_COUNTS[f"{stage}: proposals checked against the never-exceed limits"] >= N_COMPUTE // 3
 
 
 # --------------------------------------------------------------------------- command line

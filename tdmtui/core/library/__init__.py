@@ -28,7 +28,7 @@ else:  # pragma: no cover - Python 3.10
 from tdmtui.core.errors import InputError
 
 #: Version of the library data as a whole; bump when any value changes.
-LIBRARY_VERSION = "2026.12.1"
+LIBRARY_VERSION = "2026.12.2"
 
 DRUGS = ("vancomycin", "gentamicin", "tobramycin", "amikacin")
 
@@ -55,6 +55,18 @@ def flatten(tree: dict[str, Any], prefix: str = "") -> dict[str, tuple[Any, str]
         else:
             out[path] = (item, "")
     return out
+
+
+@lru_cache(maxsize=None)
+def _common_flat() -> dict[str, tuple[Any, str]]:
+    return flatten(_read("common.toml"))
+
+
+@lru_cache(maxsize=None)
+def never_exceed(drug: str) -> dict[str, tuple[float, str]]:
+    """The library's absolute limits for a drug (``never_exceed.*``): no protocol can set or raise them."""
+    return {k.removeprefix("never_exceed."): (float(v), src) for k, (v, src) in flatten(_read(f"drugs/{drug}.toml")).items()
+            if k.startswith("never_exceed.") and not isinstance(v, dict)}
 
 
 @lru_cache(maxsize=None)
@@ -111,26 +123,46 @@ def load_protocol(path: str | Path) -> Protocol:
     Raises:
         InputError: naming ``protocol`` (or the bad key) when unreadable.
     """
+    from tdmtui.core.bounds import read_case_bytes
+
     p = Path(path)
+    data = read_case_bytes(p, "protocol", 512 * 1024)
     try:
-        data = p.read_bytes()
         tree = tomllib.loads(data.decode("utf-8"))
-    except OSError as exc:
-        raise InputError("protocol", f"cannot read {p}: {exc.strerror}") from exc
+    except RecursionError:
+        raise InputError("protocol", f"{p} is nested too deeply") from None
     except (UnicodeDecodeError, tomllib.TOMLDecodeError) as exc:
         raise InputError("protocol", f"{p} is not valid TOML: {exc}") from exc
-    name = tree.pop("name", p.stem)
-    proto = Protocol(str(name), hashlib.sha256(data).hexdigest())
+    return protocol_from_tree(tree, hashlib.sha256(data).hexdigest(), p.stem)
+
+
+def protocol_from_tree(tree: dict[str, Any], sha256: str, default_name: str = "protocol") -> Protocol:
+    """A protocol from its parsed TOML tree, every key and value checked against the schema.
+
+    Raises:
+        InputError: naming the key (``protocol.<section>.<key>``).
+    """
+    from tdmtui.core.library.schema import SECTIONS, check_section
+
+    tree = dict(tree)
+    name = tree.pop("name", default_name)
+    if not isinstance(name, str):
+        raise InputError("protocol.name", "expected text")
+    proto = Protocol(name, sha256)
     for section, body in tree.items():
         if section == "local_codes":
             from tdmtui.core.fhir.codes import parse_local_codes
 
             proto.local_codes = parse_local_codes(body, tuple(DRUGS))
             continue
+        if section in SECTIONS:
+            SECTIONS[section](body, f"protocol.{section}")
+            continue
         if section not in DRUGS and section != "common":
             raise InputError(f"protocol.{section}", "expected a drug id, 'common' or 'local_codes'")
         if not isinstance(body, dict):
             raise InputError(f"protocol.{section}", "expected a table")
+        check_section(section, body, set(_common_flat() if section == "common" else _drug_flat(section)))
         proto.overrides[section] = flatten(body)
     return proto
 

@@ -1,0 +1,375 @@
+"""What a local protocol may set: every key, its type, unit and plausible range.
+
+A protocol file is hostile or mistyped input like a case: "250" written as a
+string, 23,000 for 2,300, a key spelt wrong. :func:`check_protocol` checks
+every value against :data:`SCHEMA` and raises :class:`InputError` naming the
+key (``protocol.vancomycin.regimen.rounding_mg``) for an unknown key, a wrong
+type or unit, or a value outside the range. The ranges are wide plausibility
+bounds (design choices: a value outside them is a slip, whatever the site);
+what protects the patient whatever the protocol says is the library's
+``never_exceed`` limits (:mod:`tdmtui.core.limits`), which no protocol may set.
+
+Adding a key a protocol may set is ONE line in :data:`SCHEMA`::
+
+    "regimen.rounding_mg": num("mg", 1, 1000),
+
+Kinds: ``num`` (a number), ``band`` ([low, high]), ``nums`` (a list of
+numbers), ``pair`` (exactly two numbers, any order), ``points`` ([[x, y], ...]),
+``choice`` (one of some words), ``pattern`` (text matching a regular
+expression), ``text``, ``names`` (a list of text), ``flag`` (true/false),
+``table`` (a nested value checked by a function in :data:`TABLES`). Keys that the
+library leaves to the protocol (no library value) take ``optional=True``.
+Other top-level sections than a drug id or ``common`` register a checker in
+:data:`SECTIONS`.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from dataclasses import dataclass
+from typing import Any, Callable
+
+from tdmtui.core.errors import InputError
+
+
+@dataclass(frozen=True)
+class Spec:
+    """One protocol key: its kind, unit, range and, for choices, the words allowed."""
+
+    kind: str
+    unit: str = ""
+    lo: float = -math.inf
+    hi: float = math.inf
+    options: tuple[str, ...] = ()
+    optional: bool = False
+
+
+def num(unit: str, lo: float, hi: float, optional: bool = False) -> Spec:
+    return Spec("num", unit, lo, hi, optional=optional)
+
+
+def band(unit: str, lo: float, hi: float) -> Spec:
+    return Spec("band", unit, lo, hi)
+
+
+def nums(unit: str, lo: float, hi: float) -> Spec:
+    return Spec("nums", unit, lo, hi)
+
+
+def pair(unit: str, lo: float, hi: float) -> Spec:
+    return Spec("pair", unit, lo, hi)
+
+
+def points(unit: str, lo: float, hi: float, optional: bool = False) -> Spec:
+    """[[hours, mg/L], ...]: ``lo``/``hi`` bound both coordinates."""
+    return Spec("points", unit, lo, hi, optional=optional)
+
+
+def choice(*options: str) -> Spec:
+    return Spec("choice", options=options)
+
+
+def pattern(regex: str, hint: str) -> Spec:
+    return Spec("pattern", unit=hint, options=(regex,))
+
+
+def text() -> Spec:
+    return Spec("text")
+
+
+def names() -> Spec:
+    return Spec("names")
+
+
+def flag(optional: bool = False) -> Spec:
+    return Spec("flag", optional=optional)
+
+
+def table(checker: str, optional: bool = False) -> Spec:
+    """A nested value checked by ``TABLES[checker]``."""
+    return Spec("table", options=(checker,), optional=optional)
+
+
+_HHMM = re.compile(r"([01]\d|2[0-3]):[0-5]\d")
+
+
+def _hhmm_list(value: Any, field: str) -> None:
+    if not isinstance(value, list) or not all(isinstance(t, str) and _HHMM.fullmatch(t) for t in value):
+        raise InputError(field, f"expected a list of \"HH:MM\" times, got {value!r}")
+
+
+def _admin_times(value: Any, field: str) -> None:
+    """A list of "HH:MM", or a table keyed by interval hours ("12") of such lists."""
+    if isinstance(value, list):
+        _hhmm_list(value, field)
+        return
+    if not isinstance(value, dict):
+        raise InputError(field, f"expected a list of \"HH:MM\" or a table keyed by interval hours, got {value!r}")
+    for key, times in value.items():
+        try:
+            ok = 0 < float(key) <= 168 and math.isfinite(float(key))
+        except ValueError:
+            ok = False
+        if not ok:
+            raise InputError(f"{field}.{key}", "expected an interval in hours (1 to 168) as the key")
+        _hhmm_list(times, f"{field}.{key}")
+
+
+def _level_plans(value: Any, field: str) -> None:
+    """{"mode/method" or "mode": [["trough", n], ["peak", n], ["at", n, hours]], ...}."""
+    if not isinstance(value, dict):
+        raise InputError(field, f"expected a table of draw lists, got {value!r}")
+    for key, plan in value.items():
+        f = f"{field}.{key}"
+        if not isinstance(plan, list):
+            raise InputError(f, "expected a list of draws such as [\"trough\", 2]")
+        for i, item in enumerate(plan):
+            ok = (isinstance(item, list) and len(item) >= 2 and item[0] in ("trough", "peak", "at")
+                  and isinstance(item[1], int) and not isinstance(item[1], bool) and 1 <= item[1] <= 50
+                  and (len(item) == 2 if item[0] != "at" else
+                       len(item) == 3 and _is_num(item[2]) and 0 <= item[2] <= 168))
+            if not ok:
+                raise InputError(f"{f}[{i}]", "expected [\"trough\" or \"peak\", dose number 1-50] "
+                                              "or [\"at\", dose number, hours 0-168 after its start]")
+
+
+def _variants(value: Any, field: str) -> None:
+    """{indication id: {peak: [lo, hi], trough: [lo, hi], auc24: [lo, hi]}}."""
+    if not isinstance(value, dict):
+        raise InputError(field, f"expected a table of indication variants, got {value!r}")
+    for vid, body in value.items():
+        if not isinstance(body, dict) or not body:
+            raise InputError(f"{field}.{vid}", "expected a table of target bands")
+        for k, b in body.items():
+            if k not in VARIANT_BANDS:
+                raise InputError(f"{field}.{vid}.{k}", f"unknown key (one of {', '.join(VARIANT_BANDS)})")
+            check_value(b, VARIANT_BANDS[k], f"{field}.{vid}.{k}")
+
+
+def _conditions(value: Any, field: str) -> None:
+    if not isinstance(value, dict) or not all(isinstance(v, str) for v in value.values()):
+        raise InputError(field, "expected a table of condition id = caution text")
+
+
+WEIGHT_RULES = ("tbw", "ibw", "adj", "tbw-ibw-adj", "lower-of-tbw-ibw")
+
+#: Every key a protocol may set (dotted, below the drug id or ``common``).
+SCHEMA: dict[str, Spec] = {
+    # ------------------------------------------------------------ renal function
+    "renal.scr_change_abs_mg_dl": num("mg/dL", 0.05, 5.0),
+    "renal.scr_change_window_h": num("h", 1.0, 168.0),
+    "renal.scr_change_rel": num("fraction", 0.05, 5.0),
+    "renal.crcl_weight_rule": choice(*WEIGHT_RULES),
+    "renal.crcl_weight_threshold": num("x IBW", 1.0, 2.0),
+    "renal.adjusted_weight_factor": num("fraction", 0.0, 1.0),
+    "renal.scr_floor_mg_dl": num("mg/dL", 0.0, 1.5),
+    "renal.short_height_cm": num("cm", 100.0, 200.0),
+    "renal.ibw_short_height_variant": choice("devine-extrapolated", "devine-floor"),
+    "dosing_weight.rule": choice(*WEIGHT_RULES),
+    "dosing_weight.threshold": num("x IBW", 1.0, 2.0),
+    # ------------------------------------------------------------ timing, methods, checks
+    "timing.uncertain_shift_min": num("min", 0.0, 240.0),
+    "timing.sensitivity_shift_min": num("min", 0.0, 120.0),
+    "timing.sensitivity_warn_rel": num("fraction", 0.0, 1.0),
+    "methods.disagreement_rel": num("fraction", 0.0, 1.0),
+    "methods.poor_fit_rel": num("fraction", 0.0, 5.0),
+    "windows.post_distribution_h": num("h", 0.0, 6.0),
+    "mic.default_mg_l": num("mg/L", 0.03, 64.0),
+    "plausible.age_yr": band("yr", 0.0, 130.0),
+    "plausible.weight_kg": band("kg", 0.3, 700.0),
+    "plausible.height_cm": band("cm", 20.0, 280.0),
+    "plausible.scr_mg_dl": band("mg/dL", 0.01, 50.0),
+    "plausible.infusion_h": band("h", 0.0, 72.0),
+    "plausible.single_dose_mg_per_kg": band("mg/kg", 0.0, 100.0),
+    "plausible.level_mg_l": band("mg/L", 0.0, 1000.0),
+    "population_limits.obesity_extreme_bmi": num("kg/m2", 20.0, 100.0),
+    "population_limits.obesity_extreme_ibw_ratio": num("x IBW", 1.0, 5.0),
+    "conditions": table("conditions"),
+    "conditions_source": text(),
+    "nephrotoxins.names": names(),
+    "nephrotoxins.source": text(),
+    # ------------------------------------------------------------ targets
+    "targets.auc24": band("mg*h/L", 0.0, 1500.0),
+    "targets.css": band("mg/L", 0.0, 60.0),
+    "targets.peak": band("mg/L", 0.0, 80.0),
+    "targets.trough": band("mg/L", 0.0, 40.0),
+    "targets.trough_ceiling": num("mg/L", 0.0, 50.0),
+    "targets.mic_caution_mg_l": num("mg/L", 0.03, 64.0),
+    "targets.peak_reference": pattern(r"end|(end|start)\+\d+(\.\d+)?h", "end, end+Xh or start+Xh"),
+    "targets.variants": table("variants"),
+    # ------------------------------------------------------------ regimen
+    "regimen.rounding_mg": num("mg", 1.0, 1000.0),
+    "regimen.intervals_h": nums("h", 1.0, 168.0),
+    "regimen.max_rate_mg_per_h": num("mg/h", 0.0, 10000.0),
+    "regimen.min_infusion_h": num("h", 0.0, 24.0),
+    "regimen.infusion_step_h": num("h", 0.05, 24.0),
+    "regimen.max_single_dose_mg": num("mg", 1.0, 10000.0),
+    "regimen.max_daily_dose_mg": num("mg", 1.0, 20000.0),
+    "regimen.admin_times": table("admin_times"),
+    "regimen.default_mode": choice("auc", "continuous", "extended", "peak-trough"),
+    "regimen.max_interval_half_lives": num("half-lives", 0.5, 10.0),
+    "regimen.extended_min_mg_per_kg": num("mg/kg", 0.0, 30.0),
+    "regimen.choice_tie_rel": num("fraction", 0.0, 0.5),
+    "regimen.min_hold_h": num("h", 0.0, 48.0),
+    # ------------------------------------------------------------ loading and continuous infusion
+    "loading.mg_per_kg": num("mg/kg", 0.0, 50.0),
+    "loading.range_mg_per_kg": band("mg/kg", 0.0, 50.0),
+    "loading.max_mg": num("mg", 0.0, 5000.0),
+    "loading.obese_mg_per_kg": band("mg/kg", 0.0, 50.0),
+    "loading.obese_bmi": num("kg/m2", 20.0, 80.0),
+    "loading.target_peak_mg_l": num("mg/L", 0.0, 80.0),
+    "loading.topup_min_rel": num("fraction", 0.0, 5.0),
+    "continuous.loading_mg_per_kg": num("mg/kg", 0.0, 50.0),
+    # ------------------------------------------------------------ population estimate
+    "population.ke_per_h": pair("1/h per mL/min, 1/h", 0.0, 1.0),
+    "population.v_l_per_kg": num("L/kg", 0.05, 2.0),
+    # ------------------------------------------------------------ monitoring
+    "monitoring.next_level": choice("trough", "peak", "peak-trough", "random", "steady-state"),
+    "monitoring.scr": text(),
+    "monitoring.toxicity": text(),
+    "monitoring.levels": table("level_plans"),
+    "monitoring.trough_before_h": num("h", 0.0, 6.0),
+    "monitoring.peak_after_end_h": num("h", 0.0, 6.0),
+    "monitoring.steady_state_within_rel": num("fraction", 0.0, 0.5),
+    # ------------------------------------------------------------ extended-interval aminoglycosides
+    "extended.mg_per_kg": num("mg/kg", 0.0, 30.0),
+    "extended.auc24": band("mg*h/L", 0.0, 300.0),
+    "extended.peak": band("mg/L", 0.0, 100.0),
+    "extended.trough_ceiling": num("mg/L", 0.0, 20.0),
+    "extended.min_crcl_ml_min": num("mL/min", 0.0, 200.0),
+    "extended.min_interval_h": num("h", 1.0, 168.0),
+    "extended.excluded_conditions": names(),
+    # ------------------------------------------------------------ nomogram
+    "nomogram.window_h": band("h", 0.0, 48.0),
+    "nomogram.q24_line": points("h, mg/L", 0.0, 100.0),
+    "nomogram.q36_line": points("h, mg/L", 0.0, 100.0, optional=True),
+    "nomogram.q48_line": points("h, mg/L", 0.0, 100.0, optional=True),
+    "nomogram.q24_shape_confirmed": flag(),
+    "nomogram.q36_shape_confirmed": flag(optional=True),
+    "nomogram.q48_shape_confirmed": flag(optional=True),
+    "nomogram.initial_interval": points("mL/min, h", 0.0, 200.0),
+    "nomogram.dose_tolerance_rel": num("fraction", 0.0, 1.0),
+    "nomogram.borderline_rel": num("fraction", 0.0, 0.5),
+    "nomogram.above_top_line": text(),
+}
+
+#: Target bands an indication variant may set.
+VARIANT_BANDS = {"peak": band("mg/L", 0.0, 80.0), "trough": band("mg/L", 0.0, 40.0),
+                 "auc24": band("mg*h/L", 0.0, 1500.0), "css": band("mg/L", 0.0, 60.0)}
+
+#: Checkers of the ``table`` kind.
+TABLES: dict[str, Callable[[Any, str], None]] = {
+    "admin_times": _admin_times, "level_plans": _level_plans, "variants": _variants, "conditions": _conditions,
+}
+
+#: Top-level protocol sections other than a drug id or ``common``: name -> checker(body, field).
+SECTIONS: dict[str, Callable[[Any, str], None]] = {}
+
+#: Keys a leaf table may hold besides ``value``.
+LEAF_KEYS = ("value", "source", "unit")
+
+
+def _is_num(x: Any) -> bool:
+    return isinstance(x, (int, float)) and not isinstance(x, bool) and math.isfinite(x)
+
+
+def _number(x: Any, spec: Spec, field: str) -> float:
+    if not _is_num(x):
+        raise InputError(field, f"expected a number in {spec.unit}, got {x!r}")
+    if not spec.lo <= x <= spec.hi:
+        raise InputError(field, f"{x:g} {spec.unit} is outside the plausible {spec.lo:g} to {spec.hi:g} {spec.unit}")
+    return float(x)
+
+
+def _numbers(x: Any, spec: Spec, field: str, size: int | None = None) -> list[float]:
+    if not isinstance(x, list) or not x or (size is not None and len(x) != size):
+        what = f"a list of {size} numbers" if size else "a non-empty list of numbers"
+        raise InputError(field, f"expected {what} in {spec.unit}, got {x!r}")
+    return [_number(v, spec, f"{field}[{i}]") for i, v in enumerate(x)]
+
+
+def check_value(value: Any, spec: Spec, field: str) -> None:
+    """Check one value against its spec. Raises InputError naming ``field``."""
+    kind = spec.kind
+    if kind == "num":
+        _number(value, spec, field)
+    elif kind == "band":
+        lo, hi = _numbers(value, spec, field, 2)
+        if not (lo < hi or lo == hi == 0):  # [0, 0]: none
+            raise InputError(field, f"expected [low, high] with low below high (or [0, 0] for none), got {value!r}")
+    elif kind == "nums":
+        _numbers(value, spec, field)
+    elif kind == "pair":
+        _numbers(value, spec, field, 2)
+    elif kind == "points":
+        if not isinstance(value, list) or not value:
+            raise InputError(field, f"expected a list of [x, y] points ({spec.unit}), got {value!r}")
+        for i, pt in enumerate(value):
+            _numbers(pt, spec, f"{field}[{i}]", 2)
+    elif kind == "choice":
+        if value not in spec.options:
+            raise InputError(field, f"{value!r} is not one of {', '.join(spec.options)}")
+    elif kind == "pattern":
+        if not isinstance(value, str) or not re.fullmatch(spec.options[0], value.strip()):
+            raise InputError(field, f"{value!r} is not of the form {spec.unit}")
+    elif kind == "text":
+        if not isinstance(value, str):
+            raise InputError(field, f"expected text, got {value!r}")
+    elif kind == "names":
+        if not isinstance(value, list) or not all(isinstance(v, str) for v in value):
+            raise InputError(field, f"expected a list of text, got {value!r}")
+    elif kind == "flag":
+        if not isinstance(value, bool):
+            raise InputError(field, f"expected true or false, got {value!r}")
+    elif kind == "table":
+        TABLES[spec.options[0]](value, field)
+
+
+def _leaves(body: dict[str, Any], prefix: str = "") -> list[tuple[str, Any, dict[str, Any] | None]]:
+    """(dotted key, value, leaf table or None) for every value in a protocol section."""
+    out: list[tuple[str, Any, dict[str, Any] | None]] = []
+    for key, item in body.items():
+        path = f"{prefix}{key}"
+        if path in SCHEMA and SCHEMA[path].kind == "table" and not (isinstance(item, dict) and "value" in item):
+            out.append((path, item, None))
+        elif isinstance(item, dict) and "value" in item:
+            out.append((path, item["value"], item))
+        elif isinstance(item, dict):
+            out.extend(_leaves(item, path + "."))
+        else:
+            out.append((path, item, None))
+    return out
+
+
+def check_section(section: str, body: dict[str, Any], library_keys: set[str]) -> None:
+    """Check every key and value of one protocol section (a drug id or ``common``).
+
+    Args:
+        section: the section name.
+        body: the section's table as read from TOML.
+        library_keys: the dotted keys the library holds for this section (a key
+            the library does not use here is an error unless its spec is optional).
+
+    Raises:
+        InputError: naming ``protocol.<section>.<key>``.
+    """
+    for key, value, leaf in _leaves(body):
+        field = f"protocol.{section}.{key}"
+        spec = SCHEMA.get(key)
+        if key.startswith("never_exceed") or key.startswith("drug."):
+            raise InputError(field, "this library value cannot be set by a local protocol")
+        if spec is None:
+            raise InputError(field, "unknown key (DEVELOPERS.md lists the keys a protocol may set)")
+        if key not in library_keys and not spec.optional:
+            raise InputError(field, f"not used for {section}" if section != "common" else
+                             "not a common key: put it under a drug id")
+        if leaf is not None:
+            for extra in leaf:
+                if extra not in LEAF_KEYS:
+                    raise InputError(f"{field}.{extra}", f"unknown key (a value's table holds {', '.join(LEAF_KEYS)})")
+            if "source" in leaf and not isinstance(leaf["source"], str):
+                raise InputError(f"{field}.source", "expected text")
+            if "unit" in leaf and leaf["unit"] != spec.unit:
+                raise InputError(f"{field}.unit", f"{leaf['unit']!r}: this value is in {spec.unit or 'no unit'}")
+        check_value(value, spec, field)
