@@ -175,6 +175,7 @@ SCHEMA: dict[str, Spec] = {
     "methods.disagreement_rel": num("fraction", 0.0, 1.0),
     "methods.poor_fit_rel": num("fraction", 0.0, 5.0),
     "windows.post_distribution_h": num("h", 0.0, 6.0),
+    "windows.continuous_min_infusion_h": num("h", 4.0, 24.0),
     "mic.default_mg_l": num("mg/L", 0.03, 64.0),
     "plausible.age_yr": band("yr", 0.0, 130.0),
     "plausible.weight_kg": band("kg", 0.3, 700.0),
