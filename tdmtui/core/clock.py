@@ -34,9 +34,11 @@ _COMMON_ZONES = ("Europe/London", "Europe/Berlin", "America/New_York", "America/
 def _zone(name: str):  # noqa: ANN202 - returns ZoneInfo
     from zoneinfo import ZoneInfo, ZoneInfoNotFoundError
 
+    if len(name) > 64:
+        raise InputError("timezone", f"{name[:20]!r}... is not a known IANA time zone name (too long)")
     try:
         return ZoneInfo(name)
-    except (ZoneInfoNotFoundError, ValueError) as exc:
+    except (ZoneInfoNotFoundError, ValueError, OSError) as exc:
         raise InputError("timezone", f"{name!r} is not a known IANA time zone name") from exc
 
 
