@@ -29,7 +29,7 @@ from tdmtui.ui.filing import FilingMixin
 from tdmtui.ui.importing import is_export, open_export
 from tdmtui.ui.messages import CaseEdited
 from tdmtui.ui.safety import first_run, short_text
-from tdmtui.ui.recovery import recovery_path, state_dir, write_recovery
+from tdmtui.ui.recovery import RecoveryRefused, recovery_path, state_dir, write_recovery
 from tdmtui.ui.sections.doses import DosesSection
 from tdmtui.ui.sections.estimate import EstimateSection
 from tdmtui.ui.sections.levels import LevelsSection
@@ -284,7 +284,7 @@ class TdmApp(ComputeMixin, FilingMixin, App[int]):
         """Write the recovery file (atomic, 0600)."""
         try:
             write_recovery(recovery_path(self.doc.path, self.state), self.doc.path, self.doc.raw)
-        except OSError as exc:
+        except (OSError, RecoveryRefused) as exc:
             self.set_status(f"Could not write the recovery file: {exc}", error=True)
 
     def reload_sections(self) -> None:

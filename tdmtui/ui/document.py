@@ -16,7 +16,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
-from tdmtui.core.case import FORMAT, canonical_bytes, folder_lock, save_case
+from tdmtui.core.case import FORMAT, canonical_bytes, folder_lock, remove_stale_temps, save_case
 
 
 def new_case_raw(drug: str = "vancomycin") -> dict[str, Any]:
@@ -87,6 +87,7 @@ class CaseDocument:
             raise ValueError(f"{exc.field}: {exc.message}" if exc.field != "(file)" else exc.message) from None
         if not isinstance(raw, dict):
             raise ValueError(f"{path} does not hold a case object")
+        remove_stale_temps(path)  # this user's leftovers of an interrupted save of this case
         return cls(raw, path)
 
     # ---------------------------------------------------------------- edits

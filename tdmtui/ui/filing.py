@@ -11,9 +11,10 @@ from __future__ import annotations
 from pathlib import Path
 from typing import Any
 
+from tdmtui.core.case import SaveLockTimeout
 from tdmtui.ui.dialogs import AskDialog, TextDialog
 from tdmtui.ui.document import ChangedOnDisk, new_case_raw
-from tdmtui.ui.recovery import find_recovery, recovery_path, remove_recovery
+from tdmtui.ui.recovery import RecoveryRefused, find_recovery, recovery_path, remove_recovery
 
 
 def local_time(stamp: str) -> str:
@@ -55,7 +56,12 @@ class FilingMixin:
     def offer_recovery(self) -> None:
         """At start: offer to restore unsaved work left by a crash or a dropped session."""
         current = None if not self.doc.path or not Path(self.doc.path).exists() else self.doc.raw
-        rec = find_recovery(self.doc.path, self.state, current if current is not None else new_case_raw())
+        try:
+            rec = find_recovery(self.doc.path, self.state, current if current is not None else new_case_raw())
+        except RecoveryRefused as exc:
+            self.notify(f"A recovery file was found but not offered: {exc}", severity="warning", timeout=10,
+                        markup=False)
+            return
         if rec is None:
             return
 
@@ -68,11 +74,11 @@ class FilingMixin:
                 self.request_compute(now=True)
                 self.notify("Restored the unsaved work. Save with ctrl+s.", timeout=5)
             elif word == "discard":
-                remove_recovery(rec.path)
+                self.drop_recovery(rec.path)
 
         self.push_screen(AskDialog(
-            f"Unsaved work from {local_time(rec.saved_at)} was found for "
-            f"{Path(self.doc.path).name if self.doc.path else 'a new case'} (the app stopped before saving).\n"
+            f"Unsaved work of {rec.user} from {local_time(rec.saved_at)} was found for "
+            f"{rec.case_path or 'a new case (never saved)'} (the app stopped before saving).\n"
             f"What differs from the file: {changed_parts(current or new_case_raw(), rec.raw)}.\n"
             "Restore it? (discard deletes it; Esc keeps it for next time and opens the file as saved)",
             [("r", "restore"), ("d", "discard")], escape="later"), answer)
@@ -91,7 +97,7 @@ class FilingMixin:
                 "It is NOT overwritten. Save your version under another name?",
                 [("a", "save as")]), lambda w: self.save_as() if w == "save as" else None)
             return
-        except OSError as exc:
+        except (OSError, SaveLockTimeout) as exc:
             self.notify(f"Not saved: {exc}", severity="error", markup=False)
             return
         self.saved()
@@ -111,10 +117,10 @@ class FilingMixin:
             old = recovery_path(self.doc.path, self.state)
             try:
                 self.doc.save(str(Path(text).expanduser()))
-            except OSError as exc:
+            except (OSError, SaveLockTimeout) as exc:
                 self.notify(f"Not saved: {exc}", severity="error", markup=False)
                 return
-            remove_recovery(old)
+            self.drop_recovery(old)
             self.saved()
             if then_quit:
                 self.exit(0)
@@ -124,7 +130,6 @@ class FilingMixin:
 
     def saved(self) -> None:
         """After a save: remove the recovery file and say so."""
-        remove_recovery(recovery_path(self.doc.path, self.state))
         self.update_header()
         self.refresh_note()  # the note's record now names the saved file
         if not self.matches_file():
@@ -137,6 +142,13 @@ class FilingMixin:
                         severity="warning", timeout=8, markup=False)
             return
         self.notify(f"Saved {self.doc.path}", timeout=3, markup=False)
+        self.drop_recovery(recovery_path(self.doc.path, self.state))
+
+    def drop_recovery(self, path: Path) -> None:
+        """Remove a recovery file; a failure is said, never raised (the work itself is saved)."""
+        why = remove_recovery(path)
+        if why:
+            self.notify(why, severity="warning", timeout=8, markup=False)
 
     def action_quit_app(self) -> None:
         """Quit, asking first when there are unsaved changes."""
@@ -155,7 +167,7 @@ class FilingMixin:
             elif word == "keep for later":
                 self.exit(0)
             elif word == "discard":
-                remove_recovery(recovery_path(self.doc.path, self.state))
+                remove_recovery(recovery_path(self.doc.path, self.state))  # quitting: nothing to report to
                 self.exit(0)
 
         self.push_screen(AskDialog(

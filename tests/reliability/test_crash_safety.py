@@ -311,8 +311,8 @@ async def test_real_terminal_app_killed_after_typing_keeps_the_edit(tmp_path):
     case = tmp_path / "case.json"
     case.write_bytes((ROOT / "sample_cases" / "vanc-steady-state.json").read_bytes())
     before = case.read_bytes()
-    state = tmp_path / "state"
-    pid, fd = _pty_app(case, state)
+    state = tmp_path / "state" / "tdmtui"  # the app's state folder under XDG_STATE_HOME
+    pid, fd = _pty_app(case, state.parent)
     try:
         screen = b""
         deadline = time.monotonic() + 60

@@ -124,9 +124,9 @@ def test_recovery_file_is_0600_in_a_0700_folder(tmp_path, open_umask):
     write_recovery(unsaved, None, _marked_case())
     assert stat.S_IMODE(unsaved.stat().st_mode) == 0o600
     assert stat.S_IMODE(state.stat().st_mode) == 0o700
-    beside = recovery_path(str(tmp_path / "case.json"), state)
-    write_recovery(beside, str(tmp_path / "case.json"), _marked_case())
-    assert stat.S_IMODE(beside.stat().st_mode) == 0o600
+    of_case = recovery_path(str(tmp_path / "case.json"), state)
+    write_recovery(of_case, str(tmp_path / "case.json"), _marked_case())
+    assert stat.S_IMODE(of_case.stat().st_mode) == 0o600 and of_case.parent == state
 
 
 def test_note_file_from_the_app_is_0600(tmp_path, open_umask):
@@ -193,7 +193,9 @@ async def test_the_app_writes_nothing_typed_outside_the_case_and_recovery_files(
         await pilot.press(*"81 kg")
         await pilot.pause(0.5)
         await app.workers.wait_for_complete()
-    allowed = {path, work / ".case.json.recovery"}
+    from tdmtui.ui.recovery import recovery_path, state_dir
+
+    allowed = {path, recovery_path(str(path), state_dir())}  # the recovery file lives in the user's state folder
     carriers = [p for p in tmp_path.rglob("*") if p.is_file() and p not in allowed
                 and MARK.encode() in p.read_bytes()]
     assert carriers == []
