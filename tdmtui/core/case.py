@@ -22,8 +22,9 @@ from pathlib import Path
 from typing import Any, Iterator
 
 from tdmtui.core.bounds import check_span, check_tree, decode_json, read_case_bytes
+from tdmtui.core.alerts import Alert
 from tdmtui.core.chosen import parse_chosen
-from tdmtui.core.clock import Clock, clock_for
+from tdmtui.core.clock import Clock, ambiguous, clock_for
 from tdmtui.core.errors import InputError
 from tdmtui.core.library import DRUGS, Rules
 from tdmtui.core.units import parse_quantity
@@ -137,6 +138,7 @@ class Case:
     raw: dict[str, Any]
     sha256: str
     saved: bool
+    notices: tuple[Alert, ...] = ()  # warnings found while reading (ambiguous times, an unused timezone)
 
 
 def _obj(value: Any, field: str) -> dict[str, Any]:
@@ -371,7 +373,30 @@ def parse_case(raw: Any, data: bytes | None = None) -> Case:
                + [("as_of", as_of)])
     digest = hashlib.sha256(data if data is not None else canonical_bytes(raw)).hexdigest()
     return Case(drug, label, as_of, given, clock, patient, doses, levels, schedule, target, method,
-                raw, digest, data is not None)
+                raw, digest, data is not None, _notices(raw, clock))
+
+
+#: Warning codes raised while reading a case.
+CODES = {
+    "ambiguous-time": "a wall-clock time that happens twice in the case's timezone (read as the first)",
+    "timezone-ignored": "a timezone given while every time carries its own UTC offset",
+}
+
+
+def _notices(raw: dict[str, Any], clock: Clock) -> tuple[Alert, ...]:
+    """Times read one way of two, and a timezone that placed nothing: warned, naming the field."""
+    out = [Alert("ambiguous-time", "caution", f,
+                 f"{_lookup_time(raw, f)} happens twice in {clock.zone_name} (the clocks go back): read as the "
+                 "first, before the change; if it was the second, give every time with its UTC offset")
+           for f in ambiguous(clock, _times(raw))]
+    if clock.style == "offset" and raw.get("timezone") is not None:
+        out.append(Alert("timezone-ignored", "info", "timezone",
+                         f"timezone {raw['timezone']!r} is not used: every time carries its own UTC offset"))
+    return tuple(out)
+
+
+def _lookup_time(raw: dict[str, Any], field: str) -> str:
+    return next((str(t) for f, t in _times(raw) if f == field), field)
 
 
 def load_case(path: str | Path) -> Case:

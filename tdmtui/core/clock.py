@@ -104,7 +104,11 @@ class Clock:
             if off is not None:
                 raise InputError(field, "this case's times have no UTC offset; this one has one (do not mix)")
             if self.style == "zone":
-                aware = naive.replace(tzinfo=_zone(self.zone_name or ""))
+                zone = _zone(self.zone_name or "")
+                aware = naive.replace(tzinfo=zone)
+                if aware.astimezone(timezone.utc).astimezone(zone).replace(tzinfo=None) != naive:
+                    raise InputError(field, f"{text!r} does not exist in {self.zone_name}: the clocks went forward "
+                                            "over it (give the time the clock showed, or a UTC offset on every time)")
             else:
                 aware = naive.replace(tzinfo=timezone.utc)
         return (aware - _EPOCH).total_seconds() / 3600.0
@@ -140,6 +144,25 @@ class Clock:
             if a.replace(tzinfo=None).replace(tzinfo=z).utcoffset() != b.replace(tzinfo=None).replace(tzinfo=z).utcoffset():
                 return True
         return False
+
+
+def ambiguous(clock: Clock, times: list[tuple[str, object]]) -> list[str]:
+    """Fields whose wall-clock time happens twice in the case's zone (the hour the clocks go back).
+
+    Such a time is read as the first of the two (before the change); the caller warns naming the field.
+    """
+    if clock.style != "zone":
+        return []
+    zone = _zone(clock.zone_name or "")
+    out = []
+    for field, text in times:
+        try:
+            naive, _ = _parse_parts(text, field)
+        except InputError:
+            continue
+        if naive.replace(tzinfo=zone, fold=0).utcoffset() != naive.replace(tzinfo=zone, fold=1).utcoffset():
+            out.append(field)
+    return out
 
 
 def clock_for(times: list[tuple[str, object]], timezone_name: object) -> Clock:

@@ -118,7 +118,7 @@ def compute(case: Case, protocol: Protocol | None = None, method: str | None = N
     renal = renal_summary(p.age, p.sex, p.weight, p.height, [(s.time, s.value, s.index) for s in p.scr], rules,
                           clock=case.clock)
     mic = case.target.mic if case.target.mic is not None else float(rules.value("mic.default_mg_l"))
-    alerts: list[Alert] = list(renal.alerts)
+    alerts: list[Alert] = list(case.notices) + list(renal.alerts)
     alerts += checks.patient_alerts(case, rules, renal.bmi, renal.ibw, mic)
     alerts += course.validate_course(case, rules, renal.dosing_weight_kg)
     cur, cur_alerts = course.current_regimen(case, rules)
