@@ -1,13 +1,23 @@
-"""Reliability suite: shared counters, printed at the end of the run."""
+"""Reliability suite: shared counters, carried on each test's report so the
+totals are right also when the suite runs in several worker processes
+(tests/conftest.py adds them up and prints them at the end of the run)."""
 
 from __future__ import annotations
 
+from collections import Counter
+
+import pytest
 from relhelpers import FUZZ_COUNTS
 
+_REPORTED: Counter = Counter()
 
-def pytest_terminal_summary(terminalreporter) -> None:  # noqa: ANN001
-    if not FUZZ_COUNTS:
+
+@pytest.hookimpl(hookwrapper=True)
+def pytest_runtest_makereport(item, call):  # noqa: ANN001, ANN201
+    outcome = yield
+    if call.when != "teardown":
         return
-    terminalreporter.section("reliability: fuzz counts")
-    for key in sorted(FUZZ_COUNTS):
-        terminalreporter.write_line(f"{key:<48} {FUZZ_COUNTS[key]:>8}")
+    delta = FUZZ_COUNTS - _REPORTED
+    if delta:
+        outcome.get_result().user_properties.append(("fuzz_counts", dict(delta)))
+        _REPORTED.update(delta)
