@@ -103,10 +103,12 @@ def _say(message: str) -> None:
 
 
 def _sub_parser(name: str) -> argparse.ArgumentParser:
+    from tdmtui.core import registry
+
     ap = argparse.ArgumentParser(prog=f"tdmtui {name}")
     ap.add_argument("case", help="case file (JSON, tdmtui.case/1)")
     ap.add_argument("--protocol", metavar="FILE", help="local protocol TOML (default: ~/.config/tdmtui/protocol.toml if present)")
-    ap.add_argument("--method", choices=("auto", "two-level", "sawchuk-zaske", "least-squares", "bayesian", "population", "nomogram"),
+    ap.add_argument("--method", choices=registry.CHOICES,
                     help="override the case's method")
     if name == "compute":
         ap.add_argument("--json", action="store_true", help="print the result object as JSON")

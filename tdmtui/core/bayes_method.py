@@ -19,14 +19,18 @@ use them (case-format.md).
 
 from __future__ import annotations
 
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
 from tdmtui.core.alerts import Alert
 from tdmtui.core.errors import ConvergenceError, NoEstimateError
 from tdmtui.core.estimates import Estimate
+from tdmtui.core.registry import MethodRun
 from tdmtui.core.working import WorkingStep
+
+if TYPE_CHECKING:
+    from tdmtui.core.context import MethodContext
 
 #: Posterior draws for intervals and target probability (recorded with the seed).
 #: Drawn by importance resampling from a widened Laplace proposal: equal-weight
@@ -35,7 +39,7 @@ from tdmtui.core.working import WorkingStep
 N_DRAWS = 2000
 
 
-def levels_for(ctx: Any, two_compartment: bool) -> list:
+def levels_for(ctx: MethodContext, two_compartment: bool) -> list:
     from tdmtui.core.course import level_exclusion
 
     out = []
@@ -48,21 +52,7 @@ def levels_for(ctx: Any, two_compartment: bool) -> list:
     return out
 
 
-def _target_bands(ctx: Any) -> dict[str, tuple[float, float]]:
-    t = ctx.case.target
-    if t.auc24 or t.peak or t.trough:
-        return {k: v for k, v in (("auc24", t.auc24), ("peak", t.peak), ("trough", t.trough)) if v}
-    r = ctx.rules
-    if "targets.auc24" in r:
-        return {"auc24": tuple(r.value("targets.auc24"))}
-    bands = {}
-    for k in ("peak", "trough"):
-        if f"targets.{k}" in r:
-            bands[k] = tuple(r.value(f"targets.{k}"))
-    return bands
-
-
-def _uncertainty(ctx: Any, samples: Any) -> tuple[dict[str, list[float]], float | None]:
+def _uncertainty(ctx: MethodContext, samples: Any) -> tuple[dict[str, list[float]], float | None]:
     """90 % intervals of the estimate's figures and the current regimen's probability of target."""
     from tdmtui.core import bayes
 
@@ -73,13 +63,14 @@ def _uncertainty(ctx: Any, samples: Any) -> tuple[dict[str, list[float]], float 
             "peak": "peak_mg_per_l", "trough": "trough_mg_per_l"}
     interval90 = {keys[k]: [lo, hi] for k, (lo, hi) in iv.items()}
     prob = None
-    bands = _target_bands(ctx)
-    if cur is not None and bands:
-        prob = bayes.probability_of_target(samples, cur.dose_mg, cur.interval_h, cur.infusion_h, bands)
+    if cur is not None and ctx.targets is not None:
+        from tdmtui.core.regimen.candidates import target_probability
+
+        prob = target_probability(samples, ctx.targets, cur.dose_mg, cur.interval_h, cur.infusion_h)
     return interval90, prob
 
 
-def _estimate(name: str, fit: Any, levels: list, ctx: Any, offer: Any, a_priori: bool,
+def _estimate(name: str, fit: Any, levels: list, ctx: MethodContext, offer: Any, a_priori: bool,
               samples: Any = None) -> Estimate:
     from tdmtui.core import bayes
 
@@ -129,7 +120,7 @@ def _estimate(name: str, fit: Any, levels: list, ctx: Any, offer: Any, a_priori:
                     samples=samples, extra=extra)
 
 
-def _covariates(ctx: Any) -> Any:
+def _covariates(ctx: MethodContext) -> Any:
     from tdmtui.core import popmodels
 
     p = ctx.case.patient
@@ -144,7 +135,7 @@ def _observations(levels: list) -> Any:
                                          [lv.below_loq for lv in levels], [lv.above_uloq for lv in levels])
 
 
-def run(ctx: Any) -> tuple[dict[str, Estimate], dict[str, str], list[Alert]]:
+def run(ctx: MethodContext) -> MethodRun:
     """Every offered model's MAP and a priori estimates, their average; failures by name; the flags.
 
     ``bayesian`` is the model average (:mod:`averaging`) over the models that
@@ -159,7 +150,7 @@ def run(ctx: Any) -> tuple[dict[str, Estimate], dict[str, str], list[Alert]]:
     why: dict[str, str] = {}
     if not offers:
         why["bayesian"] = popmodels.not_available_reason(ctx.case.drug)
-        return est, why, []
+        return MethodRun(est, why)
     usable_offers = [o for o in offers if not o.excluded]
     in_population = [o for o in usable_offers if not o.out_of_population]
     primary = (in_population or usable_offers or [None])[0]
@@ -189,7 +180,7 @@ def run(ctx: Any) -> tuple[dict[str, Estimate], dict[str, str], list[Alert]]:
             est[f"bayesian:{o.model.id}"].extra["weight_note"] = reason
     if members:
         est["bayesian"], flags = _averaged(ctx, members, est)
-        return est, why, flags
+        return MethodRun(est, why, tuple(flags))
     if primary is None:
         why["bayesian"] = "every offered model is excluded for this patient"
     elif f"bayesian:{primary.model.id}" in est:
@@ -197,7 +188,7 @@ def run(ctx: Any) -> tuple[dict[str, Estimate], dict[str, str], list[Alert]]:
     else:
         why["bayesian"] = why.get(f"bayesian:{primary.model.id}", "no estimate")
     flags = list(primary.alerts) if primary is not None else []
-    return est, why, flags
+    return MethodRun(est, why, tuple(flags))
 
 
 def _condition_mismatch(o: Any) -> bool:
@@ -220,7 +211,7 @@ def _eligible(fitted: list) -> tuple[list, list]:
     return keep, left
 
 
-def _averaged(ctx: Any, fitted: list, est: dict[str, Estimate]) -> tuple[Estimate, list[Alert]]:
+def _averaged(ctx: MethodContext, fitted: list, est: dict[str, Estimate]) -> tuple[Estimate, list[Alert]]:
     from tdmtui.core import averaging
     from tdmtui.core.models import concentration
 
@@ -333,7 +324,7 @@ def residual_alerts(e: Estimate, rules: Any) -> list[Alert]:
     return out
 
 
-def refit(ctx: Any, model_id: str) -> Estimate | None:
+def refit(ctx: MethodContext, model_id: str) -> Estimate | None:
     """MAP again on one model, or the model average again (for the timing sensitivity); None when it fails."""
     from tdmtui.core import averaging, bayes, popmodels
 

@@ -21,6 +21,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any, Iterator
 
+from tdmtui.core import registry
 from tdmtui.core.bounds import check_span, check_tree, decode_json, read_case_bytes
 from tdmtui.core.alerts import Alert
 from tdmtui.core.chosen import parse_chosen
@@ -34,7 +35,8 @@ SEXES = ("male", "female")
 RENAL_REPLACEMENT = ("none", "ihd", "crrt", "pd")
 DOSE_KINDS = ("loading", "maintenance", "extra")
 TIMINGS = ("actual", "scheduled", "uncertain")
-METHODS = ("auto", "two-level", "sawchuk-zaske", "least-squares", "bayesian", "population", "nomogram")
+#: The case's ``method`` choices: ``auto``, every estimation method, every regimen option (registry.py).
+METHODS = registry.CHOICES
 TARGET_BANDS = ("auc24", "peak", "trough", "css")
 
 #: Hard limits beyond which a value cannot be a person's (input error, exit 2).

@@ -5,11 +5,15 @@ Order of work (each step's rules are in its own module):
 1. library rules with the local protocol laid on top (:mod:`library`);
 2. body size and renal function (:mod:`patient`), plausibility (:mod:`checks`);
 3. course checks, usable levels and the current regimen (:mod:`course`);
-4. every applicable method side by side (:mod:`twolevel`, :mod:`methods`);
-5. the method used: the one asked for, or by ``auto`` (:func:`choose`);
-6. the regimen (:mod:`regimen`) unless a stop stands.
+4. the targets the regimen is judged by (:func:`regimen_targets`);
+5. every method of the registry side by side (:mod:`registry`, :mod:`methods`);
+6. the method used: the one asked for, or by ``auto`` (:func:`choose`);
+7. the timing sensitivity (:mod:`sensitivity`), the regimen (:mod:`regimen`) unless a stop stands.
 
-``auto`` (case-format.md) never ignores a usable level: two-level when two
+A choice that names a regimen option (``nomogram``) takes its estimate from
+the option's ``estimate_with`` choice and hands the option to the design.
+
+``auto`` (case-format.md; the registry's ``auto_rank`` order) never ignores a usable level: two-level when two
 usable levels give a unique solution; else the Bayesian estimate (every
 usable level, censored ones as bounds, whatever the model's verification
 status: a model checked against a secondary copy only carries a caution);
@@ -20,21 +24,29 @@ one sentence for the note.
 
 from __future__ import annotations
 
+import dataclasses
 from dataclasses import dataclass, field
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
 from tdmtui import __version__
-from tdmtui.core import checks, course, limits, methods
+from tdmtui.core import checks, course, limits, methods, registry
 from tdmtui.core.alerts import Alert, has_stop
 from tdmtui.core.case import Case, parse_case
+from tdmtui.core.context import MethodContext, history_of
+from tdmtui.core.course import CurrentRegimen
 from tdmtui.core.errors import NoEstimateError
 from tdmtui.core.estimates import Estimate
 from tdmtui.core.library import LIBRARY_VERSION, Protocol, Rules, library_digest
 from tdmtui.core.models import DoseArrays, PKParams
 from tdmtui.core.patient import RenalSummary, renal_summary
+from tdmtui.core.sensitivity import timing_sensitivity
 from tdmtui.core.working import WorkingStep
+
+if TYPE_CHECKING:
+    from tdmtui.core.regimen.targets import Targets
+    from tdmtui.core.regimen.types import RegimenInput
 
 RESULT_FORMAT = "tdmtui.result/1"
 
@@ -57,32 +69,62 @@ class Outcome:
     regimen_plan: Any = None
 
 
-def history_of(case: Case) -> DoseArrays:
-    """The real doses up to ``as_of`` as arrays."""
-    ds = [d for d in case.doses if d.start <= case.as_of]
-    return DoseArrays.from_lists([d.start for d in ds], [d.duration for d in ds], [d.amount for d in ds])
-
-
-#: ``auto``'s order: the first method here that gave an estimate is used.
-AUTO_ORDER = ("two-level", "bayesian", "continuous-steady-state", "one-level", "population")
-
-
 def choose(requested: str, estimates: dict[str, Estimate], failures: dict[str, str]) -> str:
-    """The method used. Raises NoEstimateError when a requested method gave none."""
+    """The method used: the one asked for, or the first of ``auto``'s order that gave an estimate.
+
+    Raises NoEstimateError when a requested method gave none.
+    """
     if requested != "auto":
         if requested in estimates:
             return requested
         raise NoEstimateError(requested, failures.get(requested, "this method does not apply to this case"))
-    for name in AUTO_ORDER:
-        if name in estimates:
-            return name
+    for m in registry.auto_order():
+        if m.id in estimates:
+            return m.id
     raise NoEstimateError("auto", "; ".join(f"{k}: {v}" for k, v in failures.items()) or "no method applies")
+
+
+def regimen_input(case: Case, rules: Rules, renal: RenalSummary, history: DoseArrays,
+                  cur: CurrentRegimen | None, option: str | None) -> RegimenInput:
+    """What the regimen design is given, before any estimate (params None)."""
+    from tdmtui.core.regimen.types import RegimenInput
+
+    p = case.patient
+    return RegimenInput(drug=case.drug, rules=rules, case_target=case.target, params=None,
+                        history=history, as_of=case.as_of, clock=case.clock, current=cur,
+                        dosing_weight_kg=renal.dosing_weight_kg, tbw_kg=p.weight, bmi=renal.bmi,
+                        crcl_ml_min=renal.crcl_ml_min, renal_replacement=p.renal_replacement,
+                        conditions=p.conditions, levels=case.levels, doses=case.doses, option=option)
+
+
+def regimen_option(asked: str, chosen: str | None, base: RegimenInput) -> str | None:
+    """The regimen option the design uses: the one chosen, or under ``auto`` the nomogram where the
+    chart can be read for this extended-interval course (regimen/extended.applies)."""
+    if chosen is not None or asked != "auto":
+        return chosen
+    from tdmtui.core.regimen.extended import applies
+
+    return "nomogram" if applies(base) else None
+
+
+def _auto_option_alert(option: str, est: Estimate) -> Alert:
+    return Alert("nomogram-auto", "info", "method",
+                 f"extended-interval course with a level in the chart's window: the interval is read on the "
+                 f"nomogram; the individualised estimate ({est.method}) gives the predictions beside it")
+
+
+def regimen_targets(base: RegimenInput) -> Targets:
+    """The targets the regimen is judged by (mode from the drug, the case, the current order, the option)."""
+    from tdmtui.core.regimen.design import choose_mode
+    from tdmtui.core.regimen.targets import resolve_targets
+
+    return resolve_targets(base.rules, base.case_target, choose_mode(base, []))
 
 
 def method_reason(requested: str, used: str, estimates: dict[str, Estimate], failures: dict[str, str],
                   n_levels: int) -> str:
     """One sentence for the note: which method and why."""
-    if requested not in ("auto", "nomogram"):
+    if requested != "auto":
         return f"{used} was asked for in the case or on the command line."
     est = estimates[used]
     n = len(est.levels_used)
@@ -125,29 +167,31 @@ def compute(case: Case, protocol: Protocol | None = None, method: str | None = N
     alerts += cur_alerts
     history = history_of(case)
     usable = course.usable_levels(case, rules)
-    ctx = methods.MethodContext(case, rules, renal, history, usable, cur)
-    estimates, failures = methods.run_all(ctx)
-    requested = method or case.method
-    # the nomogram reads a level against a chart: the estimate beside it comes from `auto`
+    asked, chosen = registry.split_choice(method or case.method)
+    base = regimen_input(case, rules, renal, history, cur, chosen)
+    option = regimen_option(asked, chosen, base)
+    base = dataclasses.replace(base, option=option)
+    targets = regimen_targets(base)
+    ctx = MethodContext(case, rules, renal, history, usable, cur, targets)
+    runs = methods.run_all(ctx)
+    estimates, failures = runs.estimates, runs.failures
     try:
-        used = choose("auto" if requested == "nomogram" else requested, estimates, failures)
+        used = choose(asked, estimates, failures)
     except NoEstimateError:
-        if requested in ("auto", "nomogram") and has_stop(alerts):
+        if asked == "auto" and has_stop(alerts):
             return _stopped(case, protocol, rules, renal, cur, alerts, failures, ctx, estimates)
         raise
     n_levels = len(methods.levels_for_estimates(ctx))
     alerts += methods.compare(ctx, estimates, used)
-    alerts += methods.used_alerts(ctx, estimates[used], estimates)
-    from tdmtui.core.sensitivity import timing_sensitivity
-
+    alerts += methods.used_alerts(ctx, estimates[used], runs)
     sens_rows, sens_alerts = timing_sensitivity(ctx, estimates[used])
     alerts += sens_alerts
     est = estimates[used]
     weight = p.weight
     result = _header(case, protocol, renal, rules, cur)
     result.update({
-        "method": "nomogram" if requested == "nomogram" else used,
-        "method_reason": method_reason(requested, used, estimates, failures, n_levels),
+        "method": chosen or used,
+        "method_reason": method_reason(asked, used, estimates, failures, n_levels),
         "estimate": est.to_dict(cur, weight),
         "methods": {k: v.to_dict(cur, weight) for k, v in estimates.items() if k != used},
         "methods_unavailable": failures,
@@ -159,8 +203,15 @@ def compute(case: Case, protocol: Protocol | None = None, method: str | None = N
     if has_stop(alerts):
         result["status"] = "stop"
     else:
-        plan_alerts = methods.attach_regimen(ctx, outcome, est, auto=requested == "auto")
-        plan_alerts += limits.guard(case.drug, result, outcome.plan, p.weight)  # the final, separate check
+        if option is not None and option != chosen:
+            alerts.append(_auto_option_alert(option, est))
+        plan = methods.attach_regimen(ctx, est, base)
+        result["regimen"] = plan.regimen
+        result["target"] = plan.targets
+        result["sources"].update(plan.sources)
+        outcome.plan = plan.doses
+        outcome.regimen_plan = plan
+        plan_alerts = list(plan.alerts) + limits.guard(case.drug, result, outcome.plan, p.weight)  # the final check
         alerts += plan_alerts
         if has_stop(plan_alerts):
             result["status"] = "stop"
@@ -174,7 +225,7 @@ def compute(case: Case, protocol: Protocol | None = None, method: str | None = N
     return outcome
 
 
-def _header(case: Case, protocol: Protocol | None, renal: RenalSummary, rules: Rules, cur: Any) -> dict[str, Any]:
+def _header(case: Case, protocol: Protocol | None, renal: RenalSummary, rules: Rules, cur: CurrentRegimen | None) -> dict[str, Any]:
     return {
         "format": RESULT_FORMAT,
         "version": __version__,
@@ -204,8 +255,8 @@ def _header(case: Case, protocol: Protocol | None, renal: RenalSummary, rules: R
     }
 
 
-def _stopped(case: Case, protocol: Protocol | None, rules: Rules, renal: RenalSummary, cur: Any,
-             alerts: list[Alert], failures: dict[str, str], ctx: Any, estimates: dict[str, Estimate]) -> Outcome:
+def _stopped(case: Case, protocol: Protocol | None, rules: Rules, renal: RenalSummary, cur: CurrentRegimen | None,
+             alerts: list[Alert], failures: dict[str, str], ctx: MethodContext, estimates: dict[str, Estimate]) -> Outcome:
     """A stop stands and no method gives an estimate: the result carries the stop, no estimate."""
     result = _header(case, protocol, renal, rules, cur)
     methods_out = {k: v.to_dict(cur, case.patient.weight) for k, v in estimates.items()}

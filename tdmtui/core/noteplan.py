@@ -13,20 +13,11 @@ from typing import Any
 
 from tdmtui.core import chosen as ch
 from tdmtui.core import notefmt as f
+from tdmtui.core import registry
 from tdmtui.core.notework import working_lines
 
-#: Each method in one sentence, for the note (sources: pk-sources.md 2.2-2.7).
-METHOD_TEXT = {
-    "two-level": "one compartment, every dose superposed",
-    "sawchuk-zaske": "one compartment, peak and trough around one dose",
-    "least-squares": "one compartment fitted to every usable level, every dose superposed",
-    "bayesian": "the levels combined with the published population models that fit the patient",
-    "population": "population values from CrCl and weight; no level used",
-    "one-level": "one compartment, population volume, ke solved from the level with every dose superposed",
-    "one-level-steady-state": "steady-state infusion equation, population volume, ke solved from the level",
-    "continuous-steady-state": "level at steady state on a continuous infusion: CL = rate / level",
-    "nomogram": "level read against the drug's nomogram; the estimate below is the automatic method's",
-}
+#: Each method in one sentence, for the note: the method registry's descriptions.
+METHOD_TEXT = {c: registry.description(c) for c in registry.CHOICES if c != "auto"}
 
 
 def model_label(e: dict[str, Any]) -> str:
@@ -71,11 +62,11 @@ def estimate_lines(outcome: Any, regimen: dict[str, Any] | None, model_words: li
     nums = _level_numbers(outcome, est.get("levels_used") or [])
     why = res.get("method_reason")
     on = f" on level{'s' if ' ' in nums else ''} {nums}" if nums else ""
-    if why and method != "nomogram":  # the engine's one sentence says why this method and what it rests on
+    if why and registry.option(method) is None:  # the engine's one sentence says why this method and what it rests on
         lines += f.wrap(f"Method: {method_label(used, est)}{on}: {f.plain_paths(why)}")
     else:
         lines += f.wrap(f"Method: {method_label(used, est)} ({METHOD_TEXT.get(used, used)}){on}.")
-    if method == "nomogram":
+    if registry.option(method) is not None:
         lines += f.wrap(f"Estimate beside it: {method_label(used, est)}: {METHOD_TEXT.get(used, '')}.")
     vkg = f" ({est['vd_l_per_kg']:.2f} L/kg)" if est.get("vd_l_per_kg") else ""
     lines += f.wrap(f"Estimate: ke {f.ke(est['ke_per_h'])} /h, t1/2 {f.hours(est['half_life_h'])} h, "

@@ -12,41 +12,35 @@ from __future__ import annotations
 import dataclasses
 from typing import Any
 
+from tdmtui.core import course, registry
 from tdmtui.core.alerts import Alert
+from tdmtui.core.case import Case
+from tdmtui.core.context import MethodContext, history_of
 from tdmtui.core.errors import ConvergenceError, NoEstimateError
 from tdmtui.core.estimates import Estimate
 
 
-def _rerun(ctx: Any, est: Estimate, case: Any) -> Estimate | None:
-    from tdmtui.core import bayes_method, course, twolevel
-    from tdmtui.core.compute import history_of
-
-    sub = dataclasses.replace(ctx, case=case, history=history_of(case),
-                              usable=course.usable_levels(case, ctx.rules))
+def _rerun(ctx: MethodContext, est: Estimate, case: Case) -> Estimate | None:
+    """The method of ``est`` again on a shifted case (its registry record's refit), or None."""
+    rec = registry.get(est.method)
+    if rec is None or rec.refit is None:
+        return None
+    sub = dataclasses.replace(ctx, case=case, history=history_of(case), usable=course.usable_levels(case, ctx.rules))
     try:
-        if est.method == "two-level":
-            r = twolevel.two_level(sub.history, sub.usable)
-        elif est.method == "sawchuk-zaske":
-            doses = [d for d in case.doses if d.start <= case.as_of]
-            r = twolevel.sawchuk_zaske(doses, sub.usable, ctx.current.interval_h if ctx.current else None,
-                                       float(ctx.rules.value("monitoring.steady_state_within_rel")))
-        elif est.method == "bayesian" and est.model:
-            return bayes_method.refit(sub, est.model["id"])
-        else:
-            return None
+        return rec.refit_on(sub, est)
     except (NoEstimateError, ConvergenceError):
         return None
-    return Estimate(r.method, r.params)
 
 
-def _auc(ctx: Any, e: Estimate) -> float | None:
+def _auc(ctx: MethodContext, e: Estimate) -> float | None:
     cur = e.current(ctx.current)
     return cur["auc24_mg_h_per_l"] if cur else None
 
 
-def timing_sensitivity(ctx: Any, est: Estimate) -> tuple[list[dict[str, Any]], list[Alert]]:
+def timing_sensitivity(ctx: MethodContext, est: Estimate) -> tuple[list[dict[str, Any]], list[Alert]]:
     """Rows of (what moved, by how much, new ke and AUC24, relative change) and warnings."""
-    if est.method not in ("two-level", "sawchuk-zaske", "bayesian") or not est.levels_used:
+    rec = registry.get(est.method)
+    if rec is None or rec.refit is None or not est.levels_used:
         return [], []
     rules = ctx.rules
     base_shift = float(rules.value("timing.sensitivity_shift_min")) / 60
@@ -85,12 +79,12 @@ def timing_sensitivity(ctx: Any, est: Estimate) -> tuple[list[dict[str, Any]], l
     return rows, alerts
 
 
-def _shift_level(case: Any, index: int, dh: float) -> Any:
+def _shift_level(case: Case, index: int, dh: float) -> Case:
     levels = tuple(dataclasses.replace(lv, time=lv.time + dh) if lv.index == index else lv for lv in case.levels)
     return dataclasses.replace(case, levels=tuple(sorted(levels, key=lambda x: (x.time, x.index))))
 
 
-def _shift_end(case: Any, index: int, dh: float) -> Any:
+def _shift_end(case: Case, index: int, dh: float) -> Case:
     doses = tuple(dataclasses.replace(d, duration=max(d.duration + dh, 0.0)) if d.index == index else d
                   for d in case.doses)
     return dataclasses.replace(case, doses=doses)

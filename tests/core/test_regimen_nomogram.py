@@ -26,7 +26,7 @@ def _case(conc: float, hours: float, amount: float = DOSE, drug: str = "gentamic
     hist = DoseArrays.from_lists([T0], [1.0], [amount])
     kw.setdefault("params", PKParams.one_compartment(0.194, 25.7))  # W6 patient (pk-sources.md 5)
     params = kw.pop("params")
-    return inp(drug, params, hist, as_of=T0 + hours + 0.5, method="nomogram", doses=doses, levels=levels,
+    return inp(drug, params, hist, as_of=T0 + hours + 0.5, option="nomogram", doses=doses, levels=levels,
                dosing_weight_kg=WEIGHT, r=r, **kw)
 
 
@@ -104,7 +104,7 @@ def test_each_entry_check_refuses(change: dict, field: str, words: str) -> None:
                                            (39.0, 48.0), (20.0, 48.0)])
 def test_initial_interval_by_crcl(crcl: float, interval: float) -> None:
     """Hartford initial interval: >= 60 q24h, 40-59 q36h, 20-39 q48h (Nicolau 1995, confirmed)."""
-    case = inp("gentamicin", PKParams.one_compartment(0.1, 25.0), method="nomogram", dosing_weight_kg=WEIGHT,
+    case = inp("gentamicin", PKParams.one_compartment(0.1, 25.0), option="nomogram", dosing_weight_kg=WEIGHT,
                crcl_ml_min=crcl)
     plan = design(case)
     assert plan.regimen["interval_h"] == interval
@@ -112,13 +112,13 @@ def test_initial_interval_by_crcl(crcl: float, interval: float) -> None:
 
 
 def test_vancomycin_has_no_nomogram() -> None:
-    plan = design(inp("vancomycin", PKParams.one_compartment(0.08, 50.0), method="nomogram"))
+    plan = design(inp("vancomycin", PKParams.one_compartment(0.08, 50.0), option="nomogram"))
     assert plan.regimen is None
     assert ("nomogram-entry", "stop", "method") in _codes(plan)
 
 
 def test_new_start_below_20_is_refused() -> None:
-    case = inp("gentamicin", PKParams.one_compartment(0.05, 25.0), method="nomogram", dosing_weight_kg=WEIGHT,
+    case = inp("gentamicin", PKParams.one_compartment(0.05, 25.0), option="nomogram", dosing_weight_kg=WEIGHT,
                crcl_ml_min=18.0)
     plan = design(case)
     assert plan.regimen is None

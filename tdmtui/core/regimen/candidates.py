@@ -313,13 +313,37 @@ def with_draws(cand: Candidate, samples: Any, targets: Targets, dose_ref: float 
     if samples is None or len(samples) == 0:
         return cand
     pk, tr, au, ref, w = _draw_values(samples, cand)
-    on, _ = judge(targets, ref, tr, au, np.full(len(pk), cand.dose_mg), dose_ref)
     iv = {"auc24_mg_h_per_l": _quantiles(au, w), "peak_mg_per_l": _quantiles(pk, w),
           "trough_mg_per_l": _quantiles(tr, w)}
     if abs(cand.peak_ref_h - cand.infusion_h) > 1e-9:
         iv["peak_at_reference_mg_per_l"] = _quantiles(ref, w)
-    prob = float(np.mean(on)) if w is None else float(np.sum(w[on]))
+    prob = _share_on_target(targets, ref, tr, au, cand.dose_mg, w)
     return replace(cand, probability=prob, interval90=iv)
+
+
+def _share_on_target(targets: Targets, ref: np.ndarray, tr: np.ndarray, au: np.ndarray, dose: float,
+                     w: np.ndarray | None) -> float:
+    """Share (weighted when weights are given) of draws judged on target by rule 1."""
+    on, _ = judge(targets, ref, tr, au, np.full(np.shape(ref), dose))
+    return float(np.mean(on)) if w is None else float(np.sum(w[on]))
+
+
+def target_probability(samples: Any, targets: Targets, dose: float, tau: float, tinf: float) -> float | None:
+    """Probability that a regimen meets its targets: the share of draws judged on target (rule 1).
+
+    The one implementation behind every "probability of target" the tool shows
+    (the estimate's current regimen, the plan's rows): the peak is compared at
+    the targets' reference time, the trough just before the next dose.
+    None without draws.
+    """
+    if samples is None or len(samples) == 0 or tau <= 0:
+        return None
+    if tinf >= tau - 1e-9:  # a continuous infusion: judged on its daily amount, as the current order is
+        dose, tau, tinf = dose * 24.0 / tau, 24.0, 24.0
+    t_ref = targets.peak_time(tinf)
+    cand = Candidate(dose, tau, tinf, 0.0, 0.0, 0.0, 0.0, t_ref, False, 0.0)
+    _, tr, au, ref, w = _draw_values(samples, cand)
+    return _share_on_target(targets, ref, tr, au, dose, w)
 
 
 def table_probabilities(cands: list[Candidate], samples: Any, targets: Targets,
@@ -341,8 +365,7 @@ def table_probabilities(cands: list[Candidate], samples: Any, targets: Targets,
             cache[key] = (ss["peak"], ss["trough"], ss["auc24"])
         ref, tr, au = cache[key]
         d = c.dose_mg
-        on, _ = judge(targets, d * ref, d * tr, d * au, np.full(ref.shape, d), dose_ref)
-        out.append(float(np.mean(on)) if w is None else float(np.sum(w[on])))
+        out.append(_share_on_target(targets, d * ref, d * tr, d * au, d, w))
     return out
 
 

@@ -31,6 +31,7 @@ from tdmtui.core.models import steady_state
 from tdmtui.core.regimen import continuous, handover, loading, nomogram
 from tdmtui.core.regimen.candidates import (Candidate, choose, evaluate, infusion_time, judge, search,
                                             table_probabilities, terminal_rate, with_draws)
+from tdmtui.core.regimen.extended import nomogram_plan
 from tdmtui.core.regimen.targets import Targets, resolve_targets
 from tdmtui.core.regimen.types import Plan, RegimenInput
 
@@ -40,14 +41,14 @@ def choose_mode(inp: RegimenInput, alerts: list[Alert]) -> str:
     rules, ct, cur = inp.rules, inp.case_target, inp.current
     default = str(rules.get("regimen.default_mode", "auc"))
     if rules.get("drug.family") != "aminoglycoside":
-        if inp.method == "nomogram":
+        if inp.option == "nomogram":
             alerts.append(Alert("nomogram-entry", "stop", "method",
                                 f"nomogram entry check failed: no nomogram for {inp.drug} (extended-interval "
                                 "aminoglycosides only)"))
         if (ct and ct.css) or (cur and cur.infusion_h >= cur.interval_h - 1e-9) or default == "continuous":
             return "continuous"
         return "auc"
-    if inp.method == "nomogram":
+    if inp.option == "nomogram":
         return "extended"
     if ct and (ct.peak or ct.trough) and not ct.auc24:
         return "peak-trough"
@@ -162,7 +163,7 @@ def _shape(inp: RegimenInput, c: Candidate, targets: Targets, mode: str, continu
         "daily_dose_mg": c.daily_mg, "next_dose_at": inp.clock.format(first),
         "hold_until": inp.clock.format(held) if held is not None else None, "loading_dose": None,
         "predicted": c.predicted(),
-        "next_levels": handover.next_levels(inp.rules, targets, mode, inp.method, first, c.interval_h,
+        "next_levels": handover.next_levels(inp.rules, targets, mode, inp.option or inp.method, first, c.interval_h,
                                             c.infusion_h, inp.clock),
     }
     if mode == "continuous":
@@ -179,14 +180,28 @@ def design(inp: RegimenInput) -> Plan:
     plan = Plan(regimen=None, targets=targets.to_dict(), sources=sources(inp, targets), alerts=alerts)
     if any(a.severity == "stop" for a in alerts):
         return plan
-    if mode == "extended" and inp.method == "nomogram":
-        from tdmtui.core.regimen.extended import nomogram_plan
-
-        return nomogram_plan(inp, targets, plan)
+    if mode == "extended" and inp.option == "nomogram":
+        return _from_chart(inp, targets, plan)
     if inp.params is None:
         alerts.append(Alert("regimen-no-estimate", "caution", "", "no estimate of the patient's kinetics: no regimen designed"))
         return plan
     return finish(inp, targets, mode, plan, search_candidates(inp, targets, mode))
+
+
+def _from_chart(inp: RegimenInput, targets: Targets, plan: Plan) -> Plan:
+    """The nomogram's order (extended.py), finished with the estimate where there is one."""
+    order = nomogram_plan(inp, targets, plan)
+    if order is None:
+        return plan
+    assert inp.params is not None
+    if order.interval_h is None:
+        cands = search_candidates(inp, targets, "extended")
+        if order.longer_than_h is not None:
+            cands = [c for c in cands if c.interval_h > order.longer_than_h + 1e-9]
+        return finish(inp, targets, "extended", plan, cands, extra=order.extra)
+    fixed = evaluate(inp.params, targets, order.dose_mg, order.interval_h, order.infusion_h, _dose_ref(inp, "extended"))
+    cands = search_candidates(inp, targets, "extended") if _intervals(inp, "extended") else []
+    return finish(inp, targets, "extended", plan, cands, fixed=fixed, extra=order.extra)
 
 
 def search_candidates(inp: RegimenInput, targets: Targets, mode: str) -> list[Candidate]:
@@ -273,7 +288,7 @@ def finish(inp: RegimenInput, targets: Targets, mode: str, plan: Plan, cands: li
             first = handover.align(t_load + chosen.interval_h, handover.admin_times(rules, chosen.interval_h),
                                    inp.clock)
         reg["next_dose_at"] = inp.clock.format(first)
-        reg["next_levels"] = handover.next_levels(rules, targets, mode, inp.method, first, chosen.interval_h,
+        reg["next_levels"] = handover.next_levels(rules, targets, mode, inp.option or inp.method, first, chosen.interval_h,
                                                   chosen.infusion_h, inp.clock)
     until = inp.as_of + handover.FORECAST_H
     ld_tuple = (t_load, ld.dose_mg, ld_tinf) if load is not None else None

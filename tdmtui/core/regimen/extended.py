@@ -18,28 +18,53 @@ every entry check.
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING
+from dataclasses import dataclass
+from typing import TYPE_CHECKING, Any
 
 from tdmtui.core.alerts import Alert, has_stop
 from tdmtui.core.regimen import handover, nomogram
-from tdmtui.core.regimen.candidates import evaluate, infusion_time
+from tdmtui.core.regimen.candidates import infusion_time
 
 if TYPE_CHECKING:
     from tdmtui.core.regimen.targets import Targets
     from tdmtui.core.regimen.types import Plan, RegimenInput
 
 
-def nomogram_plan(inp: RegimenInput, targets: Targets, plan: Plan) -> Plan:
-    """Fill ``plan`` from the nomogram (module docstring)."""
-    from tdmtui.core.regimen.design import _dose_ref, _intervals, finish, search_candidates
+@dataclass(frozen=True)
+class ChartOrder:
+    """What the chart says, for the design to finish (candidates, hand-over, loading, forecast).
 
+    Attributes:
+        dose_mg: the chart's dose.
+        interval_h: the chart's interval, or None when the chart gives none and the
+            individualised extended-interval design from the estimate is shown instead.
+        infusion_h: infusion time for the dose.
+        extra: the ``nomogram`` key of the regimen (the reading or the initial interval).
+        longer_than_h: when the chart gives no interval, only intervals longer than this
+            are designed (a level above the q24h line is never answered with q24h); None = any.
+    """
+
+    dose_mg: float
+    interval_h: float | None
+    infusion_h: float
+    extra: dict[str, Any]
+    longer_than_h: float | None = None
+
+
+def nomogram_plan(inp: RegimenInput, targets: Targets, plan: Plan) -> ChartOrder | None:
+    """Read the nomogram into ``plan`` (module docstring).
+
+    Returns the chart's order for the design to finish with the estimate, or
+    None when ``plan`` is complete: a failed entry check (stops in
+    ``plan.alerts``), or the chart's regimen alone when there is no estimate.
+    """
     rules = inp.rules
     chart = nomogram.lines(rules)
     plan.sources["nomogram_lines"] = {f"{n}h": d["source"] for n, d in chart.items()}
     if "q24" not in chart:
         plan.alerts.append(Alert(nomogram.CODE, "stop", "drug",
                                  f"nomogram entry check failed: no nomogram for {rules.drug} in the library or the local protocol"))
-        return plan
+        return None
     dose = nomogram.extended_dose(rules, inp.dosing_weight_kg)
     tinf = infusion_time(dose, rules)
     if not inp.doses:
@@ -50,38 +75,34 @@ def nomogram_plan(inp: RegimenInput, targets: Targets, plan: Plan) -> Plan:
             plan.alerts.append(Alert(nomogram.CODE, "stop", "patient.scr",
                                      f"nomogram entry check failed: CrCl {inp.crcl_ml_min:.0f} mL/min has no initial interval"))
         if has_stop(plan.alerts):
-            return plan
-        extra = {"nomogram": {"initial_interval_h": interval, "crcl_ml_min": inp.crcl_ml_min,
-                              "source": rules.citation("nomogram.initial_interval")}}
+            return None
+        extra: dict[str, Any] = {"nomogram": {"initial_interval_h": interval, "crcl_ml_min": inp.crcl_ml_min,
+                                              "source": rules.citation("nomogram.initial_interval")}}
     else:
         reading, found = nomogram.read(rules, inp.doses, inp.levels, inp.dosing_weight_kg, inp.crcl_ml_min,
                                        inp.renal_replacement, inp.conditions)
         plan.alerts.extend(found)
         if reading is None or has_stop(found):
-            return plan
+            return None
         extra = {"nomogram": reading.to_dict()}
         interval = reading.interval_h
         if interval is None:
             if inp.params is None:
-                return plan
+                return None
             plan.alerts.append(Alert("nomogram-individualised", "info", "method",
                                      "the level is above the q24h line and the chart gives no interval for it: the "
                                      "individualised estimate from this level sets the interval (never q24h) and "
                                      "the hold until the level falls below the library's threshold"))
-            cands = search_candidates(inp, targets, "extended")
-            if reading.zone != "q24h":
-                cands = [c for c in cands if c.interval_h > 24.0 + 1e-9]
-            return finish(inp, targets, "extended", plan, cands, extra=extra)
+            return ChartOrder(dose, None, tinf, extra, longer_than_h=24.0 if reading.zone != "q24h" else None)
     assert interval is not None
     if inp.params is None:
-        return _without_estimate(inp, targets, plan, dose, interval, tinf, extra)
-    fixed = evaluate(inp.params, targets, dose, interval, tinf, _dose_ref(inp, "extended"))
-    cands = search_candidates(inp, targets, "extended") if _intervals(inp, "extended") else []
-    return finish(inp, targets, "extended", plan, cands, fixed=fixed, extra=extra)
+        _without_estimate(inp, targets, plan, dose, interval, tinf, extra)
+        return None
+    return ChartOrder(dose, interval, tinf, extra)
 
 
 def _without_estimate(inp: RegimenInput, targets: Targets, plan: Plan, dose: float, interval: float,
-                      tinf: float, extra: dict) -> Plan:
+                      tinf: float, extra: dict[str, Any]) -> Plan:
     """The chart's regimen when no kinetic estimate exists: no predictions, no hold."""
     hist = inp.history
     t_due = float(hist.start[-1]) + interval if len(hist) else inp.as_of
@@ -92,7 +113,7 @@ def _without_estimate(inp: RegimenInput, targets: Targets, plan: Plan, dose: flo
         "action": "continue" if same else "change", "mode": "extended", "dose_mg": dose, "interval_h": interval,
         "infusion_h": tinf, "daily_dose_mg": dose * 24.0 / interval, "next_dose_at": inp.clock.format(first),
         "hold_until": None, "loading_dose": None, "predicted": {},
-        "next_levels": handover.next_levels(inp.rules, targets, "extended", inp.method, first, interval, tinf, inp.clock),
+        "next_levels": handover.next_levels(inp.rules, targets, "extended", inp.option or inp.method, first, interval, tinf, inp.clock),
         "alternatives": [], **extra,
     }
     plan.doses = handover.proposed_doses(first, dose, interval, tinf, inp.as_of + handover.FORECAST_H)

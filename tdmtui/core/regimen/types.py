@@ -60,7 +60,9 @@ class RegimenInput:
         samples: posterior (or population) draws, for intervals and probability of target:
             a list of PKParams, or batched draws (arrays cl, v1, q, v2, optional weights,
             and a vectorised ``steady_state(dose, tau, tinf, peak_delay_h)``).
-        method: method of the estimate (two-level, bayesian, population, nomogram, ...).
+        method: estimation method of ``params`` (two-level, bayesian, population, ...).
+        option: regimen option (registry ``OPTIONS``: ``nomogram`` reads a level against
+            the drug's chart), or None for the regimen designed from the estimate.
         levels: the case's levels.
         doses: the case's doses (kind tells a loading dose; the nomogram finds its dose here).
     """
@@ -81,6 +83,7 @@ class RegimenInput:
     conditions: tuple[str, ...] = ()
     samples: Any = None
     method: str = "population"
+    option: str | None = None
     levels: tuple[Level, ...] = ()
     doses: tuple[Dose, ...] = ()
 
