@@ -61,8 +61,13 @@ def test_estimate_plan_and_note_agree(tobra_bayes):
             if r["dose_mg"] == pytest.approx(100.0) and r["interval_h"] == pytest.approx(8.0)]
     assert rows, "100 mg every 8 h is on the candidate grid"
     assert rows[0]["probability"] == pytest.approx(p_est, abs=1e-9)
-    text = render_note(tobra_bayes)
-    m = re.search(r"Probability the current regimen meets its target: ([\d.]+) ?%", text)
-    assert m, "the note states the probability"
-    assert float(m.group(1)) == pytest.approx(100 * p_est, abs=0.51)
+    text = " ".join(render_note(tobra_bayes).split())
+    m = re.search(r"chance of meeting the target (<?[\d.]+) ?%", text)
+    assert m, "the note states the proposal's chance of target"
+    proposal = res["regimen"]["predicted"]["target_probability"]
+    assert float(m.group(1)) == pytest.approx(100 * proposal, abs=0.51)
+    chosen = [r for r in tobra_bayes.regimen_plan.candidates
+              if r["dose_mg"] == pytest.approx(res["regimen"]["dose_mg"])
+              and r["interval_h"] == pytest.approx(res["regimen"]["interval_h"])]
+    assert chosen and chosen[0]["probability"] == pytest.approx(proposal, abs=1e-9)
     assert math.isfinite(p_est)
