@@ -43,7 +43,7 @@ How ``auto`` treats them: every model that does not exclude the patient may
 be used, whatever its verification status; a model verified only from a
 secondary copy carries a caution worded for the clinician (the full technical
 caution stays in the audit record). Measured on one-level cases, leaving a
-drawn level unused did more harm than the transcription uncertainty it guarded
+drawn level unused did more harm than the copying uncertainty it guarded
 against. :func:`auto_model` returns the first model by ``preference.rank`` that
 is neither excluded nor out of population, else the first not excluded, else
 ``None`` and the reason. A drug without a model (amikacin here) has no Bayesian

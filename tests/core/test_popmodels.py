@@ -159,7 +159,7 @@ def test_amikacin_not_available_and_never_borrowed():
 def test_auto_picks_a_model_that_fits_the_patient_whatever_its_verification():
     # Thomson 2009 (rank 1) was built on general adult TDM patients; Buelga 2005 only on
     # haematological malignancy (pk-sources.md 3.4.1-3.4.2): a plain patient gets Thomson,
-    # with a caution worded for the clinician, not the library's transcription notes.
+    # with a caution worded for the clinician, not the library's notes on how its tables were copied.
     expected = {"vancomycin": "vancomycin-thomson-2009", "gentamicin": "gentamicin-staatz-2006",
                 "tobramycin": "tobramycin-conil-2011"}
     for drug, mid in expected.items():
