@@ -314,32 +314,27 @@ def _when(t: float, clock: Clock | None) -> str:
 
 def scr_alerts(series: list[tuple[float, float, int | None]], rules: Rules,
                clock: Clock | None = None) -> list[Alert]:
-    """``scr-unstable`` cautions for a time-sorted SCr series.
+    """``scr-unstable`` cautions for a time-sorted SCr series, by the KDIGO 2012 AKI definition.
 
-    Warned when two values within ``renal.scr_change_window_h`` differ by at
-    least ``renal.scr_change_abs_mg_dl``, or consecutive values change by at
-    least ``renal.scr_change_rel`` of the earlier one (KDIGO 2012 AKI
-    definition, from memory; case-format.md ``patient.scr``). One alert per
-    later value, on the largest change that triggered it.
+    The rule is :mod:`tdmtui.core.renaltrend` (a rise of ``renal.scr_change_abs_mg_dl``
+    within ``renal.scr_change_window_h``, or to (1 + ``renal.scr_change_rel``) x the
+    lowest value within ``renal.scr_change_rel_window_h``; falls by the mirror rule).
+    One alert per later value, on the largest change that triggered it.
     """
-    window = float(rules.value("renal.scr_change_window_h"))
-    d_abs = float(rules.value("renal.scr_change_abs_mg_dl"))
-    d_rel = float(rules.value("renal.scr_change_rel"))
+    from tdmtui.core import renaltrend
+
+    th = renaltrend.Thresholds.of(rules)
     out: list[Alert] = []
-    for j in range(1, len(series)):
-        tj, vj, ij = series[j]
-        hits = [(abs(vj - vi), i) for i, (ti, vi, _) in enumerate(series[:j])
-                if (tj - ti <= window + _EPS and abs(vj - vi) >= d_abs - _EPS)
-                or (i == j - 1 and abs(vj - vi) >= d_rel * vi - _EPS)]
-        if not hits:
-            continue
-        ti, vi, _ = series[max(hits)[1]]
+    for ch in renaltrend.changes(series, th):
+        ti, vi, _ = series[ch.i]
+        tj, vj, ij = series[ch.j]
         verb = "rose" if vj > vi else "fell"
         out.append(Alert(
             "scr-unstable", "caution", f"{_scr_field(ij)}.value",
             f"SCr {verb} from {_mg_dl(vi)} mg/dL ({_when(ti, clock)}) to {_mg_dl(vj)} mg/dL ({_when(tj, clock)}): "
-            f"{vj - vi:+.2f} mg/dL ({100 * (vj - vi) / vi:+.0f} %) in {_hours(tj - ti)} h; "
-            "Cockcroft-Gault and eGFR assume stable renal function"))
+            f"{vj - vi:+.2f} mg/dL ({100 * (vj - vi) / vi:+.0f} %) in {_hours(tj - ti)} h, "
+            f"{renaltrend.rule_text(ch, th, vj > vi)} (KDIGO acute kidney injury definition); "
+            "Cockcroft-Gault and eGFR assume stable renal function: reassess renal function and dose by levels"))
     return out
 
 

@@ -160,6 +160,7 @@ SCHEMA: dict[str, Spec] = {
     "renal.scr_change_abs_mg_dl": num("mg/dL", 0.05, 5.0),
     "renal.scr_change_window_h": num("h", 1.0, 168.0),
     "renal.scr_change_rel": num("fraction", 0.05, 5.0),
+    "renal.scr_change_rel_window_h": num("h", 24.0, 720.0),
     "renal.crcl_weight_rule": choice(*WEIGHT_RULES),
     "renal.crcl_weight_threshold": num("x IBW", 1.0, 2.0),
     "renal.adjusted_weight_factor": num("fraction", 0.0, 1.0),
