@@ -162,6 +162,8 @@ def compute(case: Case, protocol: Protocol | None = None, method: str | None = N
     mic = case.target.mic if case.target.mic is not None else float(rules.value("mic.default_mg_l"))
     alerts: list[Alert] = list(case.notices) + list(renal.alerts)
     alerts += checks.patient_alerts(case, rules, renal.bmi, renal.ibw, mic)
+    alerts += checks.low_scr_alerts(case, rules, renal.crcl_ml_min, renal.scr_used_mg_dl, renal.scr_measured_mg_dl,
+                                    "patient.scr" if renal.scr_index is None else f"patient.scr[{renal.scr_index}].value")
     alerts += course.validate_course(case, rules, renal.dosing_weight_kg)
     cur, cur_alerts = course.current_regimen(case, rules)
     alerts += cur_alerts

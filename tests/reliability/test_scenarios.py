@@ -59,6 +59,7 @@ INPUT = "input-error"
 SCENARIOS: list[tuple[str, str, Callable[[dict], None], str, str, str]] = [
     # units swapped
     ("units", "SCr 106 umol/L typed with mg/dL", _set("patient.scr.1.value", "106 mg/dL"), INPUT, "", "patient.scr[1].value"),
+    ("units", "SCr 0.1 mg/dL (a slipped digit of 1.1)", _set("patient.scr.1.value", "0.1 mg/dL"), INPUT, "", "patient.scr[1].value"),
     ("units", "SCr 1.2 mg/dL typed with umol/L", _set("patient.scr.1.value", "1.2 umol/L"), INPUT, "", "patient.scr[1].value"),
     ("units", "203 lb typed as kg (BMI 64)", _set("patient.weight", "203 kg"), "obesity-extreme", "caution", "patient.weight"),
     ("units", "440 lb typed as kg", _set("patient.weight", "440 kg"), INPUT, "", "patient.weight"),
@@ -70,7 +71,7 @@ SCENARIOS: list[tuple[str, str, Callable[[dict], None], str, str, str]] = [
     # AM/PM and date slips
     ("am-pm", "third dose at 20:00 instead of 08:00", _set("doses.2.start", "2026-03-03T20:00"), "levels-rising", "stop", "levels[1].conc"),
     ("am-pm", "peak at 23:00 instead of 11:00", _set("levels.1.time", "2026-03-03T23:00"), "after-as-of", "caution", "levels[1].time"),
-    ("date", "peak dated a year early", _set("levels.1.time", "2025-03-03T11:00"), "level-before-first-dose", "caution", "levels[1].time"),
+    ("date", "peak dated a year early", _set("levels.1.time", "2025-03-03T11:00"), INPUT, "", "levels[1].time"),
     ("date", "peak dated the next day", _set("levels.1.time", "2026-03-04T11:00"), "after-as-of", "caution", "levels[1].time"),
     ("date", "30 February", _set("levels.1.time", "2026-02-30T11:00"), INPUT, "", "levels[1].time"),
     ("date", "time without a date", _set("doses.1.start", "20:00"), INPUT, "", "doses[1].start"),
