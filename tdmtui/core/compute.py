@@ -31,7 +31,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from tdmtui import __version__
-from tdmtui.core import checks, course, limits, methods, registry
+from tdmtui.core import checks, course, exposure, limits, methods, registry
 from tdmtui.core.alerts import Alert, has_stop
 from tdmtui.core.case import Case, parse_case
 from tdmtui.core.context import MethodContext, history_of
@@ -186,6 +186,7 @@ def compute(case: Case, protocol: Protocol | None = None, method: str | None = N
     n_levels = len(methods.levels_for_estimates(ctx))
     alerts += methods.compare(ctx, estimates, used)
     alerts += methods.used_alerts(ctx, estimates[used], runs)
+    alerts += exposure.exposure_alerts(ctx, estimates[used], option)
     sens_rows, sens_alerts = timing_sensitivity(ctx, estimates[used])
     alerts += sens_alerts
     est = estimates[used]

@@ -173,6 +173,12 @@ SCHEMA: dict[str, Spec] = {
     "renal.ibw_short_height_variant": choice("devine-extrapolated", "devine-floor"),
     "dosing_weight.rule": choice(*WEIGHT_RULES),
     "dosing_weight.threshold": num("x IBW", 1.0, 2.0),
+    # ------------------------------------------------------------ high exposure (exposure.py)
+    "exposure.trough_window_h": num("h", 0.0, 12.0),
+    "exposure.peak_window_h": num("h", 0.0, 12.0),
+    "exposure.peak_high_rel": num("x upper target", 1.0, 5.0),
+    "exposure.auc24_toxic": num("mg*h/L", 0.0, 5000.0, optional=True),
+    "exposure.trough_high_mg_l": num("mg/L", 0.0, 100.0, optional=True),
     # ------------------------------------------------------------ timing, methods, checks
     "timing.uncertain_shift_min": num("min", 0.0, 240.0),
     "timing.sensitivity_shift_min": num("min", 0.0, 120.0),
