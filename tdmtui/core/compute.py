@@ -118,7 +118,7 @@ def regimen_targets(base: RegimenInput) -> Targets:
     from tdmtui.core.regimen.design import choose_mode
     from tdmtui.core.regimen.targets import resolve_targets
 
-    return resolve_targets(base.rules, base.case_target, choose_mode(base, []))
+    return resolve_targets(base.rules, base.case_target, choose_mode(base, []), tuple(base.conditions))
 
 
 def method_reason(requested: str, used: str, estimates: dict[str, Estimate], failures: dict[str, str],
@@ -186,7 +186,9 @@ def compute(case: Case, protocol: Protocol | None = None, method: str | None = N
     n_levels = len(methods.levels_for_estimates(ctx))
     alerts += methods.compare(ctx, estimates, used)
     alerts += methods.used_alerts(ctx, estimates[used], runs)
-    alerts += exposure.exposure_alerts(ctx, estimates[used], option)
+    holds, corrections = exposure.exposure_alerts(ctx, estimates[used], option,
+                                                  any(a.code == "scr-unstable" for a in alerts))
+    alerts += holds
     sens_rows, sens_alerts = timing_sensitivity(ctx, estimates[used])
     alerts += sens_alerts
     est = estimates[used]
@@ -208,6 +210,9 @@ def compute(case: Case, protocol: Protocol | None = None, method: str | None = N
     else:
         if option is not None and option != chosen:
             alerts.append(_auto_option_alert(option, est))
+        from tdmtui.core.regimen.dailycap import design_rules
+
+        base = dataclasses.replace(base, rules=design_rules(rules, p.weight, renal.bmi, len(est.levels_used)))
         plan = methods.attach_regimen(ctx, est, base)
         result["regimen"] = plan.regimen
         result["target"] = plan.targets
@@ -219,6 +224,7 @@ def compute(case: Case, protocol: Protocol | None = None, method: str | None = N
         if has_stop(plan_alerts):
             result["status"] = "stop"
             result.pop("regimen", None)
+    alerts += exposure.unresolved(corrections, result.get("regimen"), targets, rules)
     if "regimen" not in result and result["status"] == "stop":
         outcome.plan = None
     outcome.band = methods.concentration_band(ctx, est, outcome.plan)

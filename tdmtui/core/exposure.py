@@ -19,6 +19,19 @@ Lines (library data with their source, a local protocol may set them):
 
 Every message says what to do (hold, redraw a level before the next dose,
 reassess renal function); the proposal itself comes from the regimen design.
+
+Two kinds, so that a warning appears only where it changes what the
+pharmacist does:
+
+* a hold (``auc-toxic``; ``trough-high`` at or above ``exposure.trough_hold_rel``
+  x the limit, or with ``scr-unstable`` or ``auc-toxic``): always raised, and
+  the message says hold, redraw a level before the next dose, reassess renal
+  function;
+* a correction (``auc-high``, a smaller ``trough-high``, ``peak-high``): raised
+  after the design (:func:`unresolved`) only when the proposal does not bring the
+  figure back inside its target (it continues the regimen, is withheld, or is
+  still predicted above); otherwise the plan, which states the current
+  regimen's predicted figures beside the proposal's, already answers it.
 """
 
 from __future__ import annotations
@@ -32,6 +45,7 @@ if TYPE_CHECKING:
     from tdmtui.core.case import Level
     from tdmtui.core.context import MethodContext
     from tdmtui.core.estimates import Estimate
+    from tdmtui.core.library import Rules
     from tdmtui.core.regimen.targets import Targets
 
 #: Stable warning codes raised here, with their meaning.
@@ -107,45 +121,45 @@ def _auc_alerts(ctx: MethodContext, targets: Targets, pred: Predicted | None) ->
         return []
     hi = targets.auc24[1]
     toxic = float(ctx.rules.get("exposure.auc24_toxic", 0.0) or 0.0)
-    what = f"AUC24 {pred.auc24:.0f} mg*h/L predicted at steady state of the current regimen ({pred.method} estimate)"
+    what = f"AUC24 {pred.auc24:.0f} mg*h/L predicted at steady state of the current regimen"
     if toxic > 0 and pred.auc24 > toxic:
-        return [Alert("auc-toxic", "caution", "", f"{what} is above {toxic:g}, where kidney injury becomes likely: "
-                      "hold the next dose, redraw a level before any further dose, reassess renal function (SCr "
-                      "today) and redose by the level")]
+        return [Alert("auc-toxic", "caution", "", f"{what} is above {toxic:g} (kidney injury likely): hold the "
+                      "next dose, redraw a level before any further dose, reassess renal function; redose by level")]
     if pred.auc24 > hi:
-        return [Alert("auc-high", "caution", "", f"{what} is above the target's upper limit {hi:g}: lower the dose "
-                      "from the next due dose (see the proposal), redraw a level on the new regimen and check SCr")]
+        return [Alert("auc-high", "caution", "", f"{what} is above the {hi:g} target limit: lower the dose from the "
+                      "next due dose (see the proposal), redraw a level on the new regimen, check SCr")]
     return []
 
 
-def _trough_limit(ctx: MethodContext, targets: Targets) -> float | None:
+def _trough_limit(rules: Rules, targets: Targets) -> float | None:
     if targets.mode == "continuous":
         return None
     if targets.trough_ceiling is not None:
         return targets.trough_ceiling
-    limit = float(ctx.rules.get("exposure.trough_high_mg_l", 0.0) or 0.0)
+    limit = float(rules.get("exposure.trough_high_mg_l", 0.0) or 0.0)
     return limit if limit > 0 else None
 
 
-def _trough_alerts(ctx: MethodContext, targets: Targets, pred: Predicted | None, hold: bool) -> list[Alert]:
-    limit = _trough_limit(ctx, targets)
+def _trough_alerts(ctx: MethodContext, targets: Targets, pred: Predicted | None, hold: bool,
+                   unstable: bool) -> list[Alert]:
+    limit = _trough_limit(ctx.rules, targets)
     if limit is None:
         return []
     high = [(lv, dt) for lv, dt in _troughs(ctx) if lv.conc > limit]
     top = max(high, key=lambda x: x[0].conc) if high else None
-    measured = (f"measured trough {top[0].conc:g} mg/L (levels[{top[0].index}], {60 * top[1]:.0f} min before a dose)"
+    measured = (f"measured trough {top[0].conc:g} mg/L (levels[{top[0].index}], {60 * top[1]:.0f} min pre-dose)"
                 if top else "")
-    predicted = (f"predicted steady-state trough {pred.trough:.3g} mg/L of the current regimen ({pred.method})"
+    predicted = (f"predicted steady-state trough {pred.trough:.3g} mg/L"
                  if pred is not None and pred.trough > limit else "")
     if not (measured or predicted):
         return []
     fld = f"levels[{top[0].index}].conc" if top else ""
-    if hold or ctx.rules.get("drug.family") == "aminoglycoside":
-        todo = (f"hold the next dose, redraw a level before it is due and give it only when the level is below "
-                f"{limit:g} mg/L (then at a longer interval or a lower dose); reassess renal function")
+    worst = max(top[0].conc if top else 0.0, pred.trough if pred is not None else 0.0)
+    if hold or unstable or worst >= float(ctx.rules.value("exposure.trough_hold_rel")) * limit:
+        todo = (f"hold the next dose, redraw a level before it is due and redose only below {limit:g} mg/L; "
+                "reassess renal function")
     else:
-        todo = ("lower the dose from the next due dose (see the proposal) and reassess renal function today; if SCr "
-                "is rising, hold the next dose and redraw a level before it is due")
+        todo = "lengthen the interval or lower the dose (see the proposal) and check SCr"
     return [Alert("trough-high", "caution", fld, f"{_what(measured, predicted)} above the {limit:g} mg/L limit: {todo}")]
 
 
@@ -156,21 +170,27 @@ def _peak_alerts(ctx: MethodContext, targets: Targets, pred: Predicted | None) -
     line = rel * targets.peak[1]
     high = [(lv, dt) for lv, dt in _peaks(ctx) if lv.conc > line]
     top = max(high, key=lambda x: x[0].conc) if high else None
-    measured = (f"measured peak {top[0].conc:g} mg/L (levels[{top[0].index}], {60 * top[1]:.0f} min after the end "
-                "of the infusion)" if top else "")
-    predicted = (f"predicted steady-state peak {pred.peak:.3g} mg/L of the current regimen ({pred.method})"
+    measured = (f"measured peak {top[0].conc:g} mg/L (levels[{top[0].index}], {60 * top[1]:.0f} min after the "
+                "infusion)" if top else "")
+    predicted = (f"predicted steady-state peak {pred.peak:.3g} mg/L"
                  if pred is not None and pred.peak > line else "")
     if not (measured or predicted):
         return []
     fld = f"levels[{top[0].index}].conc" if top else ""
     return [Alert("peak-high", "caution", fld,
-                  f"{_what(measured, predicted)} above {rel:g} x the peak target's upper limit {targets.peak[1]:g} "
-                  "mg/L: lower the dose; check that the sample was not drawn during the infusion or from its line, "
-                  "and redraw a level before the next dose if in doubt")]
+                  f"{_what(measured, predicted)} above {rel:g} x the {targets.peak[1]:g} mg/L peak target limit: lower "
+                  "the dose; if the draw may have been early or from the line, redraw before the next dose")]
 
 
-def exposure_alerts(ctx: MethodContext, est: Estimate, option: str | None = None) -> list[Alert]:
-    """The four checks for the estimate used (module docstring).
+def _is_hold(a: Alert) -> bool:
+    return a.code == "auc-toxic" or (a.code == "trough-high" and "hold the next dose" in a.message)
+
+
+def exposure_alerts(ctx: MethodContext, est: Estimate, option: str | None = None,
+                    unstable: bool = False) -> tuple[list[Alert], list[Alert]]:
+    """The four checks for the estimate used: ``(holds, corrections)`` (module docstring).
+
+    ``unstable``: the unstable-SCr rule fired (a trough above its limit then calls for a hold).
 
     Under the ``nomogram`` regimen option the interval is read from the chart, which
     judges the measured level itself: the estimate's steady-state prediction is not
@@ -178,8 +198,33 @@ def exposure_alerts(ctx: MethodContext, est: Estimate, option: str | None = None
     """
     targets = ctx.targets
     if targets is None or est.params is None:
-        return []
+        return [], []
     pred = None if option == "nomogram" else _predicted(ctx, est, targets)
     auc = _auc_alerts(ctx, targets, pred)
     hold = any(a.code == "auc-toxic" for a in auc)
-    return auc + _trough_alerts(ctx, targets, pred, hold) + _peak_alerts(ctx, targets, pred)
+    every = auc + _trough_alerts(ctx, targets, pred, hold, unstable) + _peak_alerts(ctx, targets, pred)
+    return [a for a in every if _is_hold(a)], [a for a in every if not _is_hold(a)]
+
+
+def _limit(code: str, rules: Rules, targets: Targets) -> tuple[str, float | None]:
+    """(key of the regimen's predicted figure, the line it must come under) for a correction."""
+    if code == "auc-high":
+        return "auc24_mg_h_per_l", targets.auc24[1] if targets.auc24 else None
+    if code == "trough-high":
+        return "trough_mg_per_l", _trough_limit(rules, targets)
+    return "peak_at_reference_mg_per_l", targets.peak[1] if targets.peak else None
+
+
+def unresolved(corrections: list[Alert], regimen: dict | None, targets: Targets | None,
+               rules: Rules) -> list[Alert]:
+    """The corrections the proposal does not settle (module docstring)."""
+    if not corrections or regimen is None or targets is None or regimen.get("action") == "continue":
+        return list(corrections)
+    pred = regimen.get("predicted") or {}
+    out = []
+    for a in corrections:
+        key, limit = _limit(a.code, rules, targets)
+        value = pred.get(key, pred.get("peak_mg_per_l") if a.code == "peak-high" else None)
+        if limit is None or value is None or value > limit + 1e-9:
+            out.append(a)
+    return out

@@ -17,6 +17,7 @@ import pytest
 from casedata import SAMPLES
 
 from tdmtui.core.compute import compute_raw
+from tdmtui.core.exposure import exposure_alerts, unresolved
 from tdmtui.core.library import Rules, protocol_from_tree
 
 CODES = ("auc-high", "auc-toxic", "trough-high", "peak-high")
@@ -47,6 +48,7 @@ def test_gentamicin_trough_of_6_2_is_named_with_hold_and_redraw():
     cmin = cmax * math.exp(-ke * (tau - tinf))
     assert cmin == pytest.approx(7.39, abs=0.01)
     assert _number_after(a.message, "predicted steady-state trough") == pytest.approx(cmin, abs=0.15)
+    # 6.2 >= 1.5 x 2 mg/L and SCr rose 1.0 -> 1.6 mg/dL in 24 h: a hold, not a redesign
     for words in ("hold the next dose", "redraw a level", "below 2 mg/L", "reassess renal function"):
         assert words in a.message
     assert not _hits(out, "auc-high") and not _hits(out, "auc-toxic")
@@ -64,13 +66,47 @@ def test_vancomycin_auc_of_1136_is_toxic_and_says_hold():
     assert "34.5 mg/L" in t.message and "20 mg/L" in t.message and "hold the next dose" in t.message
 
 
-def test_vancomycin_auc_703_is_high_not_toxic():
+def test_vancomycin_auc_703_is_high_not_toxic_and_settled_by_the_proposal():
     # W5 (pk-sources.md 5): AUC24 about 703 mg*h/L, above 600 (Rybak 2020), under the 800 toxic line
     out = compute_raw(_sample("vanc-steady-state.json"))
-    (a,) = _hits(out, "auc-high")
+    holds, corrections = exposure_alerts(_ctx_of(out), out.estimates[out.result["method"]])
+    assert holds == []
+    (a,) = [x for x in corrections if x.code == "auc-high"]
     assert _number_after(a.message, "AUC24") == pytest.approx(703, abs=5)
     assert "lower the dose" in a.message and "600" in a.message
-    assert not _hits(out, "auc-toxic") and not _hits(out, "trough-high")  # trough 18-19 < 20 mg/L
+    # the proposal is predicted inside 400-600, and the plan states the current regimen's 703 beside it:
+    # the caution would not change what the pharmacist does, so it is not raised
+    reg = out.result["regimen"]
+    assert reg["action"] != "continue" and 400 <= reg["predicted"]["auc24_mg_h_per_l"] <= 600
+    assert not [x for x in out.alerts if x.code in CODES]
+    # had the proposal been to continue, or been withheld, it stands
+    targets = _ctx_of(out).targets
+    assert unresolved([a], {**reg, "action": "continue"}, targets, out.rules) == [a]
+    assert unresolved([a], None, targets, out.rules) == [a]
+    assert unresolved([a], {**reg, "predicted": {"auc24_mg_h_per_l": 640.0}}, targets, out.rules) == [a]
+
+
+def _ctx_of(out):
+    from tdmtui.core.compute import regimen_input, regimen_targets
+    from tdmtui.core.context import MethodContext
+    from tdmtui.core.course import current_regimen, usable_levels
+
+    case, rules = out.case, out.rules
+    cur, _ = current_regimen(case, rules)
+    base = regimen_input(case, rules, out.renal, out.history, cur, None)
+    return MethodContext(case, rules, out.renal, out.history, usable_levels(case, rules), cur, regimen_targets(base))
+
+
+def test_small_trough_excess_is_met_by_the_redesign_not_a_hold():
+    # W3 (pk-sources.md 5): trough 2.2 mg/L on 120 mg q8h, stable SCr: the textbook answer is a longer
+    # interval (Sawchuk-Zaske redesign, Bauer); 2.2 < 1.5 x 2 mg/L, so no hold
+    out = compute_raw(_sample("gent-peak-trough.json"))
+    holds, corrections = exposure_alerts(_ctx_of(out), out.estimates[out.result["method"]])
+    assert holds == []
+    (a,) = corrections
+    assert a.code == "trough-high" and "lengthen the interval" in a.message and "hold" not in a.message
+    assert out.result["regimen"]["predicted"]["trough_mg_per_l"] < 2.0
+    assert "trough-high" not in [x.code for x in out.alerts]  # settled by the proposal (1.62 mg/L)
 
 
 def test_lines_are_library_data_with_their_source():
@@ -83,7 +119,9 @@ def test_lines_are_library_data_with_their_source():
 def test_a_local_protocol_moves_the_toxic_line():
     proto = protocol_from_tree({"vancomycin": {"exposure": {"auc24_toxic": {"value": 1200.0, "source": "local"}}}}, "x")
     out = compute_raw(_sample("vanc-high-auc.json"), protocol=proto)
-    assert not _hits(out, "auc-toxic") and _hits(out, "auc-high")
+    assert not _hits(out, "auc-toxic")
+    holds, corrections = exposure_alerts(_ctx_of(out), out.estimates[out.result["method"]])
+    assert "auc-high" in [a.code for a in corrections]
 
 
 def test_measured_peak_far_above_target_is_named():
@@ -92,7 +130,8 @@ def test_measured_peak_far_above_target_is_named():
     raw = _sample("gent-peak-trough.json")
     raw["levels"][0]["conc"] = "16 mg/L"
     out = compute_raw(raw)
-    (a,) = _hits(out, "peak-high")
+    _, corrections = exposure_alerts(_ctx_of(out), out.estimates[out.result["method"]])
+    (a,) = [x for x in corrections if x.code == "peak-high"]
     assert a.field == "levels[0].conc" and "16 mg/L" in a.message and "lower the dose" in a.message
 
 

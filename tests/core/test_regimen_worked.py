@@ -8,6 +8,7 @@ from __future__ import annotations
 import pytest
 
 from tdmtui.core.case import Target
+from tdmtui.core.library import Rules
 from tdmtui.core.models import DoseArrays, PKParams, concentration
 from tdmtui.core.regimen import CurrentRegimen, design
 from tdmtui.core.regimen.candidates import evaluate, textbook_redesign
@@ -128,9 +129,13 @@ def test_w6_individualised_extended_interval() -> None:
 
 
 def test_cap_and_no_candidate_on_target() -> None:
-    """AUC24 = daily dose / CL (pk-sources.md 2.3): with CL 12 L/h the 4,500 mg/day cap
-    (library, pk-sources.md 3.1 from memory) reaches 375 < 400: no candidate on target."""
-    plan = design(inp("vancomycin", PKParams(cl=12.0, v1=70.0), tbw_kg=90.0))
+    """AUC24 = daily dose / CL (pk-sources.md 2.3): with CL 12 L/h the 4,500 mg/day cap (the obese
+    first-maintenance cap, pk-sources.md 3.1 from memory, as regimen/dailycap.py gives it to the design
+    for a BMI 35 patient before any level) reaches 375 < 400: no candidate on target."""
+    from tdmtui.core.regimen.dailycap import design_rules
+
+    capped = design_rules(Rules("vancomycin"), 90.0, 35.0, 0)
+    plan = design(inp("vancomycin", PKParams(cl=12.0, v1=70.0), tbw_kg=90.0, r=capped))
     codes = [a.code for a in plan.alerts]
     assert "regimen-cap" in codes and "regimen-off-target" in codes
     assert plan.regimen["predicted"]["auc24_mg_h_per_l"] == pytest.approx(4500.0 / 12.0)

@@ -229,3 +229,12 @@ class Rules:
     def keys(self) -> list[str]:
         """All dotted keys."""
         return sorted(self._values)
+
+    def with_value(self, key: str, value: Any, citation: str) -> Rules:
+        """A copy with one value replaced by a rule derived from others (its library/protocol origin kept)."""
+        import copy
+
+        out = copy.copy(self)
+        out._values = dict(self._values)
+        out._values[key] = (value, citation, self._values[key][2] if key in self._values else "library")
+        return out

@@ -177,6 +177,7 @@ SCHEMA: dict[str, Spec] = {
     "exposure.trough_window_h": num("h", 0.0, 12.0),
     "exposure.peak_window_h": num("h", 0.0, 12.0),
     "exposure.peak_high_rel": num("x upper target", 1.0, 5.0),
+    "exposure.trough_hold_rel": num("x limit", 1.0, 10.0),
     "exposure.auc24_toxic": num("mg*h/L", 0.0, 5000.0, optional=True),
     "exposure.trough_high_mg_l": num("mg/L", 0.0, 100.0, optional=True),
     # ------------------------------------------------------------ timing, methods, checks
@@ -221,6 +222,7 @@ SCHEMA: dict[str, Spec] = {
     "regimen.infusion_step_h": num("h", 0.05, 24.0),
     "regimen.max_single_dose_mg": num("mg", 1.0, 10000.0),
     "regimen.max_daily_dose_mg": num("mg", 1.0, 20000.0),
+    "regimen.obese_initial_max_daily_mg": num("mg", 1.0, 20000.0, optional=True),
     "regimen.admin_times": table("admin_times"),
     "regimen.default_mode": choice("auc", "continuous", "extended", "peak-trough"),
     "regimen.max_interval_half_lives": num("half-lives", 0.5, 10.0),

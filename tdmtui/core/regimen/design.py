@@ -176,7 +176,7 @@ def design(inp: RegimenInput) -> Plan:
     """Design the regimen for one case (see the package docstring for the shape)."""
     alerts: list[Alert] = []
     mode = choose_mode(inp, alerts)
-    targets = resolve_targets(inp.rules, inp.case_target, mode)
+    targets = resolve_targets(inp.rules, inp.case_target, mode, tuple(inp.conditions))
     plan = Plan(regimen=None, targets=targets.to_dict(), sources=sources(inp, targets), alerts=alerts)
     if any(a.severity == "stop" for a in alerts):
         return plan

@@ -139,27 +139,32 @@ class _Picker:
         return band
 
 
-def _variant(rules: Rules, indication: str | None, pick: _Picker) -> dict[str, Any]:
-    """The library's indication variant whose id matches the case's indication text."""
-    if not indication or "targets.variants" not in rules:
+def _variant(rules: Rules, indication: str | None, pick: _Picker, conditions: tuple[str, ...] = ()) -> dict[str, Any]:
+    """The library's indication variant whose id matches the case's indication text, else one whose id
+    is a documented patient condition of the case (``endocarditis`` on gentamicin: synergy bands)."""
+    if "targets.variants" not in rules:
         return {}
     variants = rules.value("targets.variants") or {}
-    text = indication.strip().lower()
-    for vid, body in variants.items():
-        if vid == text or vid.replace("-", " ") in text:
-            pick.sources["variant"] = rules.source("targets.variants")
-            pick.citations["variant"] = f"{vid}: {rules.citation('targets.variants')}"
-            return dict(body)
-    return {}
+    text = (indication or "").strip().lower()
+    found = next((vid for vid in variants if text and (vid == text or vid.replace("-", " ") in text)), None)
+    if found is None:
+        found = next((vid for vid in variants if vid in conditions), None)
+    if found is None:
+        return {}
+    pick.sources["variant"] = rules.source("targets.variants")
+    pick.citations["variant"] = f"{found}: {rules.citation('targets.variants')}"
+    return dict(variants[found])
 
 
-def resolve_targets(rules: Rules, case_target: Target | None, mode: str) -> Targets:
+def resolve_targets(rules: Rules, case_target: Target | None, mode: str,
+                    conditions: tuple[str, ...] = ()) -> Targets:
     """Targets for ``mode`` from the case, the protocol and the library.
 
     Args:
         rules: library values with the local protocol on top.
         case_target: the case's ``target`` (None fields are taken from rules).
         mode: one of :data:`MODES`.
+        conditions: the patient's documented conditions (a variant may be named by one).
 
     Returns:
         The resolved :class:`Targets`.
@@ -183,7 +188,7 @@ def resolve_targets(rules: Rules, case_target: Target | None, mode: str) -> Targ
                 pick.citations.pop("trough", None)
         kw["trough"] = trough
     elif mode == "peak-trough":
-        var = _variant(rules, indication, pick)
+        var = _variant(rules, indication, pick, tuple(conditions))
         kw["peak"] = pick.case("peak", ct.peak if ct else None) or (
             tuple(var["peak"]) if "peak" in var else _band(pick.lib("peak", "targets.peak")))
         kw["trough"] = pick.case("trough", ct.trough if ct else None) or (
