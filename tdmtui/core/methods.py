@@ -70,9 +70,10 @@ def _gap(a: Estimate, b: Estimate, cur: CurrentRegimen | None) -> tuple[float, s
 def compare(ctx: MethodContext, est: dict[str, Estimate], used: str) -> list[Alert]:
     """Warn where methods disagree by more than the library's threshold, saying which to trust less.
 
-    Pairs judged (issue rules): two-level vs Sawchuk-Zaske; two-level vs the
-    primary Bayesian estimate (on AUC24); and, against a two-compartment
-    Bayesian model, the two-level ke vs that model's terminal rate (beta).
+    Pairs judged: two-level vs Sawchuk-Zaske; two-level vs the primary Bayesian
+    estimate (on AUC24, naming the one to follow); and, against a two-compartment
+    Bayesian model, whether the one-compartment shape biases the two-level answer
+    for these draw times (:mod:`tdmtui.core.shapecheck`).
     """
     out: list[Alert] = []
     limit = float(ctx.rules.value("methods.disagreement_rel"))
@@ -96,24 +97,17 @@ def compare(ctx: MethodContext, est: dict[str, Estimate], used: str) -> list[Ale
                              "patient's volume is unusual (obesity, oedema, critical illness); trust the Bayesian one "
                              "less when the patient is outside its models' populations"))
     if a and bay:
+        from tdmtui.core.shapecheck import disagreement_advice, terminal_rate_alert
+
+        shape = terminal_rate_alert(ctx, a, bay)
         gap, what = _gap(a, bay, ctx.current)
         if gap > limit:
             model = (bay.model or {}).get("name", "the population model")
             out.append(Alert("methods-disagree-bayesian", "caution", "levels",
                              f"two-level and Bayesian ({model}) differ on {what} by {gap:.0%} (over {limit:.0%}): "
-                             "trust the two-level estimate less when a level time is uncertain or the levels are "
-                             "close together; trust the Bayesian one less when the patient is outside its population "
-                             "or its model was checked against a secondary copy only"))
-        if bay.params.is_two_compartment:
-            from tdmtui.core.estimates import two_compartment_figures
-
-            beta = two_compartment_figures(bay.params)["beta_per_h"]
-            rel = abs(a.params.ke - beta) / max(a.params.ke, beta)
-            if rel > limit:
-                out.append(Alert("ke-vs-terminal-rate", "info", "levels",
-                                 f"two-level ke {a.params.ke:.4f} /h differs from the two-compartment model's terminal "
-                                 f"rate {beta:.4f} /h by {rel:.0%}: the one-compartment ke mixes distribution and "
-                                 "elimination when levels are drawn early; trust it less for long-interval predictions"))
+                             f"{disagreement_advice(ctx, a, used, shape is not None)}"))
+        if shape is not None:
+            out.append(shape)
     return out
 
 

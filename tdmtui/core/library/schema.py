@@ -185,6 +185,7 @@ SCHEMA: dict[str, Spec] = {
     "timing.sensitivity_shift_min": num("min", 0.0, 120.0),
     "timing.sensitivity_warn_rel": num("fraction", 0.0, 1.0),
     "methods.disagreement_rel": num("fraction", 0.0, 1.0),
+    "methods.shape_bias_rel": num("fraction", 0.0, 1.0),
     "methods.poor_fit_rel": num("fraction", 0.0, 5.0),
     "methods.large_iiv_sd": num("log-scale SD", 0.1, 5.0),
     "methods.large_iiv_movement_sd": num("SD", 0.1, 10.0),
