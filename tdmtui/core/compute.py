@@ -31,7 +31,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from tdmtui import __version__
-from tdmtui.core import checks, course, exposure, limits, methods, registry
+from tdmtui.core import checks, course, exposure, limits, methods, reconcile, registry
 from tdmtui.core.alerts import Alert, has_stop
 from tdmtui.core.case import Case, parse_case
 from tdmtui.core.context import MethodContext, history_of
@@ -227,6 +227,7 @@ def compute(case: Case, protocol: Protocol | None = None, method: str | None = N
     alerts += exposure.unresolved(corrections, result.get("regimen"), targets, rules)
     if "regimen" not in result and result["status"] == "stop":
         outcome.plan = None
+    alerts = reconcile.settle(alerts)
     outcome.band = methods.concentration_band(ctx, est, outcome.plan)
     result["warnings"] = [a.to_dict() for a in alerts]
     result["working"] = [w.to_dict() for w in est.working]

@@ -50,7 +50,8 @@ class Estimate:
         """Steady-state figures of the current regimen with these parameters."""
         if cur is None:
             return None
-        ss = steady_state(self.params, cur.dose_mg, cur.interval_h, cur.infusion_h)
+        # an infusion as long as the interval or longer (overlapping rows) runs the whole interval
+        ss = steady_state(self.params, cur.dose_mg, cur.interval_h, min(cur.infusion_h, cur.interval_h))
         return {"auc24_mg_h_per_l": ss.auc24, "peak_mg_per_l": ss.peak, "trough_mg_per_l": ss.trough}
 
     def to_dict(self, cur: CurrentRegimen | None, weight_kg: float) -> dict[str, Any]:
