@@ -22,15 +22,16 @@ of the first dose, which then moves one interval on).
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
 
 from tdmtui.core.alerts import Alert
 from tdmtui.core.models import steady_state
-from tdmtui.core.regimen import continuous, handover, loading, nomogram
+from tdmtui.core.regimen import continuous, handover, loading, nomogram, wardclock
 from tdmtui.core.regimen.candidates import (Candidate, choose, evaluate, infusion_time, judge, search,
-                                            table_probabilities, terminal_rate, with_draws)
+                                            table_probabilities, with_draws)
 from tdmtui.core.regimen.extended import nomogram_plan
 from tdmtui.core.regimen.targets import Targets, resolve_targets
 from tdmtui.core.regimen.types import Plan, RegimenInput
@@ -120,15 +121,54 @@ def _current(inp: RegimenInput, targets: Targets, mode: str) -> Candidate | None
                     _dose_ref(inp, mode))
 
 
+def interval_band(rules: Any, params: Any, mode: str) -> tuple[float, float] | None:
+    """(shortest, longest) interval, h, the estimate's half-life allows (candidates.py rule 2), or None."""
+    if mode in ("extended", "continuous"):
+        return None
+    lo, hi = rules.get("regimen.min_interval_half_lives"), rules.get("regimen.max_interval_half_lives")
+    if lo is None and hi is None:
+        return None
+    half = math.log(2.0) * (params.v1 + params.v2) / params.cl
+    return (float(lo or 0.0) * half, float(hi) * half if hi else math.inf)
+
+
 def _within_caps(c: Candidate, rules: Any) -> bool:
     return (c.dose_mg <= float(rules.value("regimen.max_single_dose_mg")) + 1e-9 or c.infusion_h >= 24.0) and \
         c.daily_mg <= float(rules.value("regimen.max_daily_dose_mg")) + 1e-9
 
 
-def _timing(inp: RegimenInput, c: Candidate, continuing: bool, threshold: float) -> tuple[float, float | None, float]:
-    """(first maintenance dose h, hold_until h or None, t_due h) per handover.py."""
-    hist = inp.history
+@dataclass(frozen=True)
+class Timing:
+    """When the regimen starts (handover.py, wardclock.py).
+
+    Attributes:
+        first: first maintenance dose, h (on the grid, aligned to the administration times).
+        held: end of the hold, h (on the grid), or None.
+        due: when the next dose was due, h.
+        nearer: the first dose before alignment to the administration times (== first without them).
+        skipped: the standing order's doses left out before ``first``, h.
+    """
+
+    first: float
+    held: float | None
+    due: float
+    nearer: float
+    skipped: tuple[float, ...]
+
+
+def hold_limit(rules: Any, targets: Targets, c: Candidate) -> float | None:
+    """The level above which the next dose is held and to which a hold lets it fall, mg/L (module docstring)."""
+    if c.infusion_h >= c.interval_h:  # a continuous rate starts when the level is at its own Css
+        return c.trough
+    limits = [float(x) for x in (rules.get("regimen.hold_above_mg_l"), targets.trough_ceiling) if x]
+    return min(limits) if limits else None
+
+
+def _timing(inp: RegimenInput, c: Candidate, continuing: bool, limit: float | None) -> Timing:
+    """The hand-over for one candidate (handover.py, wardclock.py)."""
+    hist, rules = inp.history, inp.rules
     t_last = float(hist.start[-1]) if len(hist) else None
+    cur_tau = inp.current.interval_h if inp.current else None
     if t_last is None:
         t_due = inp.as_of
     elif continuing and inp.current:
@@ -139,36 +179,37 @@ def _timing(inp: RegimenInput, c: Candidate, continuing: bool, threshold: float)
     else:
         t_due = t_last + c.interval_h
     t_due = max(t_due, inp.as_of)
-    held = None
-    if not continuing and inp.params is not None:
-        held = handover.hold(inp.params, hist, t_due, threshold, float(inp.rules.get("regimen.min_hold_h", 0.0)))
-    start = held if held is not None else t_due
     if continuing and t_last is not None and t_due > inp.as_of:
-        return start, None, t_due
-    if c.infusion_h >= c.interval_h:
-        return start, held, t_due
-    return handover.align(start, handover.admin_times(inp.rules, c.interval_h), inp.clock), held, t_due
-
-
-def _threshold(c: Candidate, targets: Targets) -> float:
-    return max(c.trough, targets.trough_ceiling or 0.0)
+        return Timing(t_due, None, t_due, t_due, ())  # the standing order keeps its own clock
+    held = None
+    if not continuing and inp.params is not None and limit is not None:
+        held = handover.hold(inp.params, hist, t_due, limit, float(rules.get("regimen.min_hold_h", 0.0)))
+        held = wardclock.to_grid(held, rules, inp.clock, "up") if held is not None else None
+    start = held if held is not None else wardclock.to_grid(t_due, rules, inp.clock, "up")
+    first = start if c.infusion_h >= c.interval_h else \
+        handover.align(start, handover.admin_times(rules, c.interval_h), inp.clock)
+    gone = () if continuing else tuple(wardclock.skipped(t_last, cur_tau, inp.as_of, first))
+    return Timing(first, held, t_due, start, gone)
 
 
 def _shape(inp: RegimenInput, c: Candidate, targets: Targets, mode: str, continuing: bool) -> dict[str, Any]:
     """The contract's regimen shape for one candidate (no loading dose)."""
-    first, held, _ = _timing(inp, c, continuing, _threshold(c, targets))
-    action = "continue" if continuing else ("hold-then-change" if held is not None else "change")
+    tm = _timing(inp, c, continuing, hold_limit(inp.rules, targets, c))
+    action = "continue" if continuing else ("hold-then-change" if tm.held is not None else "change")
+    first = tm.first
     out: dict[str, Any] = {
         "action": action, "mode": mode, "dose_mg": c.dose_mg, "interval_h": c.interval_h, "infusion_h": c.infusion_h,
         "daily_dose_mg": c.daily_mg, "next_dose_at": inp.clock.format(first),
-        "hold_until": inp.clock.format(held) if held is not None else None, "loading_dose": None,
+        "hold_until": inp.clock.format(tm.held) if tm.held is not None else None, "loading_dose": None,
+        "skipped_doses": [inp.clock.format(t) for t in tm.skipped],
         "predicted": c.predicted(),
         "next_levels": handover.next_levels(inp.rules, targets, mode, inp.option or inp.method, first, c.interval_h,
-                                            c.infusion_h, inp.clock),
+                                            c.infusion_h, inp.clock, continuing),
     }
     if mode == "continuous":
         out.update(continuous.describe(c))
     out["_first"] = first
+    out["_nearer"] = tm.nearer
     return out
 
 
@@ -223,13 +264,12 @@ def finish(inp: RegimenInput, targets: Targets, mode: str, plan: Plan, cands: li
             row["probability"] = prob
     current = _current(inp, targets, mode)
     tie = float(rules.get("regimen.choice_tie_rel", 0.0))
-    span = rules.get("regimen.max_interval_half_lives")
-    longest = float(span) * math.log(2.0) / terminal_rate(params) if span and mode != "extended" else None
     banded = bool(targets.auc24 or targets.peak)
     keep = inp.current.interval_h if inp.current and mode != "extended" else None
     best, alts = choose(cands, keep, tie,
-                        shortest_first=mode == "extended" and banded, max_interval=longest,
-                        shortest_tie=mode == "extended" and not banded)
+                        shortest_first=mode == "extended" and banded, interval_band=interval_band(rules, params, mode),
+                        shortest_tie=mode == "extended" and not banded,
+                        keep_within=float(rules.get("regimen.keep_interval_within_rel", math.inf)))
     continuing = False
     if fixed is not None:
         chosen = fixed
@@ -266,7 +306,7 @@ def finish(inp: RegimenInput, targets: Targets, mode: str, plan: Plan, cands: li
         chosen = with_draws(chosen, inp.samples, targets, dref)
         alts = [with_draws(a, inp.samples, targets, dref) for a in alts]
     reg = _shape(inp, chosen, targets, mode, continuing)
-    first = reg.pop("_first")
+    first, nearer = reg.pop("_first"), reg.pop("_nearer")
     if current is not None:
         reg["current_predicted"] = current.predicted()
         reg["current_on_target"] = current.on_target
@@ -274,6 +314,7 @@ def finish(inp: RegimenInput, targets: Targets, mode: str, plan: Plan, cands: li
     for a in alts:
         shaped = _shape(inp, a, targets, mode, False)
         shaped.pop("_first")
+        shaped.pop("_nearer")
         reg["alternatives"].append(shaped)
     if extra:
         reg.update(extra)
@@ -290,18 +331,47 @@ def finish(inp: RegimenInput, targets: Targets, mode: str, plan: Plan, cands: li
         reg["next_dose_at"] = inp.clock.format(first)
         reg["next_levels"] = handover.next_levels(rules, targets, mode, inp.option or inp.method, first, chosen.interval_h,
                                                   chosen.infusion_h, inp.clock)
+        reg["skipped_doses"] = [inp.clock.format(t) for t in wardclock.skipped(
+            float(inp.history.start[-1]) if len(inp.history) else None,
+            inp.current.interval_h if inp.current else None, inp.as_of, t_load)]
     until = inp.as_of + handover.FORECAST_H
     ld_tuple = (t_load, ld.dose_mg, ld_tinf) if load is not None else None
     plan.doses = handover.proposed_doses(first, chosen.dose_mg, chosen.interval_h, chosen.infusion_h, until, ld_tuple)
     times, conc, aucs = handover.forecast(params, inp.history, plan.doses, inp.as_of)
     plan.forecast = (times, conc)
     reg["forecast_auc"] = {"from": inp.clock.format(inp.as_of), **aucs}
+    if load is None:
+        _alignment_gap(inp, targets, chosen, reg, first, nearer, aucs["day1_mg_h_per_l"], alerts)
     reg["choice_rule"] = ("continue: the standing order is predicted on target" if continuing else
-                          "practical candidate on target nearest the middle of the band, at the current interval where "
-                          "one is on target (extended-interval: the shortest interval on target); ties to fewer doses "
-                          "a day (regimen/candidates.py)")
+                          "practical candidate on target nearest the middle of the band, at intervals the half-life "
+                          "allows, at the current interval only where a dose there lands near the middle "
+                          "(extended-interval: the shortest interval on target); ties to fewer doses a day "
+                          "(regimen/candidates.py)")
     plan.regimen = reg
     return plan
+
+
+def _alignment_gap(inp: RegimenInput, targets: Targets, chosen: Candidate, reg: dict[str, Any], first: float,
+                   nearer: float, day1: float, alerts: list[Alert]) -> None:
+    """Warn when aligning the first dose to the administration times drops the next 24 h below the AUC target.
+
+    The nearer time (the due time or the end of the hold, on the grid) is offered with its own exposure
+    (``regimen.nearer_start``).
+    """
+    band = targets.auc24
+    if band is None or nearer >= first - 1.0 / 60.0 or day1 >= band[0] or inp.params is None:
+        return
+    until = inp.as_of + handover.FORECAST_H
+    doses = handover.proposed_doses(nearer, chosen.dose_mg, chosen.interval_h, chosen.infusion_h, until)
+    _, _, aucs = handover.forecast(inp.params, inp.history, doses, inp.as_of)
+    if aucs["day1_mg_h_per_l"] <= day1 + 1e-6:
+        return
+    at = inp.clock.format(nearer)
+    reg["nearer_start"] = {"next_dose_at": at, "day1_mg_h_per_l": aucs["day1_mg_h_per_l"]}
+    alerts.append(Alert("alignment-gap", "caution", "schedule",
+                        f"the first dose moved to the standard administration time {inp.clock.format(first)} leaves "
+                        f"AUC over the next 24 h at {day1:.0f} mg*h/L, below the target {band[0]:g}-{band[1]:g}; "
+                        f"starting at {at} instead gives {aucs['day1_mg_h_per_l']:.0f} mg*h/L"))
 
 
 def _cap_alert(inp: RegimenInput, targets: Targets, chosen: Candidate, alerts: list[Alert]) -> None:

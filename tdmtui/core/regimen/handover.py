@@ -34,6 +34,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from tdmtui.core.models import DoseArrays, PKParams, auc, concentration, time_to_fall
+from tdmtui.core.regimen import wardclock
 
 if TYPE_CHECKING:
     from tdmtui.core.clock import Clock
@@ -120,39 +121,51 @@ def forecast(params: PKParams, history: DoseArrays, plan: DoseArrays, as_of: flo
     return grid, conc, aucs
 
 
-def level_plan(rules: Rules, targets: Targets, mode: str, method: str) -> list[list[Any]]:
-    """The draw list for this mode and method from ``monitoring.levels``."""
+def level_plan(rules: Rules, targets: Targets, mode: str, method: str, continuing: bool = False) -> list[list[Any]]:
+    """The draw list for this mode and method from ``monitoring.levels`` (``mode/continue`` when continuing)."""
     table = rules.get("monitoring.levels", {}) or {}
-    for key in (f"{mode}/{method}", mode, "default"):
+    keys = ([f"{mode}/continue"] if continuing else []) + [f"{mode}/{method}", mode, "default"]
+    for key in keys:
         if key in table:
             return [list(x) for x in table[key]]
     return []
 
 
-def next_levels(rules: Rules, targets: Targets, mode: str, method: str, first: float, tau: float,
-                tinf: float, clock: Clock) -> list[dict[str, Any]]:
-    """Next levels in clock time, each tied to a named dose of the new regimen."""
-    out: list[dict[str, Any]] = []
+def _draw(rules: Rules, targets: Targets, mode: str, item: list[Any], first: float, tau: float,
+          tinf: float, clock: Clock) -> tuple[float, dict[str, Any]]:
+    """One planned draw: (time h, its row), on the protocol's grid (wardclock.py)."""
     before = float(rules.get("monitoring.trough_before_h", 0.5))
-    for item in level_plan(rules, targets, mode, method):
-        kind, n = str(item[0]), int(item[1])
-        start = first + (n - 1) * tau
-        if kind == "trough":
-            at = start - before
-            where = f"{before * 60:.0f} min before dose {n} of the new regimen"
-        elif kind == "peak":
-            if "monitoring.peak_after_end_h" in rules:
-                after = float(rules.value("monitoring.peak_after_end_h"))
-                at = start + tinf + after
-                where = f"{after:g} h after the end of dose {n} of the new regimen"
-            else:
-                at = start + targets.peak_time(tinf)
-                where = f"{targets.peak_time(tinf):g} h after the start of dose {n} of the new regimen"
+    kind, n = str(item[0]), int(item[1])
+    start = first + (n - 1) * tau
+    if kind == "trough":
+        at = wardclock.to_grid(start - before, rules, clock, "down")
+        where = f"{(start - at) * 60:.0f} min before dose {n} of the new regimen"
+    elif kind == "peak":
+        if "monitoring.peak_after_end_h" in rules:
+            after = float(rules.value("monitoring.peak_after_end_h"))
+            at = wardclock.to_grid(start + tinf + after, rules, clock, "up")
+            where = f"{_h(at - start - tinf)} h after the end of dose {n} of the new regimen"
         else:
-            h = float(item[2])
-            at = start + h
-            kind = "random" if mode != "continuous" else "steady-state"
-            where = f"{h:g} h after the start of dose {n} of the new regimen"
-        out.append({"at": clock.format(at), "kind": kind,
-                    "dose": f"dose {n} ({clock.format(start)}): {where}"})
-    return out
+            at = wardclock.to_grid(start + targets.peak_time(tinf), rules, clock, "up")
+            where = f"{_h(at - start)} h after the start of dose {n} of the new regimen"
+    else:
+        at = wardclock.to_grid(start + float(item[2]), rules, clock, "nearest")
+        kind = "random" if mode != "continuous" else "steady-state"
+        where = f"{_h(at - start)} h after the start of dose {n} of the new regimen"
+    return at, {"at": clock.format(at), "kind": kind, "dose": f"dose {n} ({clock.format(start)}): {where}"}
+
+
+def _h(x: float) -> str:
+    return f"{round(x * 60.0) / 60.0:.2f}".rstrip("0").rstrip(".")
+
+
+def next_levels(rules: Rules, targets: Targets, mode: str, method: str, first: float, tau: float,
+                tinf: float, clock: Clock, continuing: bool = False) -> list[dict[str, Any]]:
+    """Next levels in clock time, each tied to a named dose of the new regimen, in ward hours (wardclock.py)."""
+    plan = level_plan(rules, targets, mode, method, continuing)
+    if not plan:
+        return []
+    options = wardclock.arrangements(plan, tau)
+    drawn = [[_draw(rules, targets, mode, item, first, tau, tinf, clock) for item in opt] for opt in options]
+    best = drawn[wardclock.pick([[t for t, _ in d] for d in drawn], rules, clock)]
+    return [row for _, row in sorted(best, key=lambda x: x[0])]
