@@ -113,8 +113,9 @@ def hold_words(reg: dict[str, Any]) -> str:
     gone = [str(t) for t in reg.get("skipped_doses") or []]
     until = reg.get("hold_until")
     if until and gone:
-        after = "" if until == reg.get("next_dose_at") else f", none before {f.when(until)}"
-        return f"Hold the {_dose_times(gone)} (level above the hold limit){after}; next dose {nxt}"
+        level = reg.get("hold_level_mg_l")
+        why = f" (level predicted above {level:.3g} mg/L until {f.when(until)})" if level else ""
+        return f"Hold the {_dose_times(gone)}{why}; next dose {nxt}"
     if until:
         return (f"Hold: next dose at {nxt}, none before" if until == reg.get("next_dose_at")
                 else f"Hold: no dose until {f.when(until)}; next dose {nxt}")

@@ -194,7 +194,8 @@ def _timing(inp: RegimenInput, c: Candidate, continuing: bool, limit: float | No
 
 def _shape(inp: RegimenInput, c: Candidate, targets: Targets, mode: str, continuing: bool) -> dict[str, Any]:
     """The contract's regimen shape for one candidate (no loading dose)."""
-    tm = _timing(inp, c, continuing, hold_limit(inp.rules, targets, c))
+    limit = hold_limit(inp.rules, targets, c)
+    tm = _timing(inp, c, continuing, limit)
     action = "continue" if continuing else ("hold-then-change" if tm.held is not None else "change")
     first = tm.first
     out: dict[str, Any] = {
@@ -206,6 +207,8 @@ def _shape(inp: RegimenInput, c: Candidate, targets: Targets, mode: str, continu
         "next_levels": handover.next_levels(inp.rules, targets, mode, inp.option or inp.method, first, c.interval_h,
                                             c.infusion_h, inp.clock, continuing),
     }
+    if tm.held is not None and limit is not None:
+        out["hold_level_mg_l"] = limit
     if mode == "continuous":
         out.update(continuous.describe(c))
     out["_first"] = first
@@ -250,7 +253,15 @@ def search_candidates(inp: RegimenInput, targets: Targets, mode: str) -> list[Ca
     assert inp.params is not None
     if mode == "continuous":
         return continuous.candidates(inp.params, targets, inp.rules)
-    return search(inp.params, targets, inp.rules, _intervals(inp, mode), _dose_ref(inp, mode))
+    return search(inp.params, targets, inp.rules, _intervals(inp, mode), _dose_ref(inp, mode), kept_infusion(inp, mode))
+
+
+def kept_infusion(inp: RegimenInput, mode: str) -> float | None:
+    """The patient's infusion time when extended-interval doses keep it (``extended.keep_infusion``), else None."""
+    cur = inp.current
+    if mode != "extended" or cur is None or not inp.rules.get("extended.keep_infusion", False):
+        return None
+    return cur.infusion_h if 0 < cur.infusion_h < cur.interval_h else None
 
 
 def finish(inp: RegimenInput, targets: Targets, mode: str, plan: Plan, cands: list[Candidate],

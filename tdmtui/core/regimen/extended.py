@@ -66,7 +66,9 @@ def nomogram_plan(inp: RegimenInput, targets: Targets, plan: Plan) -> ChartOrder
                                  f"nomogram entry check failed: no nomogram for {rules.drug} in the library or the local protocol"))
         return None
     dose = nomogram.extended_dose(rules, inp.dosing_weight_kg)
-    tinf = infusion_time(dose, rules)
+    from tdmtui.core.regimen.design import kept_infusion
+
+    tinf = infusion_time(dose, rules, kept_infusion(inp, "extended"))
     if not inp.doses:
         stops = nomogram.exclusions(rules, inp.crcl_ml_min, inp.renal_replacement, inp.conditions)
         plan.alerts.extend(Alert(nomogram.CODE, "stop", f, f"nomogram entry check failed: {m}") for f, m in stops)
