@@ -12,8 +12,11 @@ Mode (how a regimen is judged, targets.py):
     dialysis, excluded condition; nomogram.exclusions).
 
 Action: ``continue`` when the standing order is predicted on target and
-under the caps; else ``change`` (candidates.py choice rule), or
-``hold-then-change`` when handover.py finds a hold. ``next_dose_at`` is the
+under the caps; else ``change`` (candidates.py choice rule: the middle of
+the band, intervals the half-life allows), or ``hold-then-change`` when the
+level due is above the library's hold limit (handover.py, practice.py).
+``skipped_doses`` names the standing order's doses left out before the first
+dose; times are on the protocol's grid (wardclock.py). ``next_dose_at`` is the
 first maintenance dose of the recommended regimen; a loading dose, when
 proposed, is at ``loading_dose.at`` (``as_of`` for a new start, else in place
 of the first dose, which then moves one interval on).
@@ -22,14 +25,13 @@ of the first dose, which then moves one interval on).
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
 
 from tdmtui.core.alerts import Alert
 from tdmtui.core.models import steady_state
-from tdmtui.core.regimen import continuous, handover, loading, nomogram, wardclock
+from tdmtui.core.regimen import continuous, handover, loading, nomogram, practice, timing, wardclock
 from tdmtui.core.regimen.candidates import (Candidate, choose, evaluate, infusion_time, judge, search,
                                             table_probabilities, with_draws)
 from tdmtui.core.regimen.extended import nomogram_plan
@@ -121,81 +123,15 @@ def _current(inp: RegimenInput, targets: Targets, mode: str) -> Candidate | None
                     _dose_ref(inp, mode))
 
 
-def interval_band(rules: Any, params: Any, mode: str) -> tuple[float, float] | None:
-    """(shortest, longest) interval, h, the estimate's half-life allows (candidates.py rule 2), or None."""
-    if mode in ("extended", "continuous"):
-        return None
-    lo, hi = rules.get("regimen.min_interval_half_lives"), rules.get("regimen.max_interval_half_lives")
-    if lo is None and hi is None:
-        return None
-    half = math.log(2.0) * (params.v1 + params.v2) / params.cl
-    return (float(lo or 0.0) * half, float(hi) * half if hi else math.inf)
-
-
 def _within_caps(c: Candidate, rules: Any) -> bool:
     return (c.dose_mg <= float(rules.value("regimen.max_single_dose_mg")) + 1e-9 or c.infusion_h >= 24.0) and \
         c.daily_mg <= float(rules.value("regimen.max_daily_dose_mg")) + 1e-9
 
 
-@dataclass(frozen=True)
-class Timing:
-    """When the regimen starts (handover.py, wardclock.py).
-
-    Attributes:
-        first: first maintenance dose, h (on the grid, aligned to the administration times).
-        held: end of the hold, h (on the grid), or None.
-        due: when the next dose was due, h.
-        nearer: the first dose before alignment to the administration times (== first without them).
-        skipped: the standing order's doses left out before ``first``, h.
-    """
-
-    first: float
-    held: float | None
-    due: float
-    nearer: float
-    skipped: tuple[float, ...]
-
-
-def hold_limit(rules: Any, targets: Targets, c: Candidate) -> float | None:
-    """The level above which the next dose is held and to which a hold lets it fall, mg/L (module docstring)."""
-    if c.infusion_h >= c.interval_h:  # a continuous rate starts when the level is at its own Css
-        return c.trough
-    limits = [float(x) for x in (rules.get("regimen.hold_above_mg_l"), targets.trough_ceiling) if x]
-    return min(limits) if limits else None
-
-
-def _timing(inp: RegimenInput, c: Candidate, continuing: bool, limit: float | None) -> Timing:
-    """The hand-over for one candidate (handover.py, wardclock.py)."""
-    hist, rules = inp.history, inp.rules
-    t_last = float(hist.start[-1]) if len(hist) else None
-    cur_tau = inp.current.interval_h if inp.current else None
-    if t_last is None:
-        t_due = inp.as_of
-    elif continuing and inp.current:
-        t_due = t_last + inp.current.interval_h
-    elif c.infusion_h >= c.interval_h and inp.current:
-        # a continuous infusion starts when the standing order's next dose is due
-        t_due = t_last + inp.current.interval_h
-    else:
-        t_due = t_last + c.interval_h
-    t_due = max(t_due, inp.as_of)
-    if continuing and t_last is not None and t_due > inp.as_of:
-        return Timing(t_due, None, t_due, t_due, ())  # the standing order keeps its own clock
-    held = None
-    if not continuing and inp.params is not None and limit is not None:
-        held = handover.hold(inp.params, hist, t_due, limit, float(rules.get("regimen.min_hold_h", 0.0)))
-        held = wardclock.to_grid(held, rules, inp.clock, "up") if held is not None else None
-    start = held if held is not None else wardclock.to_grid(t_due, rules, inp.clock, "up")
-    first = start if c.infusion_h >= c.interval_h else \
-        handover.align(start, handover.admin_times(rules, c.interval_h), inp.clock)
-    gone = () if continuing else tuple(wardclock.skipped(t_last, cur_tau, inp.as_of, first))
-    return Timing(first, held, t_due, start, gone)
-
-
 def _shape(inp: RegimenInput, c: Candidate, targets: Targets, mode: str, continuing: bool) -> dict[str, Any]:
     """The contract's regimen shape for one candidate (no loading dose)."""
-    limit = hold_limit(inp.rules, targets, c)
-    tm = _timing(inp, c, continuing, limit)
+    limit = practice.hold_limit(inp.rules, targets, c)
+    tm = timing.plan_timing(inp, c, continuing, limit)
     action = "continue" if continuing else ("hold-then-change" if tm.held is not None else "change")
     first = tm.first
     out: dict[str, Any] = {
@@ -253,15 +189,8 @@ def search_candidates(inp: RegimenInput, targets: Targets, mode: str) -> list[Ca
     assert inp.params is not None
     if mode == "continuous":
         return continuous.candidates(inp.params, targets, inp.rules)
-    return search(inp.params, targets, inp.rules, _intervals(inp, mode), _dose_ref(inp, mode), kept_infusion(inp, mode))
-
-
-def kept_infusion(inp: RegimenInput, mode: str) -> float | None:
-    """The patient's infusion time when extended-interval doses keep it (``extended.keep_infusion``), else None."""
-    cur = inp.current
-    if mode != "extended" or cur is None or not inp.rules.get("extended.keep_infusion", False):
-        return None
-    return cur.infusion_h if 0 < cur.infusion_h < cur.interval_h else None
+    return search(inp.params, targets, inp.rules, _intervals(inp, mode), _dose_ref(inp, mode),
+                  practice.kept_infusion(inp, mode))
 
 
 def finish(inp: RegimenInput, targets: Targets, mode: str, plan: Plan, cands: list[Candidate],
@@ -278,7 +207,7 @@ def finish(inp: RegimenInput, targets: Targets, mode: str, plan: Plan, cands: li
     banded = bool(targets.auc24 or targets.peak)
     keep = inp.current.interval_h if inp.current and mode != "extended" else None
     best, alts = choose(cands, keep, tie,
-                        shortest_first=mode == "extended" and banded, interval_band=interval_band(rules, params, mode),
+                        shortest_first=mode == "extended" and banded, interval_band=practice.interval_band(rules, params, mode),
                         shortest_tie=mode == "extended" and not banded,
                         keep_within=float(rules.get("regimen.keep_interval_within_rel", math.inf)))
     continuing = False
@@ -352,7 +281,7 @@ def finish(inp: RegimenInput, targets: Targets, mode: str, plan: Plan, cands: li
     plan.forecast = (times, conc)
     reg["forecast_auc"] = {"from": inp.clock.format(inp.as_of), **aucs}
     if load is None:
-        _alignment_gap(inp, targets, chosen, reg, first, nearer, aucs["day1_mg_h_per_l"], alerts)
+        timing.alignment_gap(inp, targets, chosen, reg, first, nearer, aucs["day1_mg_h_per_l"], alerts)
     reg["choice_rule"] = ("continue: the standing order is predicted on target" if continuing else
                           "practical candidate on target nearest the middle of the band, at intervals the half-life "
                           "allows, at the current interval only where a dose there lands near the middle "
@@ -360,29 +289,6 @@ def finish(inp: RegimenInput, targets: Targets, mode: str, plan: Plan, cands: li
                           "(regimen/candidates.py)")
     plan.regimen = reg
     return plan
-
-
-def _alignment_gap(inp: RegimenInput, targets: Targets, chosen: Candidate, reg: dict[str, Any], first: float,
-                   nearer: float, day1: float, alerts: list[Alert]) -> None:
-    """Warn when aligning the first dose to the administration times drops the next 24 h below the AUC target.
-
-    The nearer time (the due time or the end of the hold, on the grid) is offered with its own exposure
-    (``regimen.nearer_start``).
-    """
-    band = targets.auc24
-    if band is None or nearer >= first - 1.0 / 60.0 or day1 >= band[0] or inp.params is None:
-        return
-    until = inp.as_of + handover.FORECAST_H
-    doses = handover.proposed_doses(nearer, chosen.dose_mg, chosen.interval_h, chosen.infusion_h, until)
-    _, _, aucs = handover.forecast(inp.params, inp.history, doses, inp.as_of)
-    if aucs["day1_mg_h_per_l"] <= day1 + 1e-6:
-        return
-    at = inp.clock.format(nearer)
-    reg["nearer_start"] = {"next_dose_at": at, "day1_mg_h_per_l": aucs["day1_mg_h_per_l"]}
-    alerts.append(Alert("alignment-gap", "caution", "schedule",
-                        f"the first dose moved to the standard administration time {inp.clock.format(first)} leaves "
-                        f"AUC over the next 24 h at {day1:.0f} mg*h/L, below the target {band[0]:g}-{band[1]:g}; "
-                        f"starting at {at} instead gives {aucs['day1_mg_h_per_l']:.0f} mg*h/L"))
 
 
 def _cap_alert(inp: RegimenInput, targets: Targets, chosen: Candidate, alerts: list[Alert]) -> None:

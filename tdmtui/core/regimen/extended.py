@@ -23,6 +23,7 @@ from typing import TYPE_CHECKING, Any
 
 from tdmtui.core.alerts import Alert, has_stop
 from tdmtui.core.regimen import handover, nomogram, wardclock
+from tdmtui.core.regimen.practice import kept_infusion
 from tdmtui.core.regimen.candidates import infusion_time
 
 if TYPE_CHECKING:
@@ -66,8 +67,6 @@ def nomogram_plan(inp: RegimenInput, targets: Targets, plan: Plan) -> ChartOrder
                                  f"nomogram entry check failed: no nomogram for {rules.drug} in the library or the local protocol"))
         return None
     dose = nomogram.extended_dose(rules, inp.dosing_weight_kg)
-    from tdmtui.core.regimen.design import kept_infusion
-
     tinf = infusion_time(dose, rules, kept_infusion(inp, "extended"))
     if not inp.doses:
         stops = nomogram.exclusions(rules, inp.crcl_ml_min, inp.renal_replacement, inp.conditions)
