@@ -14,6 +14,12 @@ from typing import TYPE_CHECKING, Any
 from tdmtui.core.alerts import Alert
 from tdmtui.core.regimen import handover, wardclock
 
+#: Warning codes raised here (stable; never renamed).
+CODES = {
+    "alignment-gap": "aligning the first dose to the administration times leaves the next 24 h under the AUC "
+                     "target; the nearer time is offered",
+}
+
 if TYPE_CHECKING:
     from tdmtui.core.regimen.candidates import Candidate
     from tdmtui.core.regimen.targets import Targets
