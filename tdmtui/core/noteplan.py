@@ -97,6 +97,33 @@ def _predicted(r: dict[str, Any]) -> str:
     return text
 
 
+def _dose_times(times: list[str]) -> str:
+    """``06:00 and 14:00 doses on 2026-02-10`` (each with its date when the dates differ)."""
+    parts = [f.when(t).split(" ") for t in times]
+    dates = {p[0] for p in parts}
+    clocks = [p[-1] for p in parts] if len(dates) == 1 else [f"{p[-1]} on {p[0]}" for p in parts]
+    text = clocks[0] if len(clocks) == 1 else ", ".join(clocks[:-1]) + " and " + clocks[-1]
+    noun = "dose" if len(clocks) == 1 else "doses"
+    return f"{text} {noun}" + (f" on {parts[0][0]}" if len(dates) == 1 else "")
+
+
+def hold_words(reg: dict[str, Any]) -> str:
+    """What happens to the standing order's doses before the next dose, by clock time (regimen/wardclock.py)."""
+    nxt = f.when(reg.get("next_dose_at"))
+    gone = [str(t) for t in reg.get("skipped_doses") or []]
+    until = reg.get("hold_until")
+    if until and gone:
+        level = reg.get("hold_level_mg_l")
+        why = f" (level predicted above {level:.3g} mg/L until {f.when(until)})" if level else ""
+        return f"Hold the {_dose_times(gone)}{why}; next dose {nxt}"
+    if until:
+        return (f"Hold: next dose at {nxt}, none before" if until == reg.get("next_dose_at")
+                else f"Hold: no dose until {f.when(until)}; next dose {nxt}")
+    if gone:
+        return f"Do not give the current order's {_dose_times(gone)}; next dose {nxt}"
+    return f"No hold; next dose {nxt}"
+
+
 def regimen_lines(outcome: Any, reg: dict[str, Any] | None, picked: bool,
                   wanted: dict[str, Any] | None, full: bool = False) -> list[str]:
     """Current regimen, the regimen given (chosen or proposed), its timing, the others considered."""
@@ -118,13 +145,7 @@ def regimen_lines(outcome: Any, reg: dict[str, Any] | None, picked: bool,
     ld = reg.get("loading_dose")
     load = (f"loading dose {f.mg(ld['dose_mg'])} mg over {f.duration(ld['infusion_h'])} at {f.when(ld['at'])}"
             + (f" ({f.plain_source(ld['basis'])})" if ld.get("basis") else "") if ld else "no loading dose")
-    nxt = f.when(reg.get("next_dose_at"))
-    if reg.get("hold_until"):
-        hold = (f"Hold: next dose at {nxt}, none before" if reg["hold_until"] == reg.get("next_dose_at")
-                else f"Hold: no dose until {f.when(reg['hold_until'])}; next dose {nxt}")
-    else:
-        hold = f"No hold; next dose {nxt}"
-    timing = f" {hold}; {load}."
+    timing = f" {hold_words(reg)}; {load}."
     if picked:
         lines += f.wrap(f"Chosen in review: {act} {f.regimen_words(reg)}{daily}{_predicted(reg)}.{timing}")
         if proposal and not ch.same(reg, proposal):

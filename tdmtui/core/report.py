@@ -85,8 +85,14 @@ def summary_text(result: dict[str, Any]) -> str:
         pr = reg.get("predicted", {})
         lines.append(f"  predicted AUC24 {_n(pr.get('auc24_mg_h_per_l'))} mg*h/L, peak {_n(pr.get('peak_mg_per_l'))}, "
                      f"trough {_n(pr.get('trough_mg_per_l'))} mg/L")
+        if reg.get("skipped_doses"):
+            lines += _wrap(f"{'hold' if reg.get('hold_until') else 'do not give'} the standing order's dose(s) due "
+                           + ", ".join(reg["skipped_doses"]), "  ")
         if reg.get("hold_until"):
             lines.append(f"  hold until {reg['hold_until']}")
+        if reg.get("nearer_start"):
+            ns = reg["nearer_start"]
+            lines.append(f"  nearer start {ns['next_dose_at']}: AUC next 24 h {_n(ns['day1_mg_h_per_l'])} mg*h/L")
         if reg.get("loading_dose"):
             ld = reg["loading_dose"]
             lines.append(f"  loading dose {ld['dose_mg']:.0f} mg over {ld['infusion_h']:g} h at {ld['at']}")

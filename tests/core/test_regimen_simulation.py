@@ -69,7 +69,10 @@ def _scenarios() -> dict[str, object]:
     w5_hist = DoseArrays.regimen(T0, 1500.0, 12.0, 1.5, 8)
     low_hist = DoseArrays.regimen(T0, 500.0, 12.0, 1.0, 3)
     gent_hist = DoseArrays.regimen(T0, 120.0, 8.0, 0.5, 6)
+    high_hist = DoseArrays.regimen(T0, 2250.0, 12.0, 2.5, 8)
     return {
+        "vanc-over-hold": inp("vancomycin", VANC, high_hist, as_of=float(high_hist.start[-1]) + 11.0,
+                              current=CurrentRegimen(2250.0, 12.0, 2.5), method="two-level"),
         "vanc-change-hold": inp("vancomycin", VANC, w5_hist, as_of=float(w5_hist.start[-1]) + 11.0,
                                 current=CurrentRegimen(1500.0, 12.0, 1.5), method="two-level"),
         "vanc-topup": inp("vancomycin", VANC, low_hist, as_of=float(low_hist.start[-1]) + 6.0,
@@ -140,16 +143,33 @@ def test_next_dose_not_before_as_of_and_forecast_auc(name: str) -> None:
     assert c[idx] == pytest.approx(ode(case.params, every, t[idx])[0], rel=1e-6, abs=1e-9)
 
 
-def test_hold_until_is_where_the_curve_crosses() -> None:
-    """W5 patient cut from 1500 to 1000 mg q12h: the trough due is above the new steady-state trough."""
+def test_no_hold_when_the_level_due_is_under_the_library_limit() -> None:
+    """W5 patient cut from 1500 to 1000 mg q12h: the level due (18.2 mg/L by the scipy ODE reference)
+    is under vancomycin's hold limit of 20 mg/L (library regimen.hold_above_mg_l: AKI odds rise above
+    20 mg/L, pk-sources.md 3.2), so the new dose is given when due: no hold, nothing skipped."""
     case = SCEN["vanc-change-hold"]
     reg = design(case).regimen
-    assert reg["action"] == "hold-then-change"
+    due = float(case.history.start[-1]) + 12.0
+    assert 15.0 < ode(case.params, case.history, np.array([due]))[0][0] < 20.0  # W5 trough 19.0 mg/L before the dose
+    assert reg["action"] == "change" and reg["hold_until"] is None and reg["skipped_doses"] == []
+    assert parse(reg["next_dose_at"]) == pytest.approx(due, abs=1e-6)
+
+
+def test_hold_until_is_where_the_curve_falls_to_the_limit() -> None:
+    """W5 patient on 2250 mg q12h: the level due is above 20 mg/L (scipy ODE reference); the hold ends on
+    the first half hour (library grid, common practice) at which the curve is at or under 20 mg/L, and the
+    dose it skips is named by its time."""
+    case = SCEN["vanc-over-hold"]
+    reg = design(case).regimen
+    due = float(case.history.start[-1]) + 12.0
+    assert ode(case.params, case.history, np.array([due]))[0][0] > 20.0
+    assert reg["action"] == "hold-then-change" and reg["hold_level_mg_l"] == 20.0
     t_hold = parse(reg["hold_until"])
-    threshold = reg["predicted"]["trough_mg_per_l"]
-    before, after = ode(case.params, case.history, np.array([t_hold - 1.0 / 60.0, t_hold + 1.0 / 60.0]))[0]
-    assert before > threshold > after  # the crossing lies within the minute the time is written to
+    assert reg["hold_until"][14:] in ("00", "30")
+    before, at = ode(case.params, case.history, np.array([t_hold - 0.5, t_hold]))[0]
+    assert before > 20.0 >= at
     assert parse(reg["next_dose_at"]) >= t_hold - 1.0 / 120.0
+    assert reg["skipped_doses"] == [CLOCK.format(due)]
 
 
 def test_admin_times_respected() -> None:

@@ -40,7 +40,8 @@ async def test_chosen_regimen_is_saved_and_the_note_is_the_cli_note(state, sampl
                                            "duration": f"{alt['infusion_h'] * 60:g} min"}
         assert "[saved]" in str(app.screen.query_one("#header", Static).content)
         note = app.note
-        assert f"Chosen in review: hold, then change to {alt['dose_mg']:g} mg every {alt['interval_h']:g} h" in note
+        verb = "hold, then change to" if alt["hold_until"] else "change to"
+        assert f"Chosen in review: {verb} {alt['dose_mg']:g} mg every {alt['interval_h']:g} h" in note
         assert note == cli_note(path)
     # reopened: the choice is still marked and still the note's regimen
     app = TdmApp(str(path), None, state=state)

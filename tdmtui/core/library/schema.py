@@ -230,6 +230,10 @@ SCHEMA: dict[str, Spec] = {
     "regimen.extended_min_mg_per_kg": num("mg/kg", 0.0, 30.0),
     "regimen.choice_tie_rel": num("fraction", 0.0, 0.5),
     "regimen.min_hold_h": num("h", 0.0, 48.0),
+    "regimen.hold_above_mg_l": num("mg/L", 0.0, 100.0),
+    "regimen.min_interval_half_lives": num("half-lives", 0.0, 10.0),
+    "regimen.keep_interval_within_rel": num("fraction", 0.0, 1.0),
+    "regimen.time_grid_min": num("min", 0.0, 240.0),
     # ------------------------------------------------------------ loading and continuous infusion
     "loading.mg_per_kg": num("mg/kg", 0.0, 50.0),
     "loading.range_mg_per_kg": band("mg/kg", 0.0, 50.0),
@@ -250,6 +254,7 @@ SCHEMA: dict[str, Spec] = {
     "monitoring.trough_before_h": num("h", 0.0, 6.0),
     "monitoring.peak_after_end_h": num("h", 0.0, 6.0),
     "monitoring.steady_state_within_rel": num("fraction", 0.0, 0.5),
+    "monitoring.ward_hours": band("h of the day", 0.0, 24.0),
     # ------------------------------------------------------------ extended-interval aminoglycosides
     "extended.mg_per_kg": num("mg/kg", 0.0, 30.0),
     "extended.auc24": band("mg*h/L", 0.0, 300.0),
@@ -258,6 +263,7 @@ SCHEMA: dict[str, Spec] = {
     "extended.min_crcl_ml_min": num("mL/min", 0.0, 200.0),
     "extended.min_interval_h": num("h", 1.0, 168.0),
     "extended.excluded_conditions": names(),
+    "extended.keep_infusion": flag(),
     # ------------------------------------------------------------ nomogram
     "nomogram.window_h": band("h", 0.0, 48.0),
     "nomogram.q24_line": points("h, mg/L", 0.0, 100.0),

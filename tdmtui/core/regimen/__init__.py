@@ -22,6 +22,7 @@ candidate table for the UI. Modules:
 * targets.py - targets per mode with their source.
 * candidates.py - the grid, steady-state figures, the documented choice rule.
 * handover.py - next dose, hold, 72 h forecast, next levels.
+* timing.py, wardclock.py, practice.py - the hand-over on the grid and ward hours, skipped doses, hold limit, intervals by half-life.
 * loading.py - new-start and top-up loading doses.
 * nomogram.py, extended.py - Hartford nomogram and its entry checks.
 * continuous.py - continuous-infusion rate for a Css.

@@ -21,13 +21,17 @@ Choice rule (documented for the note):
        the trough band (low 0 = a ceiling only); ``extended`` AUC24 and peak
        in their bands where set, trough under the ceiling; ``continuous`` Css
        in band.
-    2. The current interval is kept when a candidate on target exists at it
-       (not for extended-interval dosing, whose interval follows from rule 2's
-       last sentence)
+    2. Intervals follow the half-life: only intervals from
+       ``regimen.min_interval_half_lives`` to ``regimen.max_interval_half_lives``
+       half-lives (the estimate's half-life, ln 2 x Vss / CL) are offered, as
+       the choice or an alternative, where one of them is on target (else every
+       interval on target; not for extended-interval dosing); the patient's
+       current interval is always weighed. The current interval is kept when a candidate on target at it lands within
+       ``regimen.keep_interval_within_rel`` of the band width of the middle
        (change the dose, keep the interval: common practice, pk-sources.md W5
-       step 6). Otherwise intervals up to ``regimen.max_interval_half_lives``
-       terminal half-lives are preferred where one is on target (a design
-       choice against long intervals with very large doses).
+       step 6); otherwise every allowed interval is weighed, so an AUC24 of
+       616 on 750 mg q12h becomes 1250 mg q24h (513) rather than 500 mg q12h
+       (411, the bottom of the band).
        Extended-interval dosing takes the shortest interval on target: the
        drug-free time sets the interval (pk-sources.md 2.4 and W4, tau from
        the time to fall under the trough target); without an AUC or peak
@@ -121,13 +125,14 @@ class Candidate:
                 "on_target": self.on_target, "distance": self.distance, "probability": self.probability}
 
 
-def infusion_time(dose: float, rules: Rules) -> float:
+def infusion_time(dose: float, rules: Rules, keep_h: float | None = None) -> float:
     """Infusion time, h: the rate limit and the minimum time, rounded up to the step.
 
     ``max(min_infusion_h, dose / max_rate)`` rounded up to ``infusion_step_h``
     (rate 0 = no limit). Vancomycin: no faster than 1 g/h (pk-sources.md 3.1).
+    ``keep_h`` (the patient's own infusion time) replaces the minimum time; the rate limit still holds.
     """
-    t = float(rules.value("regimen.min_infusion_h"))
+    t = float(rules.value("regimen.min_infusion_h")) if keep_h is None else float(keep_h)
     rate = float(rules.get("regimen.max_rate_mg_per_h", 0.0) or 0.0)
     if rate > 0:
         t = max(t, dose / rate)
@@ -222,14 +227,18 @@ def evaluate(params: PKParams, targets: Targets, dose: float, tau: float, tinf: 
 
 
 def search(params: PKParams, targets: Targets, rules: Rules, intervals: list[float],
-           dose_ref: float | None = None) -> list[Candidate]:
-    """Every practical candidate at the given intervals, judged (module docstring)."""
+           dose_ref: float | None = None, keep_infusion_h: float | None = None) -> list[Candidate]:
+    """Every practical candidate at the given intervals, judged (module docstring).
+
+    ``keep_infusion_h``: the patient's infusion time, kept wherever the rate limit allows it
+    (extended-interval dosing, ``extended.keep_infusion``).
+    """
     out: list[Candidate] = []
     for tau in intervals:
         doses = dose_grid(rules, tau)
         if doses.size == 0:
             continue
-        tinfs = np.array([infusion_time(d, rules) for d in doses])
+        tinfs = np.array([infusion_time(d, rules, keep_infusion_h) for d in doses])
         for tinf in np.unique(tinfs):
             if tinf > tau:
                 continue
@@ -244,17 +253,23 @@ def search(params: PKParams, targets: Targets, rules: Rules, intervals: list[flo
 
 
 def choose(cands: list[Candidate], current_interval: float | None, tie_rel: float,
-           shortest_first: bool = False, max_interval: float | None = None,
-           shortest_tie: bool = False) -> tuple[Candidate | None, list[Candidate]]:
-    """The chosen candidate and its alternatives (module docstring, rules 2-5)."""
+           shortest_first: bool = False, interval_band: tuple[float, float] | None = None,
+           shortest_tie: bool = False, keep_within: float = math.inf) -> tuple[Candidate | None, list[Candidate]]:
+    """The chosen candidate and its alternatives (module docstring, rules 2-5).
+
+    Args:
+        interval_band: (shortest, longest) interval in h the half-life allows, or None.
+        keep_within: the current interval is kept only when its best candidate's distance is at most this.
+    """
     on = [c for c in cands if c.on_target]
     if not on:
         return None, []
     same = [c for c in on if current_interval is not None and abs(c.interval_h - current_interval) < 1e-9]
-    pool = same
-    if not pool and max_interval is not None:
-        pool = [c for c in on if c.interval_h <= max_interval + 1e-9]
-    pool = pool or on
+    if interval_band is not None:
+        lo, hi = interval_band
+        allowed = [c for c in on if lo - 1e-9 <= c.interval_h <= hi + 1e-9 or c in same]
+        on = allowed or on
+    pool = same if same and min(c.distance for c in same) <= keep_within + 1e-12 else on
     if shortest_first:
         low = min(c.interval_h for c in pool)
         pool = [c for c in pool if c.interval_h == low]

@@ -12,8 +12,11 @@ Mode (how a regimen is judged, targets.py):
     dialysis, excluded condition; nomogram.exclusions).
 
 Action: ``continue`` when the standing order is predicted on target and
-under the caps; else ``change`` (candidates.py choice rule), or
-``hold-then-change`` when handover.py finds a hold. ``next_dose_at`` is the
+under the caps; else ``change`` (candidates.py choice rule: the middle of
+the band, intervals the half-life allows), or ``hold-then-change`` when the
+level due is above the library's hold limit (handover.py, practice.py).
+``skipped_doses`` names the standing order's doses left out before the first
+dose; times are on the protocol's grid (wardclock.py). ``next_dose_at`` is the
 first maintenance dose of the recommended regimen; a loading dose, when
 proposed, is at ``loading_dose.at`` (``as_of`` for a new start, else in place
 of the first dose, which then moves one interval on).
@@ -28,9 +31,9 @@ import numpy as np
 
 from tdmtui.core.alerts import Alert
 from tdmtui.core.models import steady_state
-from tdmtui.core.regimen import continuous, handover, loading, nomogram
+from tdmtui.core.regimen import continuous, handover, loading, nomogram, practice, timing, wardclock
 from tdmtui.core.regimen.candidates import (Candidate, choose, evaluate, infusion_time, judge, search,
-                                            table_probabilities, terminal_rate, with_draws)
+                                            table_probabilities, with_draws)
 from tdmtui.core.regimen.extended import nomogram_plan
 from tdmtui.core.regimen.targets import Targets, resolve_targets
 from tdmtui.core.regimen.types import Plan, RegimenInput
@@ -125,50 +128,27 @@ def _within_caps(c: Candidate, rules: Any) -> bool:
         c.daily_mg <= float(rules.value("regimen.max_daily_dose_mg")) + 1e-9
 
 
-def _timing(inp: RegimenInput, c: Candidate, continuing: bool, threshold: float) -> tuple[float, float | None, float]:
-    """(first maintenance dose h, hold_until h or None, t_due h) per handover.py."""
-    hist = inp.history
-    t_last = float(hist.start[-1]) if len(hist) else None
-    if t_last is None:
-        t_due = inp.as_of
-    elif continuing and inp.current:
-        t_due = t_last + inp.current.interval_h
-    elif c.infusion_h >= c.interval_h and inp.current:
-        # a continuous infusion starts when the standing order's next dose is due
-        t_due = t_last + inp.current.interval_h
-    else:
-        t_due = t_last + c.interval_h
-    t_due = max(t_due, inp.as_of)
-    held = None
-    if not continuing and inp.params is not None:
-        held = handover.hold(inp.params, hist, t_due, threshold, float(inp.rules.get("regimen.min_hold_h", 0.0)))
-    start = held if held is not None else t_due
-    if continuing and t_last is not None and t_due > inp.as_of:
-        return start, None, t_due
-    if c.infusion_h >= c.interval_h:
-        return start, held, t_due
-    return handover.align(start, handover.admin_times(inp.rules, c.interval_h), inp.clock), held, t_due
-
-
-def _threshold(c: Candidate, targets: Targets) -> float:
-    return max(c.trough, targets.trough_ceiling or 0.0)
-
-
 def _shape(inp: RegimenInput, c: Candidate, targets: Targets, mode: str, continuing: bool) -> dict[str, Any]:
     """The contract's regimen shape for one candidate (no loading dose)."""
-    first, held, _ = _timing(inp, c, continuing, _threshold(c, targets))
-    action = "continue" if continuing else ("hold-then-change" if held is not None else "change")
+    limit = practice.hold_limit(inp.rules, targets, c)
+    tm = timing.plan_timing(inp, c, continuing, limit)
+    action = "continue" if continuing else ("hold-then-change" if tm.held is not None else "change")
+    first = tm.first
     out: dict[str, Any] = {
         "action": action, "mode": mode, "dose_mg": c.dose_mg, "interval_h": c.interval_h, "infusion_h": c.infusion_h,
         "daily_dose_mg": c.daily_mg, "next_dose_at": inp.clock.format(first),
-        "hold_until": inp.clock.format(held) if held is not None else None, "loading_dose": None,
+        "hold_until": inp.clock.format(tm.held) if tm.held is not None else None, "loading_dose": None,
+        "skipped_doses": [inp.clock.format(t) for t in tm.skipped],
         "predicted": c.predicted(),
         "next_levels": handover.next_levels(inp.rules, targets, mode, inp.option or inp.method, first, c.interval_h,
-                                            c.infusion_h, inp.clock),
+                                            c.infusion_h, inp.clock, continuing),
     }
+    if tm.held is not None and limit is not None:
+        out["hold_level_mg_l"] = limit
     if mode == "continuous":
         out.update(continuous.describe(c))
     out["_first"] = first
+    out["_nearer"] = tm.nearer
     return out
 
 
@@ -209,7 +189,8 @@ def search_candidates(inp: RegimenInput, targets: Targets, mode: str) -> list[Ca
     assert inp.params is not None
     if mode == "continuous":
         return continuous.candidates(inp.params, targets, inp.rules)
-    return search(inp.params, targets, inp.rules, _intervals(inp, mode), _dose_ref(inp, mode))
+    return search(inp.params, targets, inp.rules, _intervals(inp, mode), _dose_ref(inp, mode),
+                  practice.kept_infusion(inp, mode))
 
 
 def finish(inp: RegimenInput, targets: Targets, mode: str, plan: Plan, cands: list[Candidate],
@@ -223,13 +204,12 @@ def finish(inp: RegimenInput, targets: Targets, mode: str, plan: Plan, cands: li
             row["probability"] = prob
     current = _current(inp, targets, mode)
     tie = float(rules.get("regimen.choice_tie_rel", 0.0))
-    span = rules.get("regimen.max_interval_half_lives")
-    longest = float(span) * math.log(2.0) / terminal_rate(params) if span and mode != "extended" else None
     banded = bool(targets.auc24 or targets.peak)
     keep = inp.current.interval_h if inp.current and mode != "extended" else None
     best, alts = choose(cands, keep, tie,
-                        shortest_first=mode == "extended" and banded, max_interval=longest,
-                        shortest_tie=mode == "extended" and not banded)
+                        shortest_first=mode == "extended" and banded, interval_band=practice.interval_band(rules, params, mode),
+                        shortest_tie=mode == "extended" and not banded,
+                        keep_within=float(rules.get("regimen.keep_interval_within_rel", math.inf)))
     continuing = False
     if fixed is not None:
         chosen = fixed
@@ -266,7 +246,7 @@ def finish(inp: RegimenInput, targets: Targets, mode: str, plan: Plan, cands: li
         chosen = with_draws(chosen, inp.samples, targets, dref)
         alts = [with_draws(a, inp.samples, targets, dref) for a in alts]
     reg = _shape(inp, chosen, targets, mode, continuing)
-    first = reg.pop("_first")
+    first, nearer = reg.pop("_first"), reg.pop("_nearer")
     if current is not None:
         reg["current_predicted"] = current.predicted()
         reg["current_on_target"] = current.on_target
@@ -274,6 +254,7 @@ def finish(inp: RegimenInput, targets: Targets, mode: str, plan: Plan, cands: li
     for a in alts:
         shaped = _shape(inp, a, targets, mode, False)
         shaped.pop("_first")
+        shaped.pop("_nearer")
         reg["alternatives"].append(shaped)
     if extra:
         reg.update(extra)
@@ -290,16 +271,22 @@ def finish(inp: RegimenInput, targets: Targets, mode: str, plan: Plan, cands: li
         reg["next_dose_at"] = inp.clock.format(first)
         reg["next_levels"] = handover.next_levels(rules, targets, mode, inp.option or inp.method, first, chosen.interval_h,
                                                   chosen.infusion_h, inp.clock)
+        reg["skipped_doses"] = [inp.clock.format(t) for t in wardclock.skipped(
+            float(inp.history.start[-1]) if len(inp.history) else None,
+            inp.current.interval_h if inp.current else None, inp.as_of, t_load)]
     until = inp.as_of + handover.FORECAST_H
     ld_tuple = (t_load, ld.dose_mg, ld_tinf) if load is not None else None
     plan.doses = handover.proposed_doses(first, chosen.dose_mg, chosen.interval_h, chosen.infusion_h, until, ld_tuple)
     times, conc, aucs = handover.forecast(params, inp.history, plan.doses, inp.as_of)
     plan.forecast = (times, conc)
     reg["forecast_auc"] = {"from": inp.clock.format(inp.as_of), **aucs}
+    if load is None:
+        timing.alignment_gap(inp, targets, chosen, reg, first, nearer, aucs["day1_mg_h_per_l"], alerts)
     reg["choice_rule"] = ("continue: the standing order is predicted on target" if continuing else
-                          "practical candidate on target nearest the middle of the band, at the current interval where "
-                          "one is on target (extended-interval: the shortest interval on target); ties to fewer doses "
-                          "a day (regimen/candidates.py)")
+                          "practical candidate on target nearest the middle of the band, at intervals the half-life "
+                          "allows, at the current interval only where a dose there lands near the middle "
+                          "(extended-interval: the shortest interval on target); ties to fewer doses a day "
+                          "(regimen/candidates.py)")
     plan.regimen = reg
     return plan
 

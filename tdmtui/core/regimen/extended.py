@@ -22,7 +22,8 @@ from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any
 
 from tdmtui.core.alerts import Alert, has_stop
-from tdmtui.core.regimen import handover, nomogram
+from tdmtui.core.regimen import handover, nomogram, wardclock
+from tdmtui.core.regimen.practice import kept_infusion
 from tdmtui.core.regimen.candidates import infusion_time
 
 if TYPE_CHECKING:
@@ -66,7 +67,7 @@ def nomogram_plan(inp: RegimenInput, targets: Targets, plan: Plan) -> ChartOrder
                                  f"nomogram entry check failed: no nomogram for {rules.drug} in the library or the local protocol"))
         return None
     dose = nomogram.extended_dose(rules, inp.dosing_weight_kg)
-    tinf = infusion_time(dose, rules)
+    tinf = infusion_time(dose, rules, kept_infusion(inp, "extended"))
     if not inp.doses:
         stops = nomogram.exclusions(rules, inp.crcl_ml_min, inp.renal_replacement, inp.conditions)
         plan.alerts.extend(Alert(nomogram.CODE, "stop", f, f"nomogram entry check failed: {m}") for f, m in stops)
@@ -106,14 +107,19 @@ def _without_estimate(inp: RegimenInput, targets: Targets, plan: Plan, dose: flo
     """The chart's regimen when no kinetic estimate exists: no predictions, no hold."""
     hist = inp.history
     t_due = float(hist.start[-1]) + interval if len(hist) else inp.as_of
-    first = handover.align(max(t_due, inp.as_of), handover.admin_times(inp.rules, interval), inp.clock)
     cur = inp.current
     same = cur is not None and abs(cur.dose_mg - dose) < 1e-6 and abs(cur.interval_h - interval) < 1e-6
+    start = t_due if same and t_due > inp.as_of else wardclock.to_grid(max(t_due, inp.as_of), inp.rules, inp.clock, "up")
+    first = handover.align(start, handover.admin_times(inp.rules, interval), inp.clock)
+    gone = [] if same else wardclock.skipped(float(hist.start[-1]) if len(hist) else None,
+                                             cur.interval_h if cur else None, inp.as_of, first)
     plan.regimen = {
         "action": "continue" if same else "change", "mode": "extended", "dose_mg": dose, "interval_h": interval,
         "infusion_h": tinf, "daily_dose_mg": dose * 24.0 / interval, "next_dose_at": inp.clock.format(first),
         "hold_until": None, "loading_dose": None, "predicted": {},
-        "next_levels": handover.next_levels(inp.rules, targets, "extended", inp.option or inp.method, first, interval, tinf, inp.clock),
+        "skipped_doses": [inp.clock.format(t) for t in gone],
+        "next_levels": handover.next_levels(inp.rules, targets, "extended", inp.option or inp.method, first, interval,
+                                            tinf, inp.clock, same),
         "alternatives": [], **extra,
     }
     plan.doses = handover.proposed_doses(first, dose, interval, tinf, inp.as_of + handover.FORECAST_H)

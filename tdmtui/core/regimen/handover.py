@@ -3,27 +3,40 @@
 Rules (each number is library or protocol data):
 
 * **Next dose.** Continuing: the next dose of the standing order, one
-  current interval after the last dose started. Changing: one *new*
-  interval after the last dose started (the textbook hand-over, pk-sources.md
-  W3 step 7), never before ``as_of``; a new start: ``as_of``. The time is
-  then moved to the next of the protocol's standard administration times
-  (``regimen.admin_times``: a list of ``"HH:MM"``, or a table keyed by
-  interval hours) where the protocol has them.
-* **Hold.** When the concentration predicted from the real history at that
-  time is above the new regimen's steady-state trough (or above the trough
-  ceiling, whichever is higher), ``hold_until`` is the time the curve falls to
-  it (:func:`tdmtui.core.models.time_to_fall`) and the next dose is the first
-  administration time at or after it.
+  current interval after the last dose started (its own clock time).
+  Changing: one *new* interval after the last dose started (the textbook
+  hand-over, pk-sources.md W3 step 7), never before ``as_of``; a new start:
+  ``as_of``. The time is moved later to the protocol's time grid
+  (``regimen.time_grid_min``, wardclock.py), then to the next of the
+  protocol's standard administration times (``regimen.admin_times``: a list
+  of ``"HH:MM"``, or a table keyed by interval hours) where the protocol has
+  them. When that alignment leaves the AUC of the next 24 h under the AUC
+  target while the nearer time would give more, the design warns
+  (``alignment-gap``) and offers the nearer time (``nearer_start``).
+* **Hold** (the rule the note's hold rests on). The next dose is held only
+  when the level predicted from the real history at its due time is above
+  the hold limit: ``regimen.hold_above_mg_l`` (vancomycin 20 mg/L,
+  aminoglycosides their trough ceiling; library, with source), or the
+  target's trough ceiling where that is lower (extended-interval 1 mg/L,
+  synergy 1 mg/L). ``hold_until`` is when the curve falls to that limit
+  (:func:`tdmtui.core.models.time_to_fall`), moved later to the grid; a hold
+  shorter than ``regimen.min_hold_h`` is none. A continuous rate waits for
+  the level to fall to its own Css. A level slightly above target (AUC24 616
+  for 400-600 with a level of 20 mg/L) is therefore a dose change, not a hold.
+* **Skipped doses.** ``skipped_doses`` lists the standing order's doses due
+  from ``as_of`` up to the new first dose (held, or dropped by a longer
+  interval timed from the last dose), so the note names them by clock time.
 * **Forecast.** The proposed doses superposed on the real history from the
   first dose to ``as_of`` + 72 h, with the exact AUC of the next 0-24 h and
   24-48 h from ``as_of`` (pk-sources.md 2.2).
-* **Next levels.** ``monitoring.levels`` maps ``mode/method`` (or ``mode``)
-  to a list of draws: ``["peak", n]`` at the peak draw time after dose n of
+* **Next levels.** ``monitoring.levels`` maps ``mode/continue`` (a regimen
+  continued on target), ``mode/method`` or ``mode`` to a list of draws: ``["peak", n]`` at the peak draw time after dose n of
   the new regimen (vancomycin ``monitoring.peak_after_end_h`` after the end of
   infusion; aminoglycosides the target's peak reference time), ``["trough",
   n]`` ``monitoring.trough_before_h`` before dose n, ``["at", n, h]`` h after
   the start of dose n. Doses are numbered from the first maintenance dose of
-  the new regimen (1).
+  the new regimen (1). Draws go on the grid (troughs earlier, peaks later)
+  and into ward hours (``monitoring.ward_hours``, wardclock.py).
 """
 
 from __future__ import annotations
@@ -34,6 +47,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from tdmtui.core.models import DoseArrays, PKParams, auc, concentration, time_to_fall
+from tdmtui.core.regimen import wardclock
 
 if TYPE_CHECKING:
     from tdmtui.core.clock import Clock
@@ -120,39 +134,51 @@ def forecast(params: PKParams, history: DoseArrays, plan: DoseArrays, as_of: flo
     return grid, conc, aucs
 
 
-def level_plan(rules: Rules, targets: Targets, mode: str, method: str) -> list[list[Any]]:
-    """The draw list for this mode and method from ``monitoring.levels``."""
+def level_plan(rules: Rules, targets: Targets, mode: str, method: str, continuing: bool = False) -> list[list[Any]]:
+    """The draw list for this mode and method from ``monitoring.levels`` (``mode/continue`` when continuing)."""
     table = rules.get("monitoring.levels", {}) or {}
-    for key in (f"{mode}/{method}", mode, "default"):
+    keys = ([f"{mode}/continue"] if continuing else []) + [f"{mode}/{method}", mode, "default"]
+    for key in keys:
         if key in table:
             return [list(x) for x in table[key]]
     return []
 
 
-def next_levels(rules: Rules, targets: Targets, mode: str, method: str, first: float, tau: float,
-                tinf: float, clock: Clock) -> list[dict[str, Any]]:
-    """Next levels in clock time, each tied to a named dose of the new regimen."""
-    out: list[dict[str, Any]] = []
+def _draw(rules: Rules, targets: Targets, mode: str, item: list[Any], first: float, tau: float,
+          tinf: float, clock: Clock) -> tuple[float, dict[str, Any]]:
+    """One planned draw: (time h, its row), on the protocol's grid (wardclock.py)."""
     before = float(rules.get("monitoring.trough_before_h", 0.5))
-    for item in level_plan(rules, targets, mode, method):
-        kind, n = str(item[0]), int(item[1])
-        start = first + (n - 1) * tau
-        if kind == "trough":
-            at = start - before
-            where = f"{before * 60:.0f} min before dose {n} of the new regimen"
-        elif kind == "peak":
-            if "monitoring.peak_after_end_h" in rules:
-                after = float(rules.value("monitoring.peak_after_end_h"))
-                at = start + tinf + after
-                where = f"{after:g} h after the end of dose {n} of the new regimen"
-            else:
-                at = start + targets.peak_time(tinf)
-                where = f"{targets.peak_time(tinf):g} h after the start of dose {n} of the new regimen"
+    kind, n = str(item[0]), int(item[1])
+    start = first + (n - 1) * tau
+    if kind == "trough":
+        at = wardclock.to_grid(start - before, rules, clock, "down")
+        where = f"{(start - at) * 60:.0f} min before dose {n} of the new regimen"
+    elif kind == "peak":
+        if "monitoring.peak_after_end_h" in rules:
+            after = float(rules.value("monitoring.peak_after_end_h"))
+            at = wardclock.to_grid(start + tinf + after, rules, clock, "up")
+            where = f"{_h(at - start - tinf)} h after the end of dose {n} of the new regimen"
         else:
-            h = float(item[2])
-            at = start + h
-            kind = "random" if mode != "continuous" else "steady-state"
-            where = f"{h:g} h after the start of dose {n} of the new regimen"
-        out.append({"at": clock.format(at), "kind": kind,
-                    "dose": f"dose {n} ({clock.format(start)}): {where}"})
-    return out
+            at = wardclock.to_grid(start + targets.peak_time(tinf), rules, clock, "up")
+            where = f"{_h(at - start)} h after the start of dose {n} of the new regimen"
+    else:
+        at = wardclock.to_grid(start + float(item[2]), rules, clock, "nearest")
+        kind = "random" if mode != "continuous" else "steady-state"
+        where = f"{_h(at - start)} h after the start of dose {n} of the new regimen"
+    return at, {"at": clock.format(at), "kind": kind, "dose": f"dose {n} ({clock.format(start)}): {where}"}
+
+
+def _h(x: float) -> str:
+    return f"{round(x * 60.0) / 60.0:.2f}".rstrip("0").rstrip(".")
+
+
+def next_levels(rules: Rules, targets: Targets, mode: str, method: str, first: float, tau: float,
+                tinf: float, clock: Clock, continuing: bool = False) -> list[dict[str, Any]]:
+    """Next levels in clock time, each tied to a named dose of the new regimen, in ward hours (wardclock.py)."""
+    plan = level_plan(rules, targets, mode, method, continuing)
+    if not plan:
+        return []
+    options = wardclock.arrangements(plan, tau)
+    drawn = [[_draw(rules, targets, mode, item, first, tau, tinf, clock) for item in opt] for opt in options]
+    best = drawn[wardclock.pick([[t for t, _ in d] for d in drawn], rules, clock)]
+    return [row for _, row in sorted(best, key=lambda x: x[0])]

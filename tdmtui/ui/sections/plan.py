@@ -49,6 +49,9 @@ def summary_lines(result: dict[str, Any]) -> str:
     lines = [f"Proposal: {reg.get('action', '?').upper()}  {fm.qty(reg.get('dose_mg'), 'dose_mg')} every "
              f"{fm.qty(reg.get('interval_h'), 'interval_h')} over {fm.qty(reg.get('infusion_h'), 'infusion_h')}"]
     lines.append(f"Next dose: {reg.get('next_dose_at') or '-'}   Hold until: {reg.get('hold_until') or 'no hold'}")
+    if reg.get("skipped_doses"):
+        lines.append(("Hold" if reg.get("hold_until") else "Not given") + " (standing order): "
+                     + ", ".join(str(x) for x in reg["skipped_doses"]))
     ld = reg.get("loading_dose")
     lines.append("Loading dose: " + (f"{fm.qty(ld.get('dose_mg'), 'dose_mg')} over {fm.qty(ld.get('infusion_h'), 'infusion_h')}"
                                      f" at {ld.get('at', '-')}" if ld else "none"))
