@@ -31,7 +31,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from tdmtui import __version__
-from tdmtui.core import checks, course, limits, methods, registry
+from tdmtui.core import checks, course, limits, methods, registry, renalplan
 from tdmtui.core.alerts import Alert, has_stop
 from tdmtui.core.case import Case, parse_case
 from tdmtui.core.context import MethodContext, history_of
@@ -198,6 +198,7 @@ def compute(case: Case, protocol: Protocol | None = None, method: str | None = N
         "levels": methods.level_table(ctx),
         "timing_sensitivity": sens_rows,
     })
+    _dialysis_summary(case, rules, result)
     outcome = Outcome(case, result, est.params, history, working=list(est.working), renal=renal,
                       estimates=estimates, rules=rules)
     if has_stop(alerts):
@@ -205,7 +206,7 @@ def compute(case: Case, protocol: Protocol | None = None, method: str | None = N
     else:
         if option is not None and option != chosen:
             alerts.append(_auto_option_alert(option, est))
-        plan = methods.attach_regimen(ctx, est, base)
+        plan = renalplan.adjust(ctx, est, base, methods.attach_regimen(ctx, est, base))
         result["regimen"] = plan.regimen
         result["target"] = plan.targets
         result["sources"].update(plan.sources)
@@ -223,6 +224,14 @@ def compute(case: Case, protocol: Protocol | None = None, method: str | None = N
     result["working"] = [w.to_dict() for w in est.working]
     outcome.alerts = alerts
     return outcome
+
+
+def _dialysis_summary(case: Case, rules: Rules, result: dict[str, Any]) -> None:
+    from tdmtui.core.dialysis import summary
+
+    found = summary(case, rules)
+    if found is not None:
+        result["dialysis"] = found
 
 
 def _header(case: Case, protocol: Protocol | None, renal: RenalSummary, rules: Rules, cur: CurrentRegimen | None) -> dict[str, Any]:
@@ -263,6 +272,7 @@ def _stopped(case: Case, protocol: Protocol | None, rules: Rules, renal: RenalSu
     result.update({"status": "stop", "method": None, "estimate": None, "methods": methods_out,
                    "methods_unavailable": failures, "levels": methods.level_table(ctx),
                    "warnings": [a.to_dict() for a in alerts], "working": []})
+    _dialysis_summary(case, rules, result)
     return Outcome(case, result, None, ctx.history, alerts=alerts, renal=renal, rules=rules)
 
 

@@ -112,6 +112,10 @@ def regimen_lines(outcome: Any, reg: dict[str, Any] | None, picked: bool,
         why = ("a stop-level warning stands" if res.get("status") == "stop"
                else "the regimen designer gave none for this case")
         return lines + f.wrap(f"No regimen proposed: {why} (see Warnings).")
+    if reg.get("mode") in ("dialysis", "redose-by-level"):
+        from tdmtui.core.renalplan import plan_words
+
+        return lines + [x for text in plan_words(reg) for x in f.wrap(text)]
     verb = {"continue": "continue", "change": "change to", "hold-then-change": "hold, then change to"}
     act = verb.get(reg.get("action", ""), reg.get("action", ""))
     daily = f" ({f.mg(reg['daily_dose_mg'])} mg a day)" if reg.get("daily_dose_mg") else ""
