@@ -311,8 +311,10 @@ def _averaged(ctx: MethodContext, fitted: list, est: dict[str, Estimate]) -> tup
     extra: dict[str, Any] = {"diagnostics": {"residuals": residuals, "flags": [a.to_dict() for a in flags]}}
     if "renal_course" in first.extra:
         extra["renal_course"] = first.extra["renal_course"]
-    e = Estimate("bayesian", params, [lv.index for lv in levels], steps,
-                 f"model average of {len(members)} population model(s) with {len(levels)} level(s)",
+    said = f"model average of {len(members)} population model(s) with {len(levels)} level(s)"
+    if "renal_course" in first.extra:
+        said += "; clearance follows each dated SCr, the forecast uses the latest CrCl"
+    e = Estimate("bayesian", params, [lv.index for lv in levels], steps, said,
                  model=model_info, interval90=interval90, target_probability=prob, samples=mix, extra=extra)
     return e, flags
 
