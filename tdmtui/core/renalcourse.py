@@ -141,3 +141,64 @@ def build_course(schedule: RenalSchedule | None, typical: Typical,
         inside = use_sessions and any(a < t <= b for a, b in sessions)
         added.append(session_cl_l_h if inside else 0.0)
     return Course(tuple(edges), tuple(params), tuple(added))
+
+
+#: The classic methods and what renal function means for each.
+_CLASSIC = {
+    "two-level": "the levels alone give ke (CrCl does not enter)",
+    "sawchuk-zaske": "the levels alone give ke (CrCl does not enter)",
+    "least-squares": "the levels alone give ke (CrCl does not enter)",
+    "one-level": "one level and the population volume give ke (CrCl does not enter)",
+    "one-level-steady-state": "one level and the population volume give ke (CrCl does not enter)",
+    "continuous-steady-state": "the steady-state level gives CL (CrCl does not enter)",
+    "population": "the population ke comes from the latest CrCl",
+}
+
+
+def classic_note(ctx: Any, method: str, est: Any) -> None:
+    """Say, on a classic method's estimate, which CrCl held over which interval and what the method did
+    with it (one ke over the whole history; the forecast uses the estimate as it stands now)."""
+    if method not in _CLASSIC:
+        return
+    steps = steps_of(ctx.case)
+    if not steps:
+        return
+    r = ctx.renal
+    clock = ctx.case.clock
+    floor = float(ctx.rules.value("renal.scr_floor_mg_dl"))
+    rows = []
+    for i, s in enumerate(steps):
+        # Cockcroft-Gault is inversely proportional to SCr (pk-sources.md 1.1): the headline CrCl rescaled
+        used = max(s.scr_mg_dl, floor)
+        until = steps[i + 1].time if i + 1 < len(steps) else None
+        rows.append({"from": None if i == 0 else clock.format(s.time),
+                     "until": None if until is None else clock.format(until), "scr_mg_dl": s.scr_mg_dl,
+                     "scr_field": s.field, "crcl_ml_min": r.crcl_ml_min * r.scr_used_mg_dl / used})
+    times = [lv.time for lv in ctx.case.levels if lv.index in est.levels_used]
+    fmt = lambda t: clock.format(t).replace("T", " ")  # noqa: E731
+    when = (f"; the levels were drawn {fmt(min(times))} to {fmt(max(times))}: the estimate describes renal "
+            "function then" if times and method != "population" else "")
+    est.extra["renal_course"] = rows
+    est.extra["renal_note"] = f"{_CLASSIC[method]}, one ke for the whole history{when}"
+
+
+def note_lines(result: dict[str, Any]) -> list[str]:
+    """Sentences for the chart note: CrCl per interval, what the fit did with it, the fixed fit beside."""
+    est = result.get("estimate") or {}
+    rows = est.get("renal_course")
+    if not rows:
+        return []
+    parts = []
+    for r in rows:
+        span = (f"until {r['until']}" if r["from"] is None else
+                f"from {r['from']}" if r["until"] is None else f"{r['from']} to {r['until']}")
+        parts.append(f"{r['crcl_ml_min']:.0f} {span.replace('T', ' ')} (SCr {r['scr_mg_dl']:.2f})")
+    how = est.get("renal_note") or ("clearance followed each value, held from its draw until the next; "
+                                    "the forecast and the regimen use the latest")
+    out = [f"Renal function over the course, CrCl mL/min: {'; '.join(parts)}. {how[0].upper() + how[1:]}."]
+    fixed = (result.get("methods") or {}).get("bayesian:fixed-renal")
+    if fixed and str(est.get("method", "")).startswith("bayesian"):
+        auc = (fixed.get("current") or {}).get("auc24_mg_h_per_l")
+        out.append(f"Fitted as if the latest CrCl had held throughout: CL {fixed['cl_l_per_h']:.2f} L/h"
+                   + (f", AUC24 now {auc:.0f} mg*h/L" if auc else "") + " (the estimate above follows each SCr).")
+    return out
