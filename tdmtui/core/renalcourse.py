@@ -186,8 +186,9 @@ def note_lines(result: dict[str, Any]) -> list[str]:
     """Sentences for the chart note: CrCl per interval, what the fit did with it, the fixed fit beside."""
     est = result.get("estimate") or {}
     rows = est.get("renal_course")
-    if not rows:
-        return []
+    unstable = any(w.get("code") == "scr-unstable" for w in result.get("warnings") or [])
+    if not rows or not (unstable or str(est.get("method", "")).startswith(("bayesian", "population"))):
+        return []  # a classic method's estimate with stable renal function: nothing for the chart
     parts = []
     for r in rows:
         span = (f"until {r['until']}" if r["from"] is None else
