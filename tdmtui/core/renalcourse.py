@@ -203,3 +203,24 @@ def note_lines(result: dict[str, Any]) -> list[str]:
         out.append(f"Fitted as if the latest CrCl had held throughout: CL {fixed['cl_l_per_h']:.2f} L/h"
                    + (f", AUC24 now {auc:.0f} mg*h/L" if auc else "") + " (the estimate above follows each SCr).")
     return out
+
+
+#: Methods that fit one ke to several levels.
+_ONE_KE = ("two-level", "sawchuk-zaske", "least-squares")
+
+
+def straddle_reason(ctx: Any, method: str, est: Any) -> str | None:
+    """Why a one-ke method's estimate is withheld: its levels lie either side of a change in renal
+    function (an SCr that raised ``scr-unstable``), so no single ke describes them; else None."""
+    if method not in _ONE_KE:
+        return None
+    by_field = {s.field: s.time for s in ctx.case.patient.scr}
+    changes = [by_field.get(a.field) for a in ctx.renal.alerts if a.code == "scr-unstable"]
+    times = [lv.time for lv in ctx.case.levels if lv.index in est.levels_used]
+    if len(times) < 2:
+        return None
+    for t in changes:
+        if t is not None and min(times) < t < max(times):
+            return (f"the levels lie either side of a change in renal function (SCr at "
+                    f"{ctx.case.clock.format(t)}): one ke cannot describe both; the Bayesian fit follows each SCr")
+    return None
