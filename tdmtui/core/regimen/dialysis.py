@@ -88,8 +88,11 @@ def design(inp: RegimenInput, sp: SessionPlan, targets_dict: dict[str, Any], sou
     """Doses after each upcoming session (module docstring)."""
     rules, clock = inp.rules, inp.clock
     band = tuple(float(x) for x in rules.value("dialysis.pre_dialysis_target_mg_l"))
-    plan = Plan(regimen=None, targets={**targets_dict, "pre_dialysis_mg_per_l": list(band)},
-                sources={**sources, "pre_dialysis_target": _src(rules, "dialysis.pre_dialysis_target_mg_l")})
+    key = "dialysis.pre_dialysis_target_mg_l"
+    targets = {"mode": MODE, "mic_mg_per_l": targets_dict.get("mic_mg_per_l"), "pre_dialysis_mg_per_l": list(band),
+               "sources": {"pre": _src(rules, key)}, "citations": {"pre": rules.citation(key)}}
+    plan = Plan(regimen=None, targets=targets, sources={**sources, "target": _src(rules, key),
+                                                        "pre_dialysis_target": _src(rules, key)})
     if inp.params is None:
         plan.alerts.append(Alert("regimen-no-estimate", "caution", "", "no estimate of the patient's kinetics: "
                                                                       "no regimen designed"))
