@@ -8,11 +8,12 @@ at each SCr time. Patients and courses are invented.
 
 from __future__ import annotations
 
+import json
 import math
 
 import numpy as np
 import pytest
-from casedata import base_case
+from casedata import SAMPLES, base_case
 from ode_reference_tv import ode_reference_tv
 
 from tdmtui.core import bayes, popmodels, renalcourse
@@ -138,3 +139,22 @@ def test_a_scr_after_as_of_is_not_followed() -> None:
     steps = renalcourse.steps_of(parse_case(c))
     assert steps[-1].scr_mg_dl == pytest.approx(1.9)
     assert math.isclose(len(steps), 3)
+
+
+def test_one_ke_methods_are_withheld_when_their_levels_straddle_an_unstable_change() -> None:
+    # Sample: troughs 15.8 and 30.9 mg/L either side of a rise 0.8 -> 1.6 mg/dL; a single ke from two troughs
+    # that RISE while the doses stay the same would mean a half-life of days (ln(15.8/30.9) < 0 between troughs).
+    out = compute(parse_case(json.loads((SAMPLES / "vanc-aki-levels-after.json").read_text())))
+    assert "two-level" not in out.result["methods"] and out.result["method"] == "bayesian"
+    assert "either side of a change in renal function" in out.result["methods_unavailable"]["two-level"]
+    assert len(out.result["estimate"]["renal_course"]) == 3
+    # the levels were computed from Thomson 2009 with CL following each SCr, CL 14 % below typical:
+    # the averaged fit that follows each SCr lands nearer that truth than the averaged fit with the latest CrCl
+    # held throughout (both averages of the same models)
+    model = popmodels.get_model("vancomycin-thomson-2009")
+    typical = model.typical(popmodels.Covariates(72.0, "female", 68.0, 165.0, 1.6)).params.cl
+    truth = typical * math.exp(-0.15)
+    tv = out.result["estimate"]["cl_l_per_h"]
+    fixed = out.result["methods"]["bayesian:fixed-renal"]["cl_l_per_h"]
+    assert abs(tv - truth) < abs(fixed - truth)
+    assert tv == pytest.approx(truth, rel=0.20)
