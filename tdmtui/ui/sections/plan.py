@@ -56,7 +56,8 @@ def summary_lines(result: dict[str, Any]) -> str:
         from tdmtui.core.renalplan import plan_words
 
         nl = reg.get("next_levels") or []
-        return "\n".join(plan_words(reg) + ["Next levels: " + "; ".join(f"{x.get('kind')} {x.get('at')}" for x in nl)])
+        return "\n".join(plan_words(reg) + ["Next levels: " + "; ".join(f"{x.get('kind')} {x.get('at')}" for x in nl)]
+                         + session_lines(result))
     lines = [f"Proposal: {reg.get('action', '?').upper()}  {fm.qty(reg.get('dose_mg'), 'dose_mg')} every "
              f"{fm.qty(reg.get('interval_h'), 'interval_h')} over {fm.qty(reg.get('infusion_h'), 'infusion_h')}"]
     lines.append(f"Next dose: {reg.get('next_dose_at') or '-'}   Hold until: {reg.get('hold_until') or 'no hold'}")
@@ -66,6 +67,17 @@ def summary_lines(result: dict[str, Any]) -> str:
     nl = reg.get("next_levels") or []
     lines.append("Next levels: " + ("; ".join(f"{x.get('kind')} {x.get('at')}" for x in nl) if nl else "none proposed"))
     return "\n".join(lines)
+
+
+def session_lines(result: dict[str, Any]) -> list[str]:
+    """The dialysis sessions recorded and planned, one line each kind (edited in the case file)."""
+    d = result.get("dialysis")
+    if not d:
+        return []
+    span = lambda s: f"{fm.short_time(s['start'])}-{s['end'][11:16]}"  # noqa: E731
+    done = ", ".join(span(s) for s in d.get("sessions", [])) or "none"
+    plan = ", ".join(span(s) for s in d.get("plan_sessions", [])) or "none"
+    return [f"Sessions done: {done}.", f"Sessions to come{' (repeated from last week)' if d.get('plan_sessions_projected') else ''}: {plan}."]
 
 
 class PlanSection(Vertical):
