@@ -3,6 +3,7 @@
 Run: /work/venv/bin/python bench/run_all.py [--quick] [--reps N]
 
 1. Runs each ``bench/bench_*.py`` in its own process and prints its output
+   (bench_renal.py: renal function falling during the course, time-varying vs fixed fit)
    (``--quick`` passes smaller repetition counts to the ones that take them).
 2. Times, itself, and prints one table (medians of wall-clock time):
    two-level solve, MAP fit, MAP fit with uncertainty (2,000 draws: 90 %
@@ -35,7 +36,8 @@ sys.path.insert(0, str(BENCH))
 from timing import median_seconds  # noqa: E402
 
 #: smaller arguments for --quick, for the benches that take them
-QUICK_ARGS = {"bench_bayes.py": ["--patients", "60", "--reps", "30"], "bench_regimen.py": ["--reps", "10"]}
+QUICK_ARGS = {"bench_bayes.py": ["--patients", "60", "--reps", "30"], "bench_regimen.py": ["--reps", "10"],
+              "bench_renal.py": ["--patients", "200"]}
 
 
 def median_ms(fn: Callable[[], object], reps: int, warm: int = 1) -> float:

@@ -102,11 +102,35 @@ def _stencil(p: int, h: float) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     return h * np.vstack(pts), grad, hess.reshape(p * p, n)
 
 
-class Posterior:
-    """-2 log posterior of eta (up to a constant), for batches of eta."""
+@dataclass(frozen=True)
+class Course:
+    """Typical parameters that change during the course (renal function, dialysis sessions).
 
-    def __init__(self, model: PopModel, typical: Typical, doses: DoseArrays, obs: Observations) -> None:
-        self.model, self.obs = model, obs
+    Attributes:
+        changes: (s - 1,) strictly increasing times h at which a new piece starts.
+        params: (s,) typical PKParams per piece (the last: now).
+        added_cl: (s,) L/h added to the individual's clearance in each piece (a dialysis
+            session's removal where the library or protocol gives one; else 0).
+    """
+
+    changes: tuple[float, ...]
+    params: tuple[PKParams, ...]
+    added_cl: tuple[float, ...]
+
+
+class Posterior:
+    """-2 log posterior of eta (up to a constant), for batches of eta.
+
+    With a :class:`Course`, predictions follow the typical values piece by piece
+    (the same eta in every piece; :mod:`tdmtui.core.models.timevarying`); ``params``
+    gives the latest piece (the forecast's).
+    """
+
+    def __init__(self, model: PopModel, typical: Typical, doses: DoseArrays, obs: Observations,
+                 course: Course | None = None) -> None:
+        self.model, self.obs, self.doses, self.course = model, obs, doses, course
+        if course is not None:
+            self.log_pieces = np.log([[getattr(p, f) for f in model.param_names] for p in course.params])
         self.log_tv = np.log([getattr(typical.params, f) for f in model.param_names])
         self.eta_map = np.eye(len(model.param_names))[:, [model.param_names.index(n) for n in model.eta_names]]
         self.omega_inv = np.linalg.inv(model.omega)
@@ -119,6 +143,27 @@ class Posterior:
         p = np.exp(self.log_tv[:, None] + self.eta_map @ eta.T)  # (parameters, m), rows contiguous
         return list(p) if len(p) == 4 else [p[0], p[1], np.zeros(p.shape[1]), np.zeros(p.shape[1])]
 
+    def piece_params(self, eta: np.ndarray) -> list[np.ndarray]:
+        """Per-piece parameter arrays (cl, v1, q, v2), each (m, s), for a course."""
+        assert self.course is not None
+        p = np.exp(self.log_pieces[None, :, :] + (self.eta_map @ eta.T).T[:, None, :])  # (m, s, P)
+        cl = p[:, :, 0] + np.asarray(self.course.added_cl)[None, :]
+        if p.shape[2] == 4:
+            return [cl, p[:, :, 1], p[:, :, 2], p[:, :, 3]]
+        return [cl, p[:, :, 1], np.zeros_like(cl), np.zeros_like(cl)]
+
+    def predict(self, eta: np.ndarray, t: np.ndarray | None = None, doses: DoseArrays | None = None) -> np.ndarray:
+        """Concentrations (m, n) at the levels' times (or ``t``) for eta (m, p)."""
+        eta = np.atleast_2d(eta)
+        if self.course is None:
+            design = self.design if t is None and doses is None else Design.build(
+                self.doses if doses is None else doses, self.obs.time if t is None else t)
+            return batch_concentration(*self.params(eta), design)
+        from tdmtui.core.models.timevarying import batch_tv_concentration
+
+        return batch_tv_concentration(self.course.changes, *self.piece_params(eta),
+                                      self.doses if doses is None else doses, self.obs.time if t is None else t)
+
     def __call__(self, eta: np.ndarray) -> np.ndarray:
         """OFV for eta of shape (m, p); shape (m,)."""
         eta = np.atleast_2d(eta)
@@ -126,7 +171,7 @@ class Posterior:
         if len(self.obs) == 0:
             return ofv
         o = self.obs
-        pred = batch_concentration(*self.params(eta), self.design)
+        pred = self.predict(eta)
         var = np.maximum(self.model.additive_sd ** 2 + (self.model.proportional_sd * pred) ** 2, _VAR_FLOOR)
         if self.all_quantified:
             return ofv + np.sum((o.conc - pred) ** 2 / var + np.log(var), 1)
@@ -218,6 +263,10 @@ class Fit:
         """Concentrations, mg/L, at ``t`` h for this estimate (shared closed-form predictor)."""
         from tdmtui.core.models import concentration
 
+        if self.posterior is not None and self.posterior.course is not None:
+            arr = np.asarray(t, dtype=float)
+            out = self.posterior.predict(self.eta[None, :], arr.reshape(-1), doses)[0]
+            return out.reshape(arr.shape)
         return concentration(self.params, self.doses if doses is None else doses, t)
 
     def residuals(self) -> list[dict[str, float | str]]:
@@ -237,31 +286,37 @@ def _make_fit(post: Posterior, typical: Typical, doses: DoseArrays, eta: np.ndar
 
 
 def population_fit(model: PopModel, covariates: Covariates, doses: DoseArrays | None = None,
-                   seed: int = SEED) -> Fit:
+                   seed: int = SEED, course: Course | None = None, typical: Typical | None = None) -> Fit:
     """A priori estimate: the typical values, with Omega as the uncertainty of eta.
+
+    ``course``/``typical``: typical values that change during the course and the
+    latest of them (the forecast's); without them, the covariates' typical values.
 
     Raises:
         NoEstimateError: when the model gives invalid typical values for the patient.
     """
-    typical = model.typical(covariates)
+    typical = typical if typical is not None else model.typical(covariates)
     doses = doses if doses is not None else DoseArrays.from_lists([], [], [])
-    post = Posterior(model, typical, doses, NO_LEVELS)
+    post = Posterior(model, typical, doses, NO_LEVELS, course)
     p = len(model.eta_names)
     return _make_fit(post, typical, doses, np.zeros(p), model.omega.copy(), 0.0,
                      "population (a priori) estimate: no levels", seed)
 
 
 def map_fit(model: PopModel, covariates: Covariates, doses: DoseArrays, observations: Observations,
-            seed: int = SEED) -> Fit:
+            seed: int = SEED, course: Course | None = None, typical: Typical | None = None) -> Fit:
     """MAP estimate of the individual's parameters from any number of levels.
+
+    ``course``/``typical``: as in :func:`population_fit` (the levels are then
+    predicted piece by piece; the estimate's parameters are the latest piece's).
 
     Raises:
         NoEstimateError: invalid typical values for the patient.
         ConvergenceError: the optimiser failed from both starts, the estimate
             lies on the +-5 SD bound, or the objective is not at a minimum.
     """
-    typical = model.typical(covariates)
-    post = Posterior(model, typical, doses, observations)
+    typical = typical if typical is not None else model.typical(covariates)
+    post = Posterior(model, typical, doses, observations, course)
     sd = np.sqrt(np.diag(model.omega))
     bound = BOUND_SD * sd
     found, message = _newton(post, np.zeros(sd.size), bound), "Newton from eta = 0"

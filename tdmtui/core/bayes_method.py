@@ -19,6 +19,7 @@ use them (case-format.md).
 
 from __future__ import annotations
 
+import dataclasses
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
@@ -71,7 +72,7 @@ def _uncertainty(ctx: MethodContext, samples: Any) -> tuple[dict[str, list[float
 
 
 def _estimate(name: str, fit: Any, levels: list, ctx: MethodContext, offer: Any, a_priori: bool,
-              samples: Any = None) -> Estimate:
+              samples: Any = None, renal: Any = None) -> Estimate:
     from tdmtui.core import bayes
 
     model = fit.model
@@ -83,6 +84,7 @@ def _estimate(name: str, fit: Any, levels: list, ctx: MethodContext, offer: Any,
                          model.citation, "", name)]
     for note in fit.typical.notes:
         steps.append(WorkingStep("Covariate", "the model's own covariate rule", note, "", name))
+    steps += _renal_step(ctx, renal, name)
     steps.append(WorkingStep("Population value", "typical CL and V from the covariates",
                              f"CL {typ.cl:.4g} L/h, V1 {typ.v1:.4g} L" + (f", Q {typ.q:.4g} L/h, V2 {typ.v2:.4g} L" if typ.is_two_compartment else ""),
                              f"ke {typ.ke:.4g} /h", name))
@@ -115,6 +117,11 @@ def _estimate(name: str, fit: Any, levels: list, ctx: MethodContext, offer: Any,
                   "covariates": {k: float(v) for k, v in fit.typical.covariates.items()}}
     assumption = ("a priori: population values from covariates, no level used" if a_priori
                   else f"MAP on {model.name} with {len(levels)} level(s)")
+    if renal is not None:
+        from tdmtui.core.renalcourse import intervals
+
+        extra["renal_course"] = intervals(renal, ctx.case.clock)
+        assumption += "; clearance follows each dated SCr, the forecast uses the latest CrCl"
     return Estimate("population" if a_priori else "bayesian", fit.params, [lv.index for lv in levels], steps,
                     assumption, model=model_info, interval90=interval90, target_probability=prob,
                     samples=samples, extra=extra)
@@ -135,12 +142,56 @@ def _observations(levels: list) -> Any:
                                          [lv.below_loq for lv in levels], [lv.above_uloq for lv in levels])
 
 
-def run(ctx: MethodContext) -> MethodRun:
+def _course(ctx: MethodContext, model: Any, cov: Any, steps: list) -> tuple[Any, Any, Any]:
+    """(renal schedule or None, latest typical or None, bayes.Course or None) for one model."""
+    from tdmtui.core import dialysis, renalcourse
+
+    sched = renalcourse.schedule_for(model, cov, steps)
+    typical = sched.latest if sched is not None else None
+    sessions, session_cl = dialysis.fit_sessions(ctx.case, ctx.rules)
+    course = renalcourse.build_course(sched, typical or model.typical(cov), sessions, session_cl)
+    return sched, typical, course
+
+
+def _renal_step(ctx: MethodContext, sched: Any, name: str) -> list[WorkingStep]:
+    from tdmtui.core import renalcourse
+
+    if sched is None:
+        return []
+    return [WorkingStep("Renal function over the course", "each dated SCr gives a CrCl by the model's own rules; "
+                        "held from its draw until the next value (piecewise constant)",
+                        renalcourse.describe(sched, ctx.case.clock), "typical CL follows CrCl; one eta throughout",
+                        name)]
+
+
+def unstable(ctx: MethodContext) -> bool:
+    """True when the renal summary warned ``scr-unstable``."""
+    return any(a.code == "scr-unstable" for a in ctx.renal.alerts)
+
+
+def run(ctx: MethodContext, follow_renal: bool = True) -> MethodRun:
     """Every offered model's MAP and a priori estimates, their average; failures by name; the flags.
 
     ``bayesian`` is the model average (:mod:`averaging`) over the models that
     fit the patient; when none does, the first by rank that is not excluded.
+    With dated SCr values that change, each fit follows them (:mod:`renalcourse`);
+    when renal function is unstable (``scr-unstable``) the fit with one fixed
+    (latest) CrCl is shown beside it as ``bayesian:fixed-renal``.
     """
+    from tdmtui.core import renalcourse
+
+    steps = renalcourse.steps_of(ctx.case) if follow_renal else []
+    out = _run(ctx, steps)
+    if steps and follow_renal and unstable(ctx) and "bayesian" in out.estimates:
+        fixed = _run(ctx, []).estimates.get("bayesian")
+        if fixed is not None:
+            fixed.extra["renal_note"] = ("fitted as if the latest CrCl had held through the course, shown beside "
+                                         "the estimate that follows each dated SCr")
+            out.estimates["bayesian:fixed-renal"] = dataclasses.replace(fixed, method="bayesian:fixed-renal")
+    return out
+
+
+def _run(ctx: MethodContext, steps: list) -> MethodRun:
     from tdmtui.core import bayes, popmodels
 
     cov = _covariates(ctx)
@@ -162,12 +213,14 @@ def run(ctx: MethodContext) -> MethodRun:
             continue
         levels = levels_for(ctx, o.model.compartments == 2)
         try:
-            prior = bayes.population_fit(o.model, cov, ctx.history)
-            est[f"population:{o.model.id}"] = _estimate(f"population:{o.model.id}", prior, [], ctx, o, True)
+            sched, typical, course = _course(ctx, o.model, cov, steps)
+            prior = bayes.population_fit(o.model, cov, ctx.history, course=course, typical=typical)
+            est[f"population:{o.model.id}"] = _estimate(f"population:{o.model.id}", prior, [], ctx, o, True,
+                                                        renal=sched)
             if levels:
-                fit = bayes.map_fit(o.model, cov, ctx.history, _observations(levels))
+                fit = bayes.map_fit(o.model, cov, ctx.history, _observations(levels), course=course, typical=typical)
                 samples = bayes.importance_samples(fit, N_DRAWS, resample=True)
-                est[key] = _estimate(key, fit, levels, ctx, o, False, samples)
+                est[key] = _estimate(key, fit, levels, ctx, o, False, samples, renal=sched)
                 fitted.append((o, fit, levels, samples))
             else:
                 why[key] = "no usable level for a Bayesian fit (the a priori estimate is shown as population)"
@@ -239,6 +292,10 @@ def _averaged(ctx: MethodContext, fitted: list, est: dict[str, Estimate]) -> tup
                          f"CL {params.cl:.4g} L/h, Vss {params.vss:.4g} L, ke {params.ke:.4g} /h", name)]
     obs = _observations(levels)
     pred = concentration(params, ctx.history, obs.time) if len(obs) else np.zeros(0)
+    first = est[f"bayesian:{members[0].model_id}"]
+    if "renal_course" in first.extra and len(obs):  # levels predicted piece by piece: the members' weighted mean
+        pred = sum(x * m.fit.predict(obs.time) for m, x in zip(members, w))
+        steps += [s for s in first.working if s.title == "Renal function over the course"]
     kinds = ["below-loq" if lv.below_loq else "above-uloq" if lv.above_uloq else "quantified" for lv in levels]
     residuals = [{"time_h": lv.time, "observed": lv.conc, "predicted": float(p), "residual": float(lv.conc - p),
                   "kind": k, "field": f"levels[{lv.index}]"} for lv, p, k in zip(levels, pred, kinds)]
@@ -252,8 +309,12 @@ def _averaged(ctx: MethodContext, fitted: list, est: dict[str, Estimate]) -> tup
                   "log_evidence": {m.model_id: m.log_evidence for m in members},
                   "caution": " ".join(o.model.caution for o in offers if o.model.status != "paper")}
     extra: dict[str, Any] = {"diagnostics": {"residuals": residuals, "flags": [a.to_dict() for a in flags]}}
-    e = Estimate("bayesian", params, [lv.index for lv in levels], steps,
-                 f"model average of {len(members)} population model(s) with {len(levels)} level(s)",
+    if "renal_course" in first.extra:
+        extra["renal_course"] = first.extra["renal_course"]
+    said = f"model average of {len(members)} population model(s) with {len(levels)} level(s)"
+    if "renal_course" in first.extra:
+        said += "; clearance follows each dated SCr, the forecast uses the latest CrCl"
+    e = Estimate("bayesian", params, [lv.index for lv in levels], steps, said,
                  model=model_info, interval90=interval90, target_probability=prob, samples=mix, extra=extra)
     return e, flags
 
@@ -328,7 +389,15 @@ def refit(ctx: MethodContext, model_id: str) -> Estimate | None:
     """MAP again on one model, or the model average again (for the timing sensitivity); None when it fails."""
     from tdmtui.core import averaging, bayes, popmodels
 
+    from tdmtui.core import renalcourse
+
     cov = _covariates(ctx)
+    steps = renalcourse.steps_of(ctx.case)
+
+    def fit_one(model: Any, levels: list) -> Any:
+        _, typical, course = _course(ctx, model, cov, steps)
+        return bayes.map_fit(model, cov, ctx.history, _observations(levels), course=course, typical=typical)
+
     if model_id == "model-average":
         fitted = []
         for o in popmodels.offered_models(ctx.case.drug, cov):
@@ -336,7 +405,7 @@ def refit(ctx: MethodContext, model_id: str) -> Estimate | None:
             if o.excluded or not levels:
                 continue
             try:
-                fitted.append((o, bayes.map_fit(o.model, cov, ctx.history, _observations(levels)), levels, None))
+                fitted.append((o, fit_one(o.model, levels), levels, None))
             except (NoEstimateError, ConvergenceError):
                 continue
         members = _eligible(fitted)[0]
@@ -350,7 +419,7 @@ def refit(ctx: MethodContext, model_id: str) -> Estimate | None:
     if not levels:
         return None
     try:
-        fit = bayes.map_fit(model, cov, ctx.history, _observations(levels))
+        fit = fit_one(model, levels)
     except (NoEstimateError, ConvergenceError):
         return None
     return Estimate("bayesian", fit.params, [lv.index for lv in levels])

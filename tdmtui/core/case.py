@@ -141,6 +141,7 @@ class Case:
     sha256: str
     saved: bool
     notices: tuple[Alert, ...] = ()  # warnings found while reading (ambiguous times, an unused timezone)
+    dialysis: Any = None  # dialysis.Dialysis: haemodialysis sessions, or None (docs/dialysis.md)
 
 
 def _obj(value: Any, field: str) -> dict[str, Any]:
@@ -195,7 +196,9 @@ def _times(raw: dict[str, Any]) -> list[tuple[str, Any]]:
             for i, row in enumerate(rows):
                 if isinstance(row, dict):
                     out.extend((f"{name}[{i}].{k}", row[k]) for k in keys if k in row)
-    return out
+    from tdmtui.core.dialysis import times_of
+
+    return out + times_of(raw)
 
 
 def _parse_scr(value: Any, clock: Clock) -> tuple[ScrValue, ...]:
@@ -373,9 +376,12 @@ def parse_case(raw: Any, data: bytes | None = None) -> Case:
     check_span([(f"doses[{d.index}].start", d.start) for d in doses] + [(f"levels[{lv.index}].time", lv.time) for lv in levels]
                + [(s.field.removesuffix(".value") + ".time", s.time) for s in patient.scr if s.time is not None]
                + [("as_of", as_of)])
+    from tdmtui.core.dialysis import parse_dialysis
+
+    dialysis = parse_dialysis(raw.get("dialysis"), clock, as_of, patient.renal_replacement, rules)
     digest = hashlib.sha256(data if data is not None else canonical_bytes(raw)).hexdigest()
     return Case(drug, label, as_of, given, clock, patient, doses, levels, schedule, target, method,
-                raw, digest, data is not None, _notices(raw, clock))
+                raw, digest, data is not None, _notices(raw, clock), dialysis)
 
 
 #: Warning codes raised while reading a case.

@@ -102,11 +102,9 @@ def patient_alerts(case: Case, rules: Rules, bmi: float, ibw: float, mic: float)
         out.append(Alert("age-out-of-range", "stop", "patient.age",
                          f"age {p.age:g} yr is outside {lo:g}-{hi:g} yr: this tool's equations and models are for adults "
                          f"({rules.citation('plausible.age_yr')})"))
-    if p.renal_replacement != "none":
-        out.append(Alert("renal-replacement", "stop", "patient.renal_replacement",
-                         f"renal replacement ({p.renal_replacement}): Cockcroft-Gault-based and two-level methods do not apply "
-                         "and no regimen is proposed; follow the local dialysis protocol (an estimate on a population "
-                         "model built with such patients, where one is offered, is shown under methods for reference)"))
+    from tdmtui.core.dialysis import renal_replacement_alerts
+
+    out += renal_replacement_alerts(case, rules)
     known = rules.get("conditions", {}) or {}
     for i, c in enumerate(p.conditions):
         out.append(Alert("condition", "caution", f"patient.conditions[{i}]", str(known.get(c, c))))

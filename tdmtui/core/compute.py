@@ -31,7 +31,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from tdmtui import __version__
-from tdmtui.core import checks, course, exposure, limits, methods, reconcile, registry
+from tdmtui.core import checks, course, exposure, limits, methods, reconcile, registry, renalplan
 from tdmtui.core.alerts import Alert, has_stop
 from tdmtui.core.case import Case, parse_case
 from tdmtui.core.context import MethodContext, history_of
@@ -203,6 +203,7 @@ def compute(case: Case, protocol: Protocol | None = None, method: str | None = N
         "levels": methods.level_table(ctx),
         "timing_sensitivity": sens_rows,
     })
+    _dialysis_summary(case, rules, result)
     outcome = Outcome(case, result, est.params, history, working=list(est.working), renal=renal,
                       estimates=estimates, rules=rules)
     if has_stop(alerts):
@@ -213,7 +214,7 @@ def compute(case: Case, protocol: Protocol | None = None, method: str | None = N
         from tdmtui.core.regimen.dailycap import design_rules
 
         base = dataclasses.replace(base, rules=design_rules(rules, p.weight, renal.bmi, len(est.levels_used)))
-        plan = methods.attach_regimen(ctx, est, base)
+        plan = renalplan.adjust(ctx, est, base, methods.attach_regimen(ctx, est, base))
         result["regimen"] = plan.regimen
         result["target"] = plan.targets
         result["sources"].update(plan.sources)
@@ -233,6 +234,14 @@ def compute(case: Case, protocol: Protocol | None = None, method: str | None = N
     result["working"] = [w.to_dict() for w in est.working]
     outcome.alerts = alerts
     return outcome
+
+
+def _dialysis_summary(case: Case, rules: Rules, result: dict[str, Any]) -> None:
+    from tdmtui.core.dialysis import summary
+
+    found = summary(case, rules)
+    if found is not None:
+        result["dialysis"] = found
 
 
 def _header(case: Case, protocol: Protocol | None, renal: RenalSummary, rules: Rules, cur: CurrentRegimen | None) -> dict[str, Any]:
@@ -273,6 +282,7 @@ def _stopped(case: Case, protocol: Protocol | None, rules: Rules, renal: RenalSu
     result.update({"status": "stop", "method": None, "estimate": None, "methods": methods_out,
                    "methods_unavailable": failures, "levels": methods.level_table(ctx),
                    "warnings": [a.to_dict() for a in alerts], "working": []})
+    _dialysis_summary(case, rules, result)
     return Outcome(case, result, None, ctx.history, alerts=alerts, renal=renal, rules=rules)
 
 

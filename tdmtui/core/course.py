@@ -58,6 +58,11 @@ def level_exclusion(case: Case, level: Level, rules: Rules) -> tuple[str, str] |
         return "level-zero", "a level of 0 is not quantified"
     if not case.doses or level.time <= case.doses[0].start:
         return "level-before-first-dose", "drawn before the first recorded dose"
+    from tdmtui.core.dialysis import level_flag
+
+    session = level_flag(case, level, rules)
+    if session is not None:
+        return session
     window = float(rules.value("windows.post_distribution_h"))
     for d in case.doses:
         if d.start < level.time < d.end and not is_continuous(d, rules):

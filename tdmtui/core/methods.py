@@ -22,6 +22,7 @@ from tdmtui.core.estimates import Estimate
 from tdmtui.core.estimators import ONE_LEVEL
 from tdmtui.core.models import DoseArrays
 from tdmtui.core.registry import MethodRuns
+from tdmtui.core.renalcourse import classic_note, straddle_reason
 
 if TYPE_CHECKING:
     from tdmtui.core.regimen.types import Plan, RegimenInput
@@ -52,6 +53,11 @@ def run_all(ctx: MethodContext) -> MethodRuns:
             why[m.id] = getattr(exc, "why", str(exc)) + "".join(f"; {n}" for n in m.notes(ctx))
             continue
         est.update(run.estimates)
+        for key, e in run.estimates.items():
+            classic_note(ctx, key, e)
+            if (reason := straddle_reason(ctx, key, e)) is not None:
+                del est[key]
+                why[key] = reason
         why.update(run.failures)
         flags[m.id] = run.flags
     return MethodRuns(est, why, flags)

@@ -242,7 +242,8 @@ def steady_state_share(params: PKParams, doses: list[Any], t: float, regimen: di
 # --- phrases shared by the note's sections -------------------------------------------
 
 MODES = {"auc": "AUC-guided", "peak-trough": "traditional dosing",
-         "extended": "extended-interval", "continuous": "continuous infusion"}
+         "extended": "extended-interval", "continuous": "continuous infusion",
+         "dialysis": "dose after each haemodialysis session"}
 
 
 def raw_scr(case: Any, index: int | None) -> str:
@@ -260,7 +261,8 @@ def target_lines(result: dict[str, Any], case: Any, default_mic: float | None) -
         for key, label, fmt, unit in (("auc24_mg_h_per_l", "AUC24", auc, "mg*h/L"),
                                       ("peak_mg_per_l", "peak", conc, "mg/L"),
                                       ("trough_mg_per_l", "trough", conc, "mg/L"),
-                                      ("css_mg_per_l", "Css", conc, "mg/L")):
+                                      ("css_mg_per_l", "Css", conc, "mg/L"),
+                                      ("pre_dialysis_mg_per_l", "pre-dialysis level", conc, "mg/L")):
             if tg.get(key):
                 lo, hi = tg[key]
                 src = key.split("_")[0]

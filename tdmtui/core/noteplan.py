@@ -72,6 +72,9 @@ def estimate_lines(outcome: Any, regimen: dict[str, Any] | None, model_words: li
     lines += f.wrap(f"Estimate: ke {f.ke(est['ke_per_h'])} /h, t1/2 {f.hours(est['half_life_h'])} h, "
                     f"Vd {f.litres(est['vd_l'])} L{vkg}, CL {f.clearance(est['cl_l_per_h'])} L/h.")
     lines += model_words
+    from tdmtui.core.renalcourse import note_lines
+
+    lines += [x for text in note_lines(res) for x in f.wrap(text)]
     iv = est.get("interval90") or {}
     if iv.get("cl_l_per_h") and iv.get("auc24_mg_h_per_l"):
         lines += f.wrap(f"90 % interval: CL {f.clearance(iv['cl_l_per_h'][0])}-{f.clearance(iv['cl_l_per_h'][1])} "
@@ -139,6 +142,10 @@ def regimen_lines(outcome: Any, reg: dict[str, Any] | None, picked: bool,
         why = ("a stop-level warning stands" if res.get("status") == "stop"
                else "the regimen designer gave none for this case")
         return lines + f.wrap(f"No regimen proposed: {why} (see Warnings).")
+    if reg.get("mode") in ("dialysis", "redose-by-level"):
+        from tdmtui.core.renalplan import plan_words
+
+        return lines + [x for text in plan_words(reg) for x in f.wrap(text)]
     verb = {"continue": "continue", "change": "change to", "hold-then-change": "hold, then change to"}
     act = verb.get(reg.get("action", ""), reg.get("action", ""))
     daily = f" ({f.mg(reg['daily_dose_mg'])} mg a day)" if reg.get("daily_dose_mg") else ""

@@ -76,14 +76,20 @@ def summary_text(result: dict[str, Any]) -> str:
     reg = result.get("regimen")
     if reg:
         lines.append("")
-        if reg.get("mode") == "continuous":
+        if reg.get("mode") in ("dialysis", "redose-by-level"):
+            from tdmtui.core.renalplan import plan_words
+
+            for text in plan_words(reg):
+                lines += _wrap(text)
+        elif reg.get("mode") == "continuous":
             lines += _wrap(f"Regimen: {reg['action']} - continuous infusion {reg['rate_mg_per_h']:.1f} mg/h "
                            f"({reg['daily_dose_mg']:.0f} mg/day), starting {reg['next_dose_at']}")
         else:
             lines += _wrap(f"Regimen: {reg['action']} - {reg['dose_mg']:.0f} mg every {reg['interval_h']:g} h over "
                            f"{reg['infusion_h']:g} h, next dose {reg['next_dose_at']}")
         pr = reg.get("predicted", {})
-        lines.append(f"  predicted AUC24 {_n(pr.get('auc24_mg_h_per_l'))} mg*h/L, peak {_n(pr.get('peak_mg_per_l'))}, "
+        if reg.get("mode") not in ("dialysis", "redose-by-level"):
+            lines.append(f"  predicted AUC24 {_n(pr.get('auc24_mg_h_per_l'))} mg*h/L, peak {_n(pr.get('peak_mg_per_l'))}, "
                      f"trough {_n(pr.get('trough_mg_per_l'))} mg/L")
         if reg.get("skipped_doses"):
             lines += _wrap(f"{'hold' if reg.get('hold_until') else 'do not give'} the standing order's dose(s) due "

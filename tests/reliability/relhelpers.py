@@ -25,7 +25,8 @@ SAMPLES = ROOT / "sample_cases"
 #: What an InputError's field may look like (the contract's field paths).
 FIELD_RE = re.compile(
     r"^(format|drug|as_of|timezone|label|method|patient(\.\w+)*(\[\d+\])?(\.\w+)?|doses(\[\d+\](\.\w+)?)?"
-    r"|levels(\[\d+\](\.\w+)?)?|schedule(\.\w+)?|target(\.\w+)*(\[\d\])?|\(file\)|\(case\))$")
+    r"|levels(\[\d+\](\.\w+)?)?|schedule(\.\w+)?|target(\.\w+)*(\[\d\])?|\(file\)|\(case\)"
+    r"|dialysis(\.\w+(\[\d+\](\.\w+)?)?)?)$")
 
 DRUGS = ("vancomycin", "gentamicin", "tobramycin", "amikacin")
 UNITS = ("mg", "g", "kg", "lb", "mcg", "ug", "µg", "μg", "cm", "m", "in", "ft", "min", "h", "hr", "day", "yr",

@@ -191,6 +191,12 @@ SCHEMA: dict[str, Spec] = {
     "methods.large_iiv_movement_sd": num("SD", 0.1, 10.0),
     "methods.models_disagree_rel": num("fraction", 0.0, 2.0),
     "windows.post_distribution_h": num("h", 0.0, 6.0),
+    # ------------------------------------------------------------ intermittent haemodialysis
+    "dialysis.session_h": band("h", 0.5, 24.0),
+    "dialysis.redistribution_h": num("h", 0.0, 24.0),
+    "dialysis.plan_days": num("days", 2.0, 14.0),
+    "dialysis.pre_dialysis_target_mg_l": band("mg/L", 0.0, 40.0),
+    "dialysis.session_clearance_l_h": num("L/h", 0.0, 20.0, optional=True),
     "windows.continuous_min_infusion_h": num("h", 4.0, 24.0),
     "mic.default_mg_l": num("mg/L", 0.03, 64.0),
     "plausible.age_yr": band("yr", 0.0, 130.0),

@@ -11,7 +11,7 @@ from tdmtui.ui.sections.rows import RowsSection
 from tdmtui.ui.widgets.form import FieldSpec
 
 LIMITS = ("quantified", "below-loq", "above-uloq")
-USE = ("use", "set-aside")
+USE = ("use", "set-aside", "keep")  # keep: "use": true written, keeps a level drawn soon after a dialysis session
 
 
 class LevelsSection(RowsSection):
@@ -38,6 +38,8 @@ class LevelsSection(RowsSection):
             flags.append(">ULOQ")
         if row.get("use") is False:
             flags.append("ASIDE")
+        elif row.get("use") is True:
+            flags.append("KEPT")
         return (str(index + 1), short_time(row.get("time", "")), str(row.get("conc", "")), " ".join(flags),
                 row.get("timing", "actual"), str(row.get("reason", ""))[:24])
 
@@ -46,7 +48,7 @@ class LevelsSection(RowsSection):
         if key == "limit":
             return "below-loq" if row.get("below_loq") else ("above-uloq" if row.get("above_uloq") else "quantified")
         if key == "use":
-            return "set-aside" if row.get("use") is False else "use"
+            return "set-aside" if row.get("use") is False else "keep" if row.get("use") is True else "use"
         if key == "timing":
             return row.get("timing", "actual")
         return row.get(key, "")
@@ -75,6 +77,8 @@ class LevelsSection(RowsSection):
             if entry.stored == "set-aside":
                 row["use"] = False
                 row.setdefault("reason", "")
+            elif entry.stored == "keep":
+                row["use"] = True
             else:
                 row.pop("use", None)
         elif key == "reason":

@@ -18,8 +18,14 @@ from tdmtui.ui.safety import caution_line
 COLUMNS = ("", "Action", "Dose", "Every", "Over", "AUC24", "Peak", "Trough", "Prob")
 
 
+#: Proposals that are not one dose every interval (a dose after each dialysis session; hold and redraw).
+WORDED_MODES = ("dialysis", "redose-by-level")
+
+
 def candidates(result: dict[str, Any]) -> list[dict[str, Any]]:
-    """The regimens to choose from: the proposal first, then the alternatives."""
+    """The regimens to choose from: the proposal first, then the alternatives (none for a worded proposal)."""
+    if (result.get("regimen") or {}).get("mode") in WORDED_MODES:
+        return []
     return offered(result)
 
 
@@ -46,6 +52,12 @@ def summary_lines(result: dict[str, Any]) -> str:
         if result.get("status") == "stop":
             return "No regimen: a STOP warning stands (see the warnings)."
         return "No regimen proposed yet."
+    if reg.get("mode") in WORDED_MODES:
+        from tdmtui.core.renalplan import plan_words
+
+        nl = reg.get("next_levels") or []
+        return "\n".join(plan_words(reg) + ["Next levels: " + "; ".join(f"{x.get('kind')} {x.get('at')}" for x in nl)]
+                         + session_lines(result))
     lines = [f"Proposal: {reg.get('action', '?').upper()}  {fm.qty(reg.get('dose_mg'), 'dose_mg')} every "
              f"{fm.qty(reg.get('interval_h'), 'interval_h')} over {fm.qty(reg.get('infusion_h'), 'infusion_h')}"]
     lines.append(f"Next dose: {reg.get('next_dose_at') or '-'}   Hold until: {reg.get('hold_until') or 'no hold'}")
@@ -58,6 +70,17 @@ def summary_lines(result: dict[str, Any]) -> str:
     nl = reg.get("next_levels") or []
     lines.append("Next levels: " + ("; ".join(f"{x.get('kind')} {x.get('at')}" for x in nl) if nl else "none proposed"))
     return "\n".join(lines)
+
+
+def session_lines(result: dict[str, Any]) -> list[str]:
+    """The dialysis sessions recorded and planned, one line each kind (edited in the case file)."""
+    d = result.get("dialysis")
+    if not d:
+        return []
+    span = lambda s: f"{fm.short_time(s['start'])}-{s['end'][11:16]}"  # noqa: E731
+    done = ", ".join(span(s) for s in d.get("sessions", [])) or "none"
+    plan = ", ".join(span(s) for s in d.get("plan_sessions", [])) or "none"
+    return [f"Sessions done: {done}.", f"Sessions to come{' (repeated from last week)' if d.get('plan_sessions_projected') else ''}: {plan}."]
 
 
 class PlanSection(Vertical):
