@@ -375,13 +375,13 @@ async def test_a_slow_computation_shows_progress_and_typing_goes_on(state, sampl
     import tdmtui.core.compute as engine
 
     release = threading.Event()
-    real = engine.compute_raw
+    real = engine.compute
 
     def slow(*args, **kwargs):
         release.wait(10)  # held until the test has looked at the screen
         return real(*args, **kwargs)
 
-    monkeypatch.setattr(engine, "compute_raw", slow)
+    monkeypatch.setattr(engine, "compute", slow)
     path = sample_copy("vanc-steady-state.json")
     app = TdmApp(str(path), None, state=state)
     async with app.run_test(size=(80, 24)) as pilot:

@@ -80,8 +80,8 @@ class EstimateSection(Vertical):
         self.query_one(ContentSwitcher).current = view
         self.query_one(f"#{view}").focus()
 
-    def show(self, outcome: Any, plot: Any) -> None:
-        """Fill the views from an Outcome (None: clear them)."""
+    def show(self, outcome: Any) -> None:
+        """Fill the views from an Outcome (None: clear them); the graph builds its curves when it is drawn."""
         table = self.query_one("#est-table", DataTable)
         table.clear(columns=True)
         result = outcome.result if outcome is not None else {}
@@ -106,7 +106,7 @@ class EstimateSection(Vertical):
             table.add_row("levels used", *[", ".join("#" + str(int(x.strip("levels[]")) + 1) for x in est.get("levels_used", [])) or "none"
                                            for _, est in cols])
         self.query_one("#est-working-text", Static).update(working_text(outcome))
-        self.query_one(ConcPlot).show(plot)
+        self.query_one(ConcPlot).show_outcome(outcome)
 
 
 def working_text(outcome: Any) -> str:
