@@ -45,16 +45,16 @@ def _patient(outcome: Any) -> list[str]:
     case, res, renal, rules = outcome.case, outcome.result, outcome.renal, outcome.rules
     p, rp = case.patient, res["patient"]
     lines = f.heading("Patient and course")
-    extra = [f"BMI {rp['bmi_kg_m2']:.1f}"] if rp.get("bmi_kg_m2") is not None else []
+    extra = [f"BMI {f.numfmt.num(rp['bmi_kg_m2'], 'bmi')}"] if rp.get("bmi_kg_m2") is not None else []
     extra += [f"IBW {f.kg(rp['ibw_kg'])} kg"] + ([f"AdjBW {f.kg(rp['adjbw_kg'])} kg"] if rp.get("adjbw_kg") else [])
     lines += f.wrap(f"{p.age:g} yr {p.sex}, {f.kg(p.weight)} kg, {p.height:.0f} cm; {', '.join(extra)}.")
     dw = weight_words(rp, p.weight, rp["dosing_weight_kg"]).rsplit(" ", 2)
     crcl_w = renal.crcl_weight_kg if renal else rp["dosing_weight_kg"]
     measured = renal.scr_measured_mg_dl if renal else p.scr[-1].value
-    crcl = (f"Dosing weight {dw[1]} kg ({dw[0]}). CrCl {rp['crcl_ml_min']:.0f} mL/min (Cockcroft-Gault, "
+    crcl = (f"Dosing weight {dw[1]} kg ({dw[0]}). CrCl {f.numfmt.num(rp['crcl_ml_min'], 'crcl')} mL/min (Cockcroft-Gault, "
             f"{weight_words(rp, p.weight, crcl_w).rsplit(' ', 2)[0]}, SCr {f.scr(measured)} mg/dL)")
     if rp.get("egfr_ckd_epi_ml_min_173") is not None:
-        crcl += f"; eGFR {rp['egfr_ckd_epi_ml_min_173']:.0f} mL/min/1.73 m2"
+        crcl += f"; eGFR {f.numfmt.qty(rp['egfr_ckd_epi_ml_min_173'], 'egfr')}"
     lines += f.wrap(crcl + ".")
     used = renal.scr_used_mg_dl if renal else rp.get("scr_used_mg_dl")
     if rules is not None and used is not None and used > measured:

@@ -1,8 +1,8 @@
 """Formatting helpers for the chart note (:mod:`tdmtui.core.note`).
 
-Plain text only, at most :data:`WIDTH` columns. Every rounding rule the note
-uses for a printed figure lives here, so the note and its tests agree on one
-rule per figure:
+Plain text only, at most :data:`WIDTH` columns. The note's figures are rounded
+by :mod:`tdmtui.core.numfmt` (the one rounding table, shared with the
+command-line summary and the app); the functions below name its rules:
 
 ========== ============================ =====================
 figure     rule                         example
@@ -31,6 +31,7 @@ from typing import Any
 
 import numpy as np
 
+from tdmtui.core import numfmt
 from tdmtui.core.models import DoseArrays, PKParams, concentration
 
 WIDTH = 80
@@ -39,61 +40,58 @@ WIDTH = 80
 # --- numbers -------------------------------------------------------------------
 
 def ke(x: float | None) -> str:
-    """Elimination rate constant, 1/h: 3 significant figures, trailing zeros kept."""
-    return "-" if x is None else f"{x:#.3g}".rstrip(".")
+    """Elimination rate constant, 1/h: 3 significant figures, trailing zeros kept (:mod:`numfmt`)."""
+    return numfmt.num(x, "ke")
 
 
 def hours(x: float | None) -> str:
-    """Half-life, h: 1 decimal place."""
-    return "-" if x is None else f"{x:.1f}"
+    """Half-life, h: 1 decimal place (:mod:`numfmt`)."""
+    return numfmt.num(x, "half_life")
 
 
 def litres(x: float | None) -> str:
-    """Volume, L: 1 decimal place."""
-    return "-" if x is None else f"{x:.1f}"
+    """Volume, L: 1 decimal place (:mod:`numfmt`)."""
+    return numfmt.num(x, "volume")
 
 
 def clearance(x: float | None) -> str:
-    """Clearance, L/h: 2 decimal places."""
-    return "-" if x is None else f"{x:.2f}"
+    """Clearance, L/h: 2 decimal places (:mod:`numfmt`)."""
+    return numfmt.num(x, "clearance")
 
 
 def auc(x: float | None) -> str:
-    """AUC24, mg*h/L: whole number."""
-    return "-" if x is None else f"{x:.0f}"
+    """AUC24, mg*h/L: whole number (:mod:`numfmt`)."""
+    return numfmt.num(x, "auc")
 
 
 def conc(x: float | None) -> str:
-    """Concentration, mg/L: 1 decimal place, 2 below 1 mg/L, ``<0.01`` below 0.005."""
-    if x is None:
-        return "-"
-    if x == 0:
-        return "0"
-    if 0 < x < 0.005:
-        return "<0.01"
-    return f"{x:.2f}" if abs(x) < 1.0 else f"{x:.1f}"
+    """Concentration, mg/L: 1 decimal place, 2 below 1 mg/L, ``<0.01`` below 0.005 (:mod:`numfmt`)."""
+    return numfmt.num(x, "conc")
 
 
 def mg(x: float | None) -> str:
-    """Dose, mg: as given, without trailing zeros (at most 1 decimal)."""
-    if x is None:
-        return "-"
-    return f"{round(float(x), 1):g}"
+    """Dose, mg: as given, without trailing zeros (at most 1 decimal; :mod:`numfmt`)."""
+    return numfmt.num(x, "dose")
 
 
 def scr(x: float) -> str:
-    """Serum creatinine, mg/dL: up to 2 decimals, trailing zeros dropped."""
-    return f"{x:.2f}".rstrip("0").rstrip(".")
+    """Serum creatinine, mg/dL: up to 2 decimals, trailing zeros dropped (:mod:`numfmt`)."""
+    return numfmt.num(x, "scr")
 
 
 def kg(x: float) -> str:
-    """Weight, kg: 1 decimal place."""
-    return f"{x:.1f}"
+    """Weight, kg: 1 decimal place (:mod:`numfmt`)."""
+    return numfmt.num(x, "weight")
 
 
 def pct(x: float) -> str:
-    """A share as a whole percentage."""
-    return f"{100.0 * x:.0f} %"
+    """A share as a whole percentage (``97 %``; :mod:`numfmt`)."""
+    return numfmt.qty(x, "share")
+
+
+def chance(x: float) -> str:
+    """A probability of target as a whole percentage (``63 %``, ``<1 %``; :mod:`numfmt`)."""
+    return numfmt.qty(x, "probability")
 
 
 def duration(h: float) -> str:

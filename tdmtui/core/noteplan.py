@@ -68,7 +68,7 @@ def estimate_lines(outcome: Any, regimen: dict[str, Any] | None, model_words: li
         lines += f.wrap(f"Method: {method_label(used, est)} ({METHOD_TEXT.get(used, used)}){on}.")
     if registry.option(method) is not None:
         lines += f.wrap(f"Estimate beside it: {method_label(used, est)}: {METHOD_TEXT.get(used, '')}.")
-    vkg = f" ({est['vd_l_per_kg']:.2f} L/kg)" if est.get("vd_l_per_kg") else ""
+    vkg = f" ({f.numfmt.qty(est['vd_l_per_kg'], 'volume_kg')})" if est.get("vd_l_per_kg") else ""
     lines += f.wrap(f"Estimate: ke {f.ke(est['ke_per_h'])} /h, t1/2 {f.hours(est['half_life_h'])} h, "
                     f"Vd {f.litres(est['vd_l'])} L{vkg}, CL {f.clearance(est['cl_l_per_h'])} L/h.")
     lines += model_words
@@ -93,7 +93,7 @@ def _predicted(r: dict[str, Any]) -> str:
     text = ": predicted at steady state " + f.predicted(p)
     prob = r.get("target_probability", p.get("target_probability"))
     if prob is not None:
-        text += f"; chance of meeting the target {f.pct(float(prob))}"
+        text += f"; chance of meeting the target {f.chance(float(prob))}"
     return text
 
 
