@@ -76,7 +76,7 @@ class Outcome:
     regimen_plan: RegimenPlan | None = None
     method_used: str | None = None
 
-    def with_result(self, **changes: Any) -> Outcome:
+    def with_result(self, **changes: object) -> Outcome:
         """A copy whose result object has ``changes`` (e.g. ``input_saved=True``); this one is untouched."""
         return dataclasses.replace(self, result=dict(self.result, **changes))
 
@@ -279,7 +279,7 @@ def _stopped(case: Case, protocol: Protocol | None, rules: Rules, renal: RenalSu
                    estimates=dict(estimates))
 
 
-def compute_raw(raw: Any, data: bytes | None = None, protocol: Protocol | None = None,
+def compute_raw(raw: object, data: bytes | None = None, protocol: Protocol | None = None,
                 method: str | None = None) -> Outcome:
     """Parse a raw case object, then :func:`compute` it."""
     return compute(parse_case(raw, data), protocol, method)

@@ -18,7 +18,7 @@ rounded by :mod:`tdmtui.core.notefmt`.
 
 from __future__ import annotations
 
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from tdmtui.core import chosen as ch
 from tdmtui.core import notefmt as f
@@ -28,20 +28,18 @@ from tdmtui.core.noteplan import estimate_lines, monitoring_lines, regimen_lines
 from tdmtui.core.safety import NOTE_LINE
 from tdmtui.core.textsafe import neutralise
 
+if TYPE_CHECKING:
+    from tdmtui.core.compute import Outcome
+
 SIGNATURE = ("Pharmacist: ____________________________________",
              "Date/time:  ____________________________________",
              "Prescriber contacted: __________________________")
 
 
-def weight_words(rp: dict[str, Any], weight: float, used: float) -> str:
-    for label, value in (("total body weight", weight), ("ideal body weight", rp.get("ibw_kg")),
-                         ("adjusted body weight", rp.get("adjbw_kg"))):
-        if value is not None and abs(used - value) < 0.05:
-            return f"{label} {f.kg(used)} kg"
-    return f"weight {f.kg(used)} kg"
+weight_words = f.weight_words  # the name the note's callers use
 
 
-def _patient(outcome: Any) -> list[str]:
+def _patient(outcome: Outcome) -> list[str]:
     case, res, renal, rules = outcome.case, outcome.result, outcome.renal, outcome.rules
     p, rp = case.patient, res["patient"]
     lines = f.heading("Patient and course")
@@ -86,7 +84,7 @@ def _scr_history(case: Any) -> str:
     return text + "."
 
 
-def _doses(outcome: Any, full: bool) -> list[str]:
+def _doses(outcome: Outcome, full: bool) -> list[str]:
     case = outcome.case
     doses = list(case.doses)
     lines: list[str] = []
@@ -112,7 +110,7 @@ def _doses(outcome: Any, full: bool) -> list[str]:
     return lines
 
 
-def _levels(outcome: Any, full: bool) -> list[str]:
+def _levels(outcome: Outcome, full: bool) -> list[str]:
     case, res = outcome.case, outcome.result
     cur = res.get("current_regimen")
     if not case.levels:
@@ -141,7 +139,7 @@ def _levels(outcome: Any, full: bool) -> list[str]:
     return lines
 
 
-def _record(outcome: Any) -> list[str]:
+def _record(outcome: Outcome) -> list[str]:
     res, case = outcome.result, outcome.case
     proto = (f"local protocol {res.get('protocol_name')} (sha256 {res.get('protocol_sha256')})"
              if res.get("protocol_name") or res.get("protocol_sha256") else "no local protocol")
@@ -152,7 +150,7 @@ def _record(outcome: Any) -> list[str]:
     return lines
 
 
-def _header(outcome: Any) -> list[str]:
+def _header(outcome: Outcome) -> list[str]:
     res, case = outcome.result, outcome.case
     status = "STOP: a stop-level warning stands" if res.get("status") == "stop" else "ok"
     lines = [f"{res['drug'].upper()} PHARMACOKINETIC CONSULT"]
@@ -165,7 +163,7 @@ def _header(outcome: Any) -> list[str]:
     return lines + f.target_lines(res, case, outcome.rules.get("mic.default_mg_l") if outcome.rules else None)
 
 
-def chosen_of(outcome: Any, chosen: dict[str, Any] | None = None) -> tuple[dict[str, Any] | None, bool]:
+def chosen_of(outcome: Outcome, chosen: dict[str, Any] | None = None) -> tuple[dict[str, Any] | None, bool]:
     """The regimen the note gives and whether it was chosen in review.
 
     ``chosen`` (``dose_mg``, ``interval_h``, ``infusion_h``) overrides the
@@ -178,7 +176,7 @@ def chosen_of(outcome: Any, chosen: dict[str, Any] | None = None) -> tuple[dict[
     return outcome.result.get("regimen"), False
 
 
-def render_note(outcome: Any, chosen: dict[str, Any] | None = None, full: bool = False) -> str:
+def render_note(outcome: Outcome, chosen: dict[str, Any] | None = None, full: bool = False) -> str:
     """The chart note for a computed case, plain text within 80 columns.
 
     Args:

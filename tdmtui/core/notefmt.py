@@ -27,12 +27,15 @@ from __future__ import annotations
 import math
 import re
 import textwrap
-from typing import Any
+from typing import TYPE_CHECKING, Any, Callable
 
 import numpy as np
 
 from tdmtui.core import numfmt
 from tdmtui.core.models import DoseArrays, PKParams, concentration
+
+if TYPE_CHECKING:
+    from tdmtui.core.case import Case
 
 WIDTH = 80
 
@@ -92,6 +95,15 @@ def pct(x: float) -> str:
 def chance(x: float) -> str:
     """A probability of target as a whole percentage (``63 %``, ``<1 %``; :mod:`numfmt`)."""
     return numfmt.qty(x, "probability")
+
+
+def weight_words(rp: dict[str, Any], weight: float, used: float) -> str:
+    """Which weight ``used`` kg is, in words (``ideal body weight 70.5 kg``), from the result's patient object."""
+    for label, value in (("total body weight", weight), ("ideal body weight", rp.get("ibw_kg")),
+                         ("adjusted body weight", rp.get("adjbw_kg"))):
+        if value is not None and abs(used - value) < 0.05:
+            return f"{label} {kg(used)} kg"
+    return f"weight {kg(used)} kg"
 
 
 def duration(h: float) -> str:
@@ -243,14 +255,14 @@ MODES = {"auc": "AUC-guided", "peak-trough": "traditional dosing",
          "extended": "extended-interval", "continuous": "continuous infusion"}
 
 
-def raw_scr(case: Any, index: int | None) -> str:
+def raw_scr(case: Case, index: int | None) -> str:
     """`` (entered 601 umol/L)`` when the SCr was entered in another unit than mg/dL, else ''."""
     raw = (case.raw.get("patient") or {}).get("scr")
     text = raw if index is None else (raw[index] or {}).get("value") if isinstance(raw, list) else None
     return f" (entered {text})" if isinstance(text, str) and "mg/dL" not in text else ""
 
 
-def target_lines(result: dict[str, Any], case: Any, default_mic: float | None) -> list[str]:
+def target_lines(result: dict[str, Any], case: Case, default_mic: float | None) -> list[str]:
     """Target bands, each with the name of its source (never an empty one), and the MIC."""
     tg = result.get("target")
     if tg:
@@ -340,10 +352,14 @@ def short_source(text: str) -> str:
     return re.split(r"[;,]", inner)[0].strip()
 
 
+def _numbered(word: str) -> Callable[[re.Match[str]], str]:
+    return lambda m: f"{word} {int(m.group(1)) + 1}"
+
+
 def plain_paths(text: str) -> str:
     """Case paths in words: ``doses[2]`` -> ``dose 3``, ``levels[0].time`` -> ``level 1``."""
     for pattern, word in _PATHS:
-        text = pattern.sub(lambda m, w=word: f"{w} {int(m.group(1)) + 1}", text)
+        text = pattern.sub(_numbered(word), text)
     return re.sub(r"\bpatient\.(\w+)", lambda m: m.group(1).replace("_", " "), text)
 
 

@@ -186,9 +186,10 @@ def sawchuk_zaske(doses: list[Dose], levels: list[Level], tau: float | None,
         cmax = a.conc * math.exp(ke * (a.time - dose.end))
         steps.append(WorkingStep("Peak at end of infusion", "Cmax = C1 e^(ke (t1 - t'))",
                                  f"{a.conc:g} x e^({ke:.4g} x {a.time - dose.end:.3g})", f"{cmax:.4g} mg/L", m))
-        prev = [lv for lv in levels[:-2] if lv.time < dose.start and (_dose_before(doses, lv.time) is None or
-                                                                     _dose_before(doses, lv.time).end <= lv.time)]
-        prev = [lv for lv in prev if _dose_before(doses, dose.start - 1e-9) is None or lv.time > _dose_before(doses, dose.start - 1e-9).start]
+        prev = [lv for lv in levels[:-2] if lv.time < dose.start and ((d := _dose_before(doses, lv.time)) is None or
+                                                                     d.end <= lv.time)]
+        earlier = _dose_before(doses, dose.start - 1e-9)
+        prev = [lv for lv in prev if earlier is None or lv.time > earlier.start]
         f_hist = 0.0
         if prev:
             p = prev[-1]
@@ -200,7 +201,7 @@ def sawchuk_zaske(doses: list[Dose], levels: list[Level], tau: float | None,
         else:
             share, f_hist, n_before = _steady_share(doses, dose, ke, tau)
             used = [a.index, b.index]
-            if share is not None and abs(share - 1.0) <= steady_within:
+            if share is not None and tau is not None and abs(share - 1.0) <= steady_within:
                 cpre = cmax * math.exp(-ke * (tau - dose.duration))
                 f_hist = 0.0
                 assumption = (f"steady state on a {tau:g} h interval (the {n_before} earlier doses put the pre-dose "

@@ -151,7 +151,7 @@ def protocol_from_tree(tree: dict[str, Any], sha256: str, default_name: str = "p
     proto = Protocol(name, sha256)
     for section, body in tree.items():
         if section == "local_codes":
-            from tdmtui.core.fhir.codes import parse_local_codes
+            from tdmtui.core.library.localcodes import parse_local_codes
 
             proto.local_codes = parse_local_codes(body, tuple(DRUGS))
             continue

@@ -293,7 +293,7 @@ def _numbers(x: Any, spec: Spec, field: str, size: int | None = None) -> list[fl
     return [_number(v, spec, f"{field}[{i}]") for i, v in enumerate(x)]
 
 
-def check_value(value: Any, spec: Spec, field: str) -> None:
+def check_value(value: object, spec: Spec, field: str) -> None:
     """Check one value against its spec. Raises InputError naming ``field``."""
     kind = spec.kind
     if kind == "num":

@@ -235,7 +235,7 @@ def finish(inp: RegimenInput, targets: Targets, mode: str, plan: Plan, cands: li
         chosen = fixed
         continuing = current is not None and abs(current.dose_mg - fixed.dose_mg) < 1e-6 and \
             abs(current.interval_h - fixed.interval_h) < 1e-6
-        if continuing:
+        if continuing and current is not None:
             chosen = current  # the standing order as given (its own infusion time)
     elif current is not None and current.on_target and _within_caps(current, rules):
         chosen, continuing = current, True
@@ -346,6 +346,7 @@ def _loading(inp: RegimenInput, targets: Targets, mode: str, chosen: Candidate, 
             tinf = infusion_time(ld.dose_mg, rules)
         if ld is None:
             return None
+    assert ld is not None  # both branches above give one or return
     if mode != "continuous" and not (new_start and not aminoglycoside):
         rel = float(rules.get("loading.topup_min_rel", 0.0))
         if ld.dose_mg < max(chosen.dose_mg * (1.0 + rel), chosen.dose_mg + step) - 1e-9:

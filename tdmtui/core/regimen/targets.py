@@ -213,4 +213,4 @@ def resolve_targets(rules: Rules, case_target: Target | None, mode: str) -> Targ
                                 if "targets.peak_reference" in rules else "library")
     return Targets(mode=mode, peak_reference=ref, mic=float(mic), indication=indication,
                    sources=pick.sources, citations=pick.citations,
-                   **{k: (tuple(map(float, v)) if v else None) for k, v in kw.items()})
+                   **{k: ((float(v[0]), float(v[1])) if v else None) for k, v in kw.items()})
