@@ -22,6 +22,7 @@ from typing import TYPE_CHECKING, Any
 
 from tdmtui.core import chosen as ch
 from tdmtui.core import notefmt as f
+from tdmtui.core.library import common_number
 from tdmtui.core.fhir.provenance import note_lines as imported_note_lines
 from tdmtui.core.notefull import full_section, model_words, references
 from tdmtui.core.noteplan import estimate_lines, monitoring_lines, regimen_lines, warning_lines
@@ -117,7 +118,8 @@ def _levels(outcome: Outcome, full: bool) -> list[str]:
         return ["Levels: none measured."]
     lines = ["Levels:"]
     table = {row["field"]: row for row in res.get("levels", [])}
-    within = float(outcome.rules.get("monitoring.steady_state_within_rel", 0.05)) if outcome.rules else 0.05
+    key = "monitoring.steady_state_within_rel"
+    within = float(outcome.rules.value(key)) if outcome.rules else common_number(key)
     last_share = None
     for n, lv in enumerate(case.levels, 1):
         row = table.get(f"levels[{lv.index}]", {})

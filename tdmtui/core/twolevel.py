@@ -33,6 +33,7 @@ import numpy as np
 
 from tdmtui.core.case import Dose, Level
 from tdmtui.core.errors import NoEstimateError
+from tdmtui.core.library import common_number
 from tdmtui.core.models import DoseArrays, PKParams
 from tdmtui.core.models import onecomp
 from tdmtui.core.working import WorkingStep
@@ -56,7 +57,8 @@ def _fmt(x: float, d: int = 4) -> str:
     return f"{x:.{d}g}"
 
 
-def two_level(doses: DoseArrays, levels: list[Level], clock_fmt=None) -> TwoLevelResult:  # noqa: ANN001
+def two_level(doses: DoseArrays, levels: list[Level], clock_fmt=None,  # noqa: ANN001
+              min_gap_h: float | None = None) -> TwoLevelResult:
     """Exact whole-history fit through the two most recent usable levels.
 
     Args:
@@ -71,8 +73,10 @@ def two_level(doses: DoseArrays, levels: list[Level], clock_fmt=None) -> TwoLeve
         raise NoEstimateError(m, f"needs two usable levels after the first dose; {len(levels)} available "
                                  "(add a second post-distribution level, or use the Bayesian or population method)")
     a, b = levels[-2], levels[-1]
-    if b.time - a.time < 0.25:
-        raise NoEstimateError(m, "the two most recent usable levels are less than 15 min apart; draw them further apart")
+    gap = _gap(min_gap_h)
+    if b.time - a.time < gap:
+        raise NoEstimateError(m, f"the two most recent usable levels are less than {gap * 60:.0f} min apart; "
+                                 "draw them further apart")
     ta, tb = a.time, b.time
     from tdmtui.core.models.batch import Design, batch_concentration
 
@@ -113,6 +117,11 @@ def two_level(doses: DoseArrays, levels: list[Level], clock_fmt=None) -> TwoLeve
     return TwoLevelResult(m, PKParams.one_compartment(ke, v), [a.index, b.index], steps, "whole dose history superposed")
 
 
+def _gap(min_gap_h: float | None) -> float:
+    """The shortest span between two levels that gives ke, h (library ``levels.min_gap_h`` unless given)."""
+    return common_number("levels.min_gap_h") if min_gap_h is None else float(min_gap_h)
+
+
 def _dose_before(doses: list[Dose], t: float) -> Dose | None:
     before = [d for d in doses if d.start < t]
     return before[-1] if before else None
@@ -146,7 +155,7 @@ def _steady_share(doses: list[Dose], dose: Dose, ke: float, tau: float | None) -
 
 
 def sawchuk_zaske(doses: list[Dose], levels: list[Level], tau: float | None,
-                  steady_within: float = 0.05) -> TwoLevelResult:
+                  steady_within: float | None = None, min_gap_h: float | None = None) -> TwoLevelResult:
     """Textbook one-interval Sawchuk-Zaske calculation (pk-sources.md 2.4).
 
     Uses the two most recent usable levels. Both after the same dose: ke from
@@ -161,11 +170,15 @@ def sawchuk_zaske(doses: list[Dose], levels: list[Level], tau: float | None,
             levels not around a single dose.
     """
     m = "sawchuk-zaske"
+    if steady_within is None:  # the library's rule (a protocol's, when the caller passes its Rules' value)
+        steady_within = common_number("monitoring.steady_state_within_rel")
     if len(levels) < 2:
         raise NoEstimateError(m, f"needs two usable levels around one dose; {len(levels)} available")
     a, b = levels[-2], levels[-1]
-    if b.time - a.time < 0.25:
-        raise NoEstimateError(m, "the two most recent usable levels are less than 15 min apart; draw them further apart")
+    gap = _gap(min_gap_h)
+    if b.time - a.time < gap:
+        raise NoEstimateError(m, f"the two most recent usable levels are less than {gap * 60:.0f} min apart; "
+                                 "draw them further apart")
     da, db = _dose_before(doses, a.time), _dose_before(doses, b.time)
     if db is None:
         raise NoEstimateError(m, "the later level precedes every dose")
@@ -227,7 +240,7 @@ def sawchuk_zaske(doses: list[Dose], levels: list[Level], tau: float | None,
             raise NoEstimateError(m, "the two levels are not a trough before one dose and a peak after it")
         delta = db.start - a.time
         t_equiv = db.start + tau - delta
-        if t_equiv - b.time < 0.25:
+        if t_equiv - b.time < gap:
             raise NoEstimateError(m, "the peak is drawn where the trough would recur at steady state "
                                      f"({tau:g} h interval): the two levels carry no elimination information")
         ke = math.log(b.conc / a.conc) / (t_equiv - b.time)

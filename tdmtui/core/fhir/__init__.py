@@ -43,11 +43,11 @@ def import_export(data: bytes, name: str, *, drug: str | None = None, as_of: str
     from tdmtui.core.library import DRUGS
 
     export = read_export(decode(data, name))
-    book = CodeBook(dict(getattr(protocol, "local_codes", {}) or {}))
+    book = CodeBook(dict(protocol.local_codes) if protocol is not None else {})
     imported = build_case(export, book, tuple(DRUGS), drug=drug, as_of=as_of, source=name,
                           sha256=hashlib.sha256(data).hexdigest())
-    if book.local:
-        imported.report.protocol = str(getattr(protocol, "name", ""))
+    if book.local and protocol is not None:
+        imported.report.protocol = protocol.name
     return imported
 
 

@@ -236,6 +236,7 @@ SCHEMA: dict[str, Spec] = {
     "monitoring.trough_before_h": num("h", 0.0, 6.0),
     "monitoring.peak_after_end_h": num("h", 0.0, 6.0),
     "monitoring.steady_state_within_rel": num("fraction", 0.0, 0.5),
+    "levels.min_gap_h": num("h", 0.05, 2.0),
     # ------------------------------------------------------------ extended-interval aminoglycosides
     "extended.mg_per_kg": num("mg/kg", 0.0, 30.0),
     "extended.auc24": band("mg*h/L", 0.0, 300.0),

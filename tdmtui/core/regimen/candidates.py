@@ -128,10 +128,10 @@ def infusion_time(dose: float, rules: Rules) -> float:
     (rate 0 = no limit). Vancomycin: no faster than 1 g/h (pk-sources.md 3.1).
     """
     t = float(rules.value("regimen.min_infusion_h"))
-    rate = float(rules.get("regimen.max_rate_mg_per_h", 0.0) or 0.0)
+    rate = float(rules.value("regimen.max_rate_mg_per_h"))
     if rate > 0:
         t = max(t, dose / rate)
-    step = float(rules.get("regimen.infusion_step_h", 0.0) or 0.0)
+    step = float(rules.value("regimen.infusion_step_h"))
     if step > 0:
         t = math.ceil(t / step - 1e-9) * step
     return t

@@ -39,7 +39,7 @@ from tdmtui.core.regimen.types import Plan, RegimenInput
 def choose_mode(inp: RegimenInput, alerts: list[Alert]) -> str:
     """The regimen mode for this case (module docstring)."""
     rules, ct, cur = inp.rules, inp.case_target, inp.current
-    default = str(rules.get("regimen.default_mode", "auc"))
+    default = str(rules.value("regimen.default_mode"))
     if rules.get("drug.family") != "aminoglycoside":
         if inp.option == "nomogram":
             alerts.append(Alert("nomogram-entry", "stop", "method",
@@ -56,8 +56,8 @@ def choose_mode(inp: RegimenInput, alerts: list[Alert]) -> str:
         mode = "extended"
     elif cur:
         per_kg = cur.dose_mg / inp.dosing_weight_kg if inp.dosing_weight_kg > 0 else 0.0
-        ext = cur.interval_h >= float(rules.get("extended.min_interval_h", 24.0)) and per_kg >= float(
-            rules.get("regimen.extended_min_mg_per_kg", math.inf))
+        ext = cur.interval_h >= float(rules.value("extended.min_interval_h")) and per_kg >= float(
+            rules.value("regimen.extended_min_mg_per_kg"))
         mode = "extended" if ext else "peak-trough"
     else:
         mode = default if default in ("extended", "peak-trough") else "peak-trough"
@@ -93,7 +93,7 @@ def sources(inp: RegimenInput, targets: Targets) -> dict[str, Any]:
 def _intervals(inp: RegimenInput, mode: str) -> list[float]:
     every = [float(x) for x in inp.rules.value("regimen.intervals_h")]
     if mode == "extended":
-        low = float(inp.rules.get("extended.min_interval_h", 24.0))
+        low = float(inp.rules.value("extended.min_interval_h"))
         return [x for x in every if x >= low]
     return every
 
@@ -141,7 +141,7 @@ def _timing(inp: RegimenInput, c: Candidate, continuing: bool, threshold: float)
     t_due = max(t_due, inp.as_of)
     held = None
     if not continuing and inp.params is not None:
-        held = handover.hold(inp.params, hist, t_due, threshold, float(inp.rules.get("regimen.min_hold_h", 0.0)))
+        held = handover.hold(inp.params, hist, t_due, threshold, float(inp.rules.value("regimen.min_hold_h")))
     start = held if held is not None else t_due
     if continuing and t_last is not None and t_due > inp.as_of:
         return start, None, t_due
@@ -222,7 +222,7 @@ def finish(inp: RegimenInput, targets: Targets, mode: str, plan: Plan, cands: li
         for row, prob in zip(plan.candidates, table_probabilities(cands, inp.samples, targets, _dose_ref(inp, mode))):
             row["probability"] = prob
     current = _current(inp, targets, mode)
-    tie = float(rules.get("regimen.choice_tie_rel", 0.0))
+    tie = float(rules.value("regimen.choice_tie_rel"))
     span = rules.get("regimen.max_interval_half_lives")
     longest = float(span) * math.log(2.0) / terminal_rate(params) if span and mode != "extended" else None
     banded = bool(targets.auc24 or targets.peak)
@@ -348,7 +348,7 @@ def _loading(inp: RegimenInput, targets: Targets, mode: str, chosen: Candidate, 
             return None
     assert ld is not None  # both branches above give one or return
     if mode != "continuous" and not (new_start and not aminoglycoside):
-        rel = float(rules.get("loading.topup_min_rel", 0.0))
+        rel = float(rules.value("loading.topup_min_rel"))
         if ld.dose_mg < max(chosen.dose_mg * (1.0 + rel), chosen.dose_mg + step) - 1e-9:
             return None
     if ld.capped:

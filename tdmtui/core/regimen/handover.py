@@ -133,7 +133,7 @@ def next_levels(rules: Rules, targets: Targets, mode: str, method: str, first: f
                 tinf: float, clock: Clock) -> list[dict[str, Any]]:
     """Next levels in clock time, each tied to a named dose of the new regimen."""
     out: list[dict[str, Any]] = []
-    before = float(rules.get("monitoring.trough_before_h", 0.5))
+    before = float(rules.value("monitoring.trough_before_h"))
     for item in level_plan(rules, targets, mode, method):
         kind, n = str(item[0]), int(item[1])
         start = first + (n - 1) * tau

@@ -168,8 +168,8 @@ def resolve_targets(rules: Rules, case_target: Target | None, mode: str) -> Targ
         raise ValueError(f"unknown regimen mode {mode!r}")
     pick = _Picker(rules)
     ct = case_target
-    mic = ct.mic if ct and ct.mic else float(rules.get("mic.default_mg_l", 1.0))
-    ref = str(rules.get("targets.peak_reference", "end"))
+    mic = ct.mic if ct and ct.mic else float(rules.value("mic.default_mg_l"))
+    ref = str(rules.value("targets.peak_reference"))
     indication = ct.indication if ct else None
     kw: dict[str, Any] = {}
     if mode == "auc":

@@ -118,11 +118,10 @@ def working_text(outcome: Any) -> str:
 
     lines = working_block(outcome, chosen_of(outcome)[0]) + ["", "How the engine solved it:"]
     for i, w in enumerate(outcome.working, 1):
-        lines.append(f"{i}. {w.title}" + (f"  [{w.method}]" if getattr(w, "method", "") else ""))
+        lines.append(f"{i}. {w.title}" + (f"  [{w.method}]" if w.method else ""))
         lines.append(f"   {w.equation}")
         if w.substituted:
             lines.append(f"   = {w.substituted}")
-        value = getattr(w, "value", "") or getattr(w, "value_text", "")
-        if value:
-            lines.append(f"   -> {value}")
+        if w.value:
+            lines.append(f"   -> {w.value}")
     return "\n".join(lines)
