@@ -36,11 +36,14 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
 from tdmtui.core.models import PKParams
+
+if TYPE_CHECKING:
+    from tdmtui.core.bayes import Fit, ParamSamples
 
 #: Where the weighting comes from (shown in the note and the audit record).
 CITATION = ("Bayesian model averaging after Uster DW et al., Clin Pharmacol Ther 2021;109:175-183 (from memory): "
@@ -59,7 +62,7 @@ class Member:
     log_evidence: float
 
 
-def log_evidence(fit: Any, n: int = 2000, inflate: float = 1.5, seed: int | None = None) -> float:
+def log_evidence(fit: Fit, n: int = 2000, inflate: float = 1.5, seed: int | None = None) -> float:
     """ln p(y | model): the levels' likelihood integrated over the prior, by importance sampling.
 
     -2 ln p(y, eta) = OFV(eta) + n_q ln 2 pi + ln det Omega + p ln 2 pi (OFV as in :mod:`bayes`, which
@@ -86,7 +89,7 @@ def weights(log_ev: list[float]) -> list[float]:
     return [x / s for x in w]
 
 
-def mixture(members: list[Member], w: list[float], n: int, seed: int) -> Any:
+def mixture(members: list[Member], w: list[float], n: int, seed: int) -> ParamSamples:
     """Equal-weight draws from the weighted mixture: round(w x n) draws from each model's posterior draws."""
     from tdmtui.core.bayes import ParamSamples
 
@@ -94,7 +97,7 @@ def mixture(members: list[Member], w: list[float], n: int, seed: int) -> Any:
     counts[int(np.argmax(w))] += n - sum(counts)
     parts = [(m.samples, k) for m, k in zip(members, counts) if k > 0]
     cat = [np.concatenate([getattr(s, f)[:k] for s, k in parts]) for f in ("cl", "v1", "q", "v2")]
-    return ParamSamples(*cat, np.zeros((len(cat[0]), 0)), seed)
+    return ParamSamples(cat[0], cat[1], cat[2], cat[3], np.zeros((len(cat[0]), 0)), seed)
 
 
 def point(members: list[Member], w: list[float]) -> PKParams:

@@ -138,10 +138,10 @@ class Posterior:
         self.stencil = _stencil(len(model.eta_names), 1e-3)
         self.all_quantified = bool(np.all(obs.quantified))
 
-    def params(self, eta: np.ndarray) -> list[np.ndarray]:
+    def params(self, eta: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
         """Parameter arrays (cl, v1, q, v2) for eta of shape (m, p)."""
         p = np.exp(self.log_tv[:, None] + self.eta_map @ eta.T)  # (parameters, m), rows contiguous
-        return list(p) if len(p) == 4 else [p[0], p[1], np.zeros(p.shape[1]), np.zeros(p.shape[1])]
+        return (p[0], p[1], p[2], p[3]) if len(p) == 4 else (p[0], p[1], np.zeros(p.shape[1]), np.zeros(p.shape[1]))
 
     def piece_params(self, eta: np.ndarray) -> list[np.ndarray]:
         """Per-piece parameter arrays (cl, v1, q, v2), each (m, s), for a course."""
@@ -436,7 +436,7 @@ def regimen_intervals(samples: ParamSamples, dose: float | None = None, tau: flo
     if dose is not None and tau is not None:
         ss = samples.steady_state(dose, tau, tinf)
         for key in ("auc24", "peak", "trough"):
-            out[key] = intervals(samples, lambda s, k=key: ss[k], level)
+            out[key] = intervals(samples, _constant(ss[key]), level)
     return out
 
 
@@ -447,7 +447,12 @@ def two_compartment_intervals(samples: ParamSamples, level: float = 0.90) -> dic
     lam, _ = exponentials(samples.cl, samples.v1, samples.q, samples.v2)
     values = {"v1": samples.v1, "v2": samples.v2, "q": samples.q, "alpha_half_life": math.log(2) / lam[:, 0],
               "beta_half_life": math.log(2) / lam[:, 1]}
-    return {k: intervals(samples, lambda s, v=v: v, level) for k, v in values.items()}
+    return {k: intervals(samples, _constant(v), level) for k, v in values.items()}
+
+
+def _constant(values: np.ndarray) -> Callable[[ParamSamples], np.ndarray]:
+    """``fn`` for :func:`intervals` when the values per draw are already computed."""
+    return lambda _samples: values
 
 
 def probability_of_target(samples: ParamSamples, dose: float, tau: float, tinf: float,

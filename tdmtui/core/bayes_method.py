@@ -32,6 +32,7 @@ from tdmtui.core.working import WorkingStep
 
 if TYPE_CHECKING:
     from tdmtui.core.context import MethodContext
+    from tdmtui.core.library import Rules
 
 #: Posterior draws for intervals and target probability (recorded with the seed).
 #: Drawn by importance resampling from a widened Laplace proposal: equal-weight
@@ -204,7 +205,7 @@ def _run(ctx: MethodContext, steps: list) -> MethodRun:
         return MethodRun(est, why)
     usable_offers = [o for o in offers if not o.excluded]
     in_population = [o for o in usable_offers if not o.out_of_population]
-    primary = (in_population or usable_offers or [None])[0]
+    primary = next(iter(in_population or usable_offers), None)
     fitted: list[tuple[Any, Any, list, Any]] = []
     for o in offers:
         key = f"bayesian:{o.model.id}"
@@ -319,7 +320,7 @@ def _averaged(ctx: MethodContext, fitted: list, est: dict[str, Estimate]) -> tup
     return e, flags
 
 
-def structure_alerts(ctx: Any, fitted: list, w: list[float], est: dict[str, Estimate]) -> list[Alert]:
+def structure_alerts(ctx: MethodContext, fitted: list, w: list[float], est: dict[str, Estimate]) -> list[Alert]:
     """Cautions where the model's structure, not the levels, drives the answer.
 
     A weighted model whose levels moved a very variable parameter (SD >= ``methods.large_iiv_sd`` on the
@@ -373,7 +374,7 @@ def _combined_flags(offers: list) -> list[Alert]:
     return out
 
 
-def residual_alerts(e: Estimate, rules: Any) -> list[Alert]:
+def residual_alerts(e: Estimate, rules: Rules) -> list[Alert]:
     """A caution when a level is far from the Bayesian prediction (library ``methods.poor_fit_rel``)."""
     limit = float(rules.value("methods.poor_fit_rel"))
     out = []

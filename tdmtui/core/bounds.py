@@ -135,7 +135,7 @@ def _float(text: str) -> float:
     return value
 
 
-class _PairList(list):  # type: ignore[type-arg]
+class _PairList(list):
     """An object's (key, value) pairs in file order, duplicates kept."""
 
 
@@ -167,7 +167,7 @@ def _text_problem(text: str, limit: int) -> str:
     return ""
 
 
-def check_tree(raw: Any) -> None:
+def check_tree(raw: object) -> None:
     """Depth, string length, lone surrogates and row counts over a decoded case.
 
     Raises:

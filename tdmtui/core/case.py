@@ -330,7 +330,7 @@ def canonical_bytes(raw: dict[str, Any]) -> bytes:
     return (json.dumps(raw, ensure_ascii=False, indent=2) + "\n").encode("utf-8")
 
 
-def parse_case(raw: Any, data: bytes | None = None) -> Case:
+def parse_case(raw: object, data: bytes | None = None) -> Case:
     """Check and convert a case object.
 
     Args:

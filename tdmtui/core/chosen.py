@@ -22,7 +22,7 @@ KEY = "chosen_regimen"
 _PARTS = (("dose", "dose", "dose_mg"), ("interval", "time", "interval_h"), ("duration", "time", "infusion_h"))
 
 
-def parse_chosen(raw: Any) -> dict[str, float] | None:
+def parse_chosen(raw: object) -> dict[str, float] | None:
     """The case's ``chosen_regimen`` as ``{dose_mg, interval_h, infusion_h}``, or None when absent.
 
     Raises:

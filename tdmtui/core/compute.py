@@ -46,14 +46,21 @@ from tdmtui.core.working import WorkingStep
 
 if TYPE_CHECKING:
     from tdmtui.core.regimen.targets import Targets
+    from tdmtui.core.regimen.types import Plan as RegimenPlan
     from tdmtui.core.regimen.types import RegimenInput
 
 RESULT_FORMAT = "tdmtui.result/1"
 
 
-@dataclass
+@dataclass(frozen=True, eq=False)
 class Outcome:
-    """Everything one computation produced (see the module docstring)."""
+    """Everything one computation produced (see the module docstring): one assessment, built once.
+
+    Frozen: a view renders it and never sets anything on it (a view that needs more, such as the
+    app's plot, builds its own object from it). ``result`` is the contract's result object, built
+    by :func:`compute` from the typed fields beside it (the estimate's ``to_dict``, the plan's
+    regimen, the alerts); ``eq=False`` keeps identity hashing, so a view may cache by outcome.
+    """
 
     case: Case
     result: dict[str, Any]
@@ -61,12 +68,17 @@ class Outcome:
     history: DoseArrays
     plan: DoseArrays | None = None
     band: tuple[np.ndarray, np.ndarray, np.ndarray] | None = None
-    working: list[WorkingStep] = field(default_factory=list)
-    alerts: list[Alert] = field(default_factory=list)
+    working: tuple[WorkingStep, ...] = ()
+    alerts: tuple[Alert, ...] = ()
     renal: RenalSummary | None = None
     estimates: dict[str, Estimate] = field(default_factory=dict)
     rules: Rules | None = None
-    regimen_plan: Any = None
+    regimen_plan: RegimenPlan | None = None
+    method_used: str | None = None
+
+    def with_result(self, **changes: object) -> Outcome:
+        """A copy whose result object has ``changes`` (e.g. ``input_saved=True``); this one is untouched."""
+        return dataclasses.replace(self, result=dict(self.result, **changes))
 
 
 def choose(requested: str, estimates: dict[str, Estimate], failures: dict[str, str]) -> str:
@@ -204,8 +216,8 @@ def compute(case: Case, protocol: Protocol | None = None, method: str | None = N
         "timing_sensitivity": sens_rows,
     })
     _dialysis_summary(case, rules, result)
-    outcome = Outcome(case, result, est.params, history, working=list(est.working), renal=renal,
-                      estimates=estimates, rules=rules)
+    plan: RegimenPlan | None = None
+    plan_doses: DoseArrays | None = None
     if has_stop(alerts):
         result["status"] = "stop"
     else:
@@ -218,22 +230,22 @@ def compute(case: Case, protocol: Protocol | None = None, method: str | None = N
         result["regimen"] = plan.regimen
         result["target"] = plan.targets
         result["sources"].update(plan.sources)
-        outcome.plan = plan.doses
-        outcome.regimen_plan = plan
-        plan_alerts = list(plan.alerts) + limits.guard(case.drug, result, outcome.plan, p.weight)  # the final check
+        plan_doses = plan.doses
+        plan_alerts = list(plan.alerts) + limits.guard(case.drug, result, plan_doses, p.weight)  # the final check
         alerts += plan_alerts
         if has_stop(plan_alerts):
             result["status"] = "stop"
             result.pop("regimen", None)
     alerts += exposure.unresolved(corrections, result.get("regimen"), targets, rules)
     if "regimen" not in result and result["status"] == "stop":
-        outcome.plan = None
+        plan_doses = None
     alerts = reconcile.settle(alerts)
-    outcome.band = methods.concentration_band(ctx, est, outcome.plan)
+    band = methods.concentration_band(ctx, est, plan_doses)
     result["warnings"] = [a.to_dict() for a in alerts]
     result["working"] = [w.to_dict() for w in est.working]
-    outcome.alerts = alerts
-    return outcome
+    return Outcome(case, result, est.params, history, plan=plan_doses, band=band, working=tuple(est.working),
+                   alerts=tuple(alerts), renal=renal, estimates=estimates, rules=rules, regimen_plan=plan,
+                   method_used=used)
 
 
 def _dialysis_summary(case: Case, rules: Rules, result: dict[str, Any]) -> None:
@@ -283,10 +295,11 @@ def _stopped(case: Case, protocol: Protocol | None, rules: Rules, renal: RenalSu
                    "methods_unavailable": failures, "levels": methods.level_table(ctx),
                    "warnings": [a.to_dict() for a in alerts], "working": []})
     _dialysis_summary(case, rules, result)
-    return Outcome(case, result, None, ctx.history, alerts=alerts, renal=renal, rules=rules)
+    return Outcome(case, result, None, ctx.history, alerts=tuple(alerts), renal=renal, rules=rules,
+                   estimates=dict(estimates))
 
 
-def compute_raw(raw: Any, data: bytes | None = None, protocol: Protocol | None = None,
+def compute_raw(raw: object, data: bytes | None = None, protocol: Protocol | None = None,
                 method: str | None = None) -> Outcome:
     """Parse a raw case object, then :func:`compute` it."""
     return compute(parse_case(raw, data), protocol, method)

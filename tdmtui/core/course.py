@@ -36,12 +36,19 @@ CODES = {
 
 @dataclass(frozen=True)
 class CurrentRegimen:
-    """The standing order (case-format.md "Current regimen")."""
+    """The standing order as the case gives it (case-format.md "Current regimen").
+
+    Attributes:
+        dose_mg: amount per dose, mg (for a continuous infusion: mg per interval).
+        interval_h: interval between starts, h.
+        infusion_h: infusion duration, h (== interval for a continuous infusion).
+        source: where it came from (``schedule`` or the last maintenance doses).
+    """
 
     dose_mg: float
     interval_h: float
     infusion_h: float
-    source: str
+    source: str = ""
 
 
 def _alert(code: str, severity: str, field: str, message: str) -> Alert:

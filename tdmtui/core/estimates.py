@@ -9,12 +9,15 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from tdmtui.core.course import CurrentRegimen
 from tdmtui.core.library import Rules
 from tdmtui.core.models import PKParams, steady_state
 from tdmtui.core.working import WorkingStep
+
+if TYPE_CHECKING:
+    from tdmtui.core.bayes import ParamSamples
 
 
 @dataclass
@@ -43,7 +46,7 @@ class Estimate:
     model: dict[str, Any] | None = None
     interval90: dict[str, list[float]] | None = None
     target_probability: float | None = None
-    samples: list[PKParams] | None = None
+    samples: ParamSamples | None = None
     extra: dict[str, Any] = field(default_factory=dict)
 
     def current(self, cur: CurrentRegimen | None) -> dict[str, float] | None:

@@ -37,14 +37,16 @@ def _doses_before(ctx: MethodContext) -> list[Dose]:
 
 def two_level(ctx: MethodContext) -> MethodRun:
     """Two-level: ke and V exactly through the two latest usable levels, all doses superposed."""
-    return _one(_from_twolevel(twolevel.two_level(ctx.history, ctx.usable, ctx.case.clock.format)))
+    return _one(_from_twolevel(twolevel.two_level(ctx.history, ctx.usable, ctx.case.clock.format,
+                                                  min_gap_h=float(ctx.rules.value("levels.min_gap_h")))))
 
 
 def sawchuk_zaske(ctx: MethodContext) -> MethodRun:
     """Sawchuk-Zaske over one dosing interval."""
     tau = ctx.current.interval_h if ctx.current else None
     within = float(ctx.rules.value("monitoring.steady_state_within_rel"))
-    return _one(_from_twolevel(twolevel.sawchuk_zaske(_doses_before(ctx), ctx.usable, tau, within)))
+    return _one(_from_twolevel(twolevel.sawchuk_zaske(_doses_before(ctx), ctx.usable, tau, within,
+                                                      min_gap_h=float(ctx.rules.value("levels.min_gap_h")))))
 
 
 def least_squares(ctx: MethodContext) -> MethodRun:
@@ -177,7 +179,7 @@ def why_set_aside_or_bounded(ctx: MethodContext) -> list[str]:
 def refit_two_level(ctx: MethodContext, est: Estimate) -> Estimate | None:
     """Two-level again on a shifted case."""
     try:
-        r = twolevel.two_level(ctx.history, ctx.usable)
+        r = twolevel.two_level(ctx.history, ctx.usable, min_gap_h=float(ctx.rules.value("levels.min_gap_h")))
     except (NoEstimateError, ConvergenceError):
         return None
     return Estimate(r.method, r.params)
@@ -187,7 +189,8 @@ def refit_sawchuk_zaske(ctx: MethodContext, est: Estimate) -> Estimate | None:
     """Sawchuk-Zaske again on a shifted case."""
     try:
         r = twolevel.sawchuk_zaske(_doses_before(ctx), ctx.usable, ctx.current.interval_h if ctx.current else None,
-                                   float(ctx.rules.value("monitoring.steady_state_within_rel")))
+                                   float(ctx.rules.value("monitoring.steady_state_within_rel")),
+                                   min_gap_h=float(ctx.rules.value("levels.min_gap_h")))
     except (NoEstimateError, ConvergenceError):
         return None
     return Estimate(r.method, r.params)

@@ -15,10 +15,15 @@ Warning codes: ``never-exceed`` (stop), ``never-exceed-alternative`` (caution).
 from __future__ import annotations
 
 import math
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from tdmtui.core.alerts import Alert
 from tdmtui.core.library import never_exceed
+
+if TYPE_CHECKING:
+    import numpy as np
+
+    from tdmtui.core.models import DoseArrays
 
 CODES = {
     "never-exceed": "the proposed regimen is beyond an absolute limit of the drug library: no regimen is given",
@@ -78,7 +83,7 @@ def breaches(drug: str, reg: dict[str, Any], tbw_kg: float) -> list[str]:
     return out
 
 
-def planned_breaches(drug: str, amounts: Any, durations: Any, tbw_kg: float, continuous: bool = False) -> list[str]:
+def planned_breaches(drug: str, amounts: np.ndarray, durations: np.ndarray, tbw_kg: float, continuous: bool = False) -> list[str]:
     """Every planned dose (the simulated plan's arrays) against the single-dose, per-kg and rate limits.
 
     In a continuous-infusion plan the long pieces (12 h or more) of the running
@@ -102,7 +107,7 @@ def planned_breaches(drug: str, amounts: Any, durations: Any, tbw_kg: float, con
     return out
 
 
-def guard(drug: str, result: dict[str, Any], plan: Any, tbw_kg: float) -> list[Alert]:
+def guard(drug: str, result: dict[str, Any], plan: DoseArrays | None, tbw_kg: float) -> list[Alert]:
     """Check the proposal in ``result["regimen"]`` (and the planned doses) against the never-exceed limits.
 
     Withholds alternatives beyond a limit (a caution) and, when the proposal

@@ -18,43 +18,42 @@ rounded by :mod:`tdmtui.core.notefmt`.
 
 from __future__ import annotations
 
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from tdmtui.core import chosen as ch
 from tdmtui.core import notefmt as f
+from tdmtui.core.library import common_number
 from tdmtui.core.fhir.provenance import note_lines as imported_note_lines
 from tdmtui.core.notefull import full_section, model_words, references
 from tdmtui.core.noteplan import estimate_lines, monitoring_lines, regimen_lines, warning_lines
 from tdmtui.core.safety import NOTE_LINE
 from tdmtui.core.textsafe import neutralise
 
+if TYPE_CHECKING:
+    from tdmtui.core.compute import Outcome
+
 SIGNATURE = ("Pharmacist: ____________________________________",
              "Date/time:  ____________________________________",
              "Prescriber contacted: __________________________")
 
 
-def weight_words(rp: dict[str, Any], weight: float, used: float) -> str:
-    for label, value in (("total body weight", weight), ("ideal body weight", rp.get("ibw_kg")),
-                         ("adjusted body weight", rp.get("adjbw_kg"))):
-        if value is not None and abs(used - value) < 0.05:
-            return f"{label} {f.kg(used)} kg"
-    return f"weight {f.kg(used)} kg"
+weight_words = f.weight_words  # the name the note's callers use
 
 
-def _patient(outcome: Any) -> list[str]:
+def _patient(outcome: Outcome) -> list[str]:
     case, res, renal, rules = outcome.case, outcome.result, outcome.renal, outcome.rules
     p, rp = case.patient, res["patient"]
     lines = f.heading("Patient and course")
-    extra = [f"BMI {rp['bmi_kg_m2']:.1f}"] if rp.get("bmi_kg_m2") is not None else []
+    extra = [f"BMI {f.numfmt.num(rp['bmi_kg_m2'], 'bmi')}"] if rp.get("bmi_kg_m2") is not None else []
     extra += [f"IBW {f.kg(rp['ibw_kg'])} kg"] + ([f"AdjBW {f.kg(rp['adjbw_kg'])} kg"] if rp.get("adjbw_kg") else [])
     lines += f.wrap(f"{p.age:g} yr {p.sex}, {f.kg(p.weight)} kg, {p.height:.0f} cm; {', '.join(extra)}.")
     dw = weight_words(rp, p.weight, rp["dosing_weight_kg"]).rsplit(" ", 2)
     crcl_w = renal.crcl_weight_kg if renal else rp["dosing_weight_kg"]
     measured = renal.scr_measured_mg_dl if renal else p.scr[-1].value
-    crcl = (f"Dosing weight {dw[1]} kg ({dw[0]}). CrCl {rp['crcl_ml_min']:.0f} mL/min (Cockcroft-Gault, "
+    crcl = (f"Dosing weight {dw[1]} kg ({dw[0]}). CrCl {f.numfmt.num(rp['crcl_ml_min'], 'crcl')} mL/min (Cockcroft-Gault, "
             f"{weight_words(rp, p.weight, crcl_w).rsplit(' ', 2)[0]}, SCr {f.scr(measured)} mg/dL)")
     if rp.get("egfr_ckd_epi_ml_min_173") is not None:
-        crcl += f"; eGFR {rp['egfr_ckd_epi_ml_min_173']:.0f} mL/min/1.73 m2"
+        crcl += f"; eGFR {f.numfmt.qty(rp['egfr_ckd_epi_ml_min_173'], 'egfr')}"
     lines += f.wrap(crcl + ".")
     used = renal.scr_used_mg_dl if renal else rp.get("scr_used_mg_dl")
     if rules is not None and used is not None and used > measured:
@@ -86,7 +85,7 @@ def _scr_history(case: Any) -> str:
     return text + "."
 
 
-def _doses(outcome: Any, full: bool) -> list[str]:
+def _doses(outcome: Outcome, full: bool) -> list[str]:
     case = outcome.case
     doses = list(case.doses)
     lines: list[str] = []
@@ -112,14 +111,15 @@ def _doses(outcome: Any, full: bool) -> list[str]:
     return lines
 
 
-def _levels(outcome: Any, full: bool) -> list[str]:
+def _levels(outcome: Outcome, full: bool) -> list[str]:
     case, res = outcome.case, outcome.result
     cur = res.get("current_regimen")
     if not case.levels:
         return ["Levels: none measured."]
     lines = ["Levels:"]
     table = {row["field"]: row for row in res.get("levels", [])}
-    within = float(outcome.rules.get("monitoring.steady_state_within_rel", 0.05)) if outcome.rules else 0.05
+    key = "monitoring.steady_state_within_rel"
+    within = float(outcome.rules.value(key)) if outcome.rules else common_number(key)
     last_share = None
     for n, lv in enumerate(case.levels, 1):
         row = table.get(f"levels[{lv.index}]", {})
@@ -141,7 +141,7 @@ def _levels(outcome: Any, full: bool) -> list[str]:
     return lines
 
 
-def _record(outcome: Any) -> list[str]:
+def _record(outcome: Outcome) -> list[str]:
     res, case = outcome.result, outcome.case
     proto = (f"local protocol {res.get('protocol_name')} (sha256 {res.get('protocol_sha256')})"
              if res.get("protocol_name") or res.get("protocol_sha256") else "no local protocol")
@@ -152,7 +152,7 @@ def _record(outcome: Any) -> list[str]:
     return lines
 
 
-def _header(outcome: Any) -> list[str]:
+def _header(outcome: Outcome) -> list[str]:
     res, case = outcome.result, outcome.case
     status = "STOP: a stop-level warning stands" if res.get("status") == "stop" else "ok"
     lines = [f"{res['drug'].upper()} PHARMACOKINETIC CONSULT"]
@@ -165,7 +165,7 @@ def _header(outcome: Any) -> list[str]:
     return lines + f.target_lines(res, case, outcome.rules.get("mic.default_mg_l") if outcome.rules else None)
 
 
-def chosen_of(outcome: Any, chosen: dict[str, Any] | None = None) -> tuple[dict[str, Any] | None, bool]:
+def chosen_of(outcome: Outcome, chosen: dict[str, Any] | None = None) -> tuple[dict[str, Any] | None, bool]:
     """The regimen the note gives and whether it was chosen in review.
 
     ``chosen`` (``dose_mg``, ``interval_h``, ``infusion_h``) overrides the
@@ -178,7 +178,7 @@ def chosen_of(outcome: Any, chosen: dict[str, Any] | None = None) -> tuple[dict[
     return outcome.result.get("regimen"), False
 
 
-def render_note(outcome: Any, chosen: dict[str, Any] | None = None, full: bool = False) -> str:
+def render_note(outcome: Outcome, chosen: dict[str, Any] | None = None, full: bool = False) -> str:
     """The chart note for a computed case, plain text within 80 columns.
 
     Args:

@@ -1,8 +1,8 @@
 """Formatting helpers for the chart note (:mod:`tdmtui.core.note`).
 
-Plain text only, at most :data:`WIDTH` columns. Every rounding rule the note
-uses for a printed figure lives here, so the note and its tests agree on one
-rule per figure:
+Plain text only, at most :data:`WIDTH` columns. The note's figures are rounded
+by :mod:`tdmtui.core.numfmt` (the one rounding table, shared with the
+command-line summary and the app); the functions below name its rules:
 
 ========== ============================ =====================
 figure     rule                         example
@@ -27,11 +27,15 @@ from __future__ import annotations
 import math
 import re
 import textwrap
-from typing import Any
+from typing import TYPE_CHECKING, Any, Callable
 
 import numpy as np
 
+from tdmtui.core import numfmt
 from tdmtui.core.models import DoseArrays, PKParams, concentration
+
+if TYPE_CHECKING:
+    from tdmtui.core.case import Case
 
 WIDTH = 80
 
@@ -39,61 +43,67 @@ WIDTH = 80
 # --- numbers -------------------------------------------------------------------
 
 def ke(x: float | None) -> str:
-    """Elimination rate constant, 1/h: 3 significant figures, trailing zeros kept."""
-    return "-" if x is None else f"{x:#.3g}".rstrip(".")
+    """Elimination rate constant, 1/h: 3 significant figures, trailing zeros kept (:mod:`numfmt`)."""
+    return numfmt.num(x, "ke")
 
 
 def hours(x: float | None) -> str:
-    """Half-life, h: 1 decimal place."""
-    return "-" if x is None else f"{x:.1f}"
+    """Half-life, h: 1 decimal place (:mod:`numfmt`)."""
+    return numfmt.num(x, "half_life")
 
 
 def litres(x: float | None) -> str:
-    """Volume, L: 1 decimal place."""
-    return "-" if x is None else f"{x:.1f}"
+    """Volume, L: 1 decimal place (:mod:`numfmt`)."""
+    return numfmt.num(x, "volume")
 
 
 def clearance(x: float | None) -> str:
-    """Clearance, L/h: 2 decimal places."""
-    return "-" if x is None else f"{x:.2f}"
+    """Clearance, L/h: 2 decimal places (:mod:`numfmt`)."""
+    return numfmt.num(x, "clearance")
 
 
 def auc(x: float | None) -> str:
-    """AUC24, mg*h/L: whole number."""
-    return "-" if x is None else f"{x:.0f}"
+    """AUC24, mg*h/L: whole number (:mod:`numfmt`)."""
+    return numfmt.num(x, "auc")
 
 
 def conc(x: float | None) -> str:
-    """Concentration, mg/L: 1 decimal place, 2 below 1 mg/L, ``<0.01`` below 0.005."""
-    if x is None:
-        return "-"
-    if x == 0:
-        return "0"
-    if 0 < x < 0.005:
-        return "<0.01"
-    return f"{x:.2f}" if abs(x) < 1.0 else f"{x:.1f}"
+    """Concentration, mg/L: 1 decimal place, 2 below 1 mg/L, ``<0.01`` below 0.005 (:mod:`numfmt`)."""
+    return numfmt.num(x, "conc")
 
 
 def mg(x: float | None) -> str:
-    """Dose, mg: as given, without trailing zeros (at most 1 decimal)."""
-    if x is None:
-        return "-"
-    return f"{round(float(x), 1):g}"
+    """Dose, mg: as given, without trailing zeros (at most 1 decimal; :mod:`numfmt`)."""
+    return numfmt.num(x, "dose")
 
 
 def scr(x: float) -> str:
-    """Serum creatinine, mg/dL: up to 2 decimals, trailing zeros dropped."""
-    return f"{x:.2f}".rstrip("0").rstrip(".")
+    """Serum creatinine, mg/dL: up to 2 decimals, trailing zeros dropped (:mod:`numfmt`)."""
+    return numfmt.num(x, "scr")
 
 
 def kg(x: float) -> str:
-    """Weight, kg: 1 decimal place."""
-    return f"{x:.1f}"
+    """Weight, kg: 1 decimal place (:mod:`numfmt`)."""
+    return numfmt.num(x, "weight")
 
 
 def pct(x: float) -> str:
-    """A share as a whole percentage."""
-    return f"{100.0 * x:.0f} %"
+    """A share as a whole percentage (``97 %``; :mod:`numfmt`)."""
+    return numfmt.qty(x, "share")
+
+
+def chance(x: float) -> str:
+    """A probability of target as a whole percentage (``63 %``, ``<1 %``; :mod:`numfmt`)."""
+    return numfmt.qty(x, "probability")
+
+
+def weight_words(rp: dict[str, Any], weight: float, used: float) -> str:
+    """Which weight ``used`` kg is, in words (``ideal body weight 70.5 kg``), from the result's patient object."""
+    for label, value in (("total body weight", weight), ("ideal body weight", rp.get("ibw_kg")),
+                         ("adjusted body weight", rp.get("adjbw_kg"))):
+        if value is not None and abs(used - value) < 0.05:
+            return f"{label} {kg(used)} kg"
+    return f"weight {kg(used)} kg"
 
 
 def duration(h: float) -> str:
@@ -246,14 +256,14 @@ MODES = {"auc": "AUC-guided", "peak-trough": "traditional dosing",
          "dialysis": "dose after each haemodialysis session"}
 
 
-def raw_scr(case: Any, index: int | None) -> str:
+def raw_scr(case: Case, index: int | None) -> str:
     """`` (entered 601 umol/L)`` when the SCr was entered in another unit than mg/dL, else ''."""
     raw = (case.raw.get("patient") or {}).get("scr")
     text = raw if index is None else (raw[index] or {}).get("value") if isinstance(raw, list) else None
     return f" (entered {text})" if isinstance(text, str) and "mg/dL" not in text else ""
 
 
-def target_lines(result: dict[str, Any], case: Any, default_mic: float | None) -> list[str]:
+def target_lines(result: dict[str, Any], case: Case, default_mic: float | None) -> list[str]:
     """Target bands, each with the name of its source (never an empty one), and the MIC."""
     tg = result.get("target")
     if tg:
@@ -344,10 +354,14 @@ def short_source(text: str) -> str:
     return re.split(r"[;,]", inner)[0].strip()
 
 
+def _numbered(word: str) -> Callable[[re.Match[str]], str]:
+    return lambda m: f"{word} {int(m.group(1)) + 1}"
+
+
 def plain_paths(text: str) -> str:
     """Case paths in words: ``doses[2]`` -> ``dose 3``, ``levels[0].time`` -> ``level 1``."""
     for pattern, word in _PATHS:
-        text = pattern.sub(lambda m, w=word: f"{w} {int(m.group(1)) + 1}", text)
+        text = pattern.sub(_numbered(word), text)
     return re.sub(r"\bpatient\.(\w+)", lambda m: m.group(1).replace("_", " "), text)
 
 

@@ -10,9 +10,12 @@ differs from the patient's headline CrCl. :func:`full_section` adds, for
 
 from __future__ import annotations
 
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from tdmtui.core import notefmt as f
+
+if TYPE_CHECKING:
+    from tdmtui.core.compute import Outcome
 
 #: The literature behind each level method (pk-sources.md 2.2-2.4; titles and pages from memory).
 METHOD_REFERENCES = {
@@ -44,7 +47,7 @@ def _used_covariates(model_id: str) -> list[str]:
                    for t in spec.get(k, [])})
 
 
-def _crcl_words(outcome: Any, model_id: str, value: float) -> str:
+def _crcl_words(outcome: Outcome, model_id: str, value: float) -> str:
     rules = _rules_of(model_id)
     weight = _WEIGHTS.get(str(rules.get("crcl_weight", "tbw")), str(rules.get("crcl_weight")))
     text = f"CrCl {value:.0f} mL/min (Cockcroft-Gault, {weight}, as the model defines it"
@@ -53,9 +56,7 @@ def _crcl_words(outcome: Any, model_id: str, value: float) -> str:
         why = []
         renal = outcome.renal
         if renal is not None and abs(renal.crcl_weight_kg - outcome.case.patient.weight) >= 0.05:
-            from tdmtui.core.note import weight_words
-
-            why.append("it uses " + weight_words(outcome.result["patient"], outcome.case.patient.weight,
+            why.append("it uses " + f.weight_words(outcome.result["patient"], outcome.case.patient.weight,
                                                            renal.crcl_weight_kg))
         if float(rules.get("crcl_cap_ml_min", 0) or 0) and value >= float(rules["crcl_cap_ml_min"]) - 0.5:
             why.append(f"the model caps CrCl at {float(rules['crcl_cap_ml_min']):.0f} mL/min")
@@ -68,7 +69,7 @@ def _crcl_words(outcome: Any, model_id: str, value: float) -> str:
     return text + ")"
 
 
-def input_parts(outcome: Any, e: dict[str, Any]) -> list[str]:
+def input_parts(outcome: Outcome, e: dict[str, Any]) -> list[str]:
     """The values a model was given, in words, only those the model uses."""
     model = e.get("model") or {}
     mid, cov = str(model.get("id") or ""), model.get("covariates") or {}
@@ -85,12 +86,12 @@ def input_parts(outcome: Any, e: dict[str, Any]) -> list[str]:
     return parts
 
 
-def inputs_in_words(outcome: Any, e: dict[str, Any]) -> str:
+def inputs_in_words(outcome: Outcome, e: dict[str, Any]) -> str:
     """:func:`input_parts` joined."""
     return ", ".join(input_parts(outcome, e))
 
 
-def model_words(outcome: Any) -> list[str]:
+def model_words(outcome: Outcome) -> list[str]:
     """The model behind the estimate used and what it was given (empty for level methods).
 
     For a model average, the inputs the models share are given once and the
@@ -127,7 +128,7 @@ def _table(res: dict[str, Any]) -> list[str]:
                   else "AUC24 in mg*h/L: none shown, no current regimen to predict."]
 
 
-def _model_detail(outcome: Any, label: str, e: dict[str, Any]) -> list[str]:
+def _model_detail(outcome: Outcome, label: str, e: dict[str, Any]) -> list[str]:
     model = e.get("model") or {}
     lines = f.wrap(f"{label}: {inputs_in_words(outcome, e) or 'no inputs recorded'}.", "", "    ")
     iv = e.get("interval90") or {}
@@ -149,7 +150,7 @@ def _model_detail(outcome: Any, label: str, e: dict[str, Any]) -> list[str]:
     return lines
 
 
-def full_section(outcome: Any) -> list[str]:
+def full_section(outcome: Outcome) -> list[str]:
     """Every method side by side, each model with its inputs, the methods that did not apply."""
     from tdmtui.core.noteplan import method_label
 
@@ -168,7 +169,7 @@ def full_section(outcome: Any) -> list[str]:
     return lines
 
 
-def references(outcome: Any) -> list[str]:
+def references(outcome: Outcome) -> list[str]:
     """Each source the note rests on, once, as a clinician would cite it."""
     res, rules = outcome.result, outcome.rules
     found: list[str] = []

@@ -9,12 +9,15 @@ put into words.
 
 from __future__ import annotations
 
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from tdmtui.core import chosen as ch
 from tdmtui.core import notefmt as f
 from tdmtui.core import registry
 from tdmtui.core.notework import working_lines
+
+if TYPE_CHECKING:
+    from tdmtui.core.compute import Outcome
 
 #: Each method in one sentence, for the note: the method registry's descriptions.
 METHOD_TEXT = {c: registry.description(c) for c in registry.CHOICES if c != "auto"}
@@ -37,7 +40,7 @@ def method_label(name: str, e: dict[str, Any]) -> str:
     return f"{family} ({model})" if model and family in ("bayesian", "population") else family
 
 
-def _level_numbers(outcome: Any, fields: list[str]) -> str:
+def _level_numbers(outcome: Outcome, fields: list[str]) -> str:
     order = {f"levels[{lv.index}]": n for n, lv in enumerate(outcome.case.levels, 1)}
     nums = [str(order[x]) for x in fields if x in order]
     return " and ".join(nums) if len(nums) <= 2 else ", ".join(nums[:-1]) + " and " + nums[-1]
@@ -51,7 +54,7 @@ def _others(res: dict[str, Any]) -> list[str]:
                   "(each one: tdmtui note --full).")
 
 
-def estimate_lines(outcome: Any, regimen: dict[str, Any] | None, model_words: list[str], full: bool) -> list[str]:
+def estimate_lines(outcome: Outcome, regimen: dict[str, Any] | None, model_words: list[str], full: bool) -> list[str]:
     """Method, estimate, model and its inputs, the working by hand, the other methods in one line."""
     res = outcome.result
     est, method = res.get("estimate"), res.get("method")
@@ -68,7 +71,7 @@ def estimate_lines(outcome: Any, regimen: dict[str, Any] | None, model_words: li
         lines += f.wrap(f"Method: {method_label(used, est)} ({METHOD_TEXT.get(used, used)}){on}.")
     if registry.option(method) is not None:
         lines += f.wrap(f"Estimate beside it: {method_label(used, est)}: {METHOD_TEXT.get(used, '')}.")
-    vkg = f" ({est['vd_l_per_kg']:.2f} L/kg)" if est.get("vd_l_per_kg") else ""
+    vkg = f" ({f.numfmt.qty(est['vd_l_per_kg'], 'volume_kg')})" if est.get("vd_l_per_kg") else ""
     lines += f.wrap(f"Estimate: ke {f.ke(est['ke_per_h'])} /h, t1/2 {f.hours(est['half_life_h'])} h, "
                     f"Vd {f.litres(est['vd_l'])} L{vkg}, CL {f.clearance(est['cl_l_per_h'])} L/h.")
     lines += model_words
@@ -83,7 +86,7 @@ def estimate_lines(outcome: Any, regimen: dict[str, Any] | None, model_words: li
     return lines + working_block(outcome, regimen) + ([] if full else _others(res))
 
 
-def working_block(outcome: Any, regimen: dict[str, Any] | None) -> list[str]:
+def working_block(outcome: Outcome, regimen: dict[str, Any] | None) -> list[str]:
     """The working a reviewer can check by hand, as the note and the app's working view print it."""
     lines = ["Working (to check by hand):"]
     for step in working_lines(outcome, regimen):
@@ -96,7 +99,7 @@ def _predicted(r: dict[str, Any]) -> str:
     text = ": predicted at steady state " + f.predicted(p)
     prob = r.get("target_probability", p.get("target_probability"))
     if prob is not None:
-        text += f"; chance of meeting the target {f.pct(float(prob))}"
+        text += f"; chance of meeting the target {f.chance(float(prob))}"
     return text
 
 
@@ -127,7 +130,7 @@ def hold_words(reg: dict[str, Any]) -> str:
     return f"No hold; next dose {nxt}"
 
 
-def regimen_lines(outcome: Any, reg: dict[str, Any] | None, picked: bool,
+def regimen_lines(outcome: Outcome, reg: dict[str, Any] | None, picked: bool,
                   wanted: dict[str, Any] | None, full: bool = False) -> list[str]:
     """Current regimen, the regimen given (chosen or proposed), its timing, the others considered."""
     res = outcome.result
@@ -170,7 +173,7 @@ def regimen_lines(outcome: Any, reg: dict[str, Any] | None, picked: bool,
     return lines
 
 
-def monitoring_lines(outcome: Any, reg: dict[str, Any] | None) -> list[str]:
+def monitoring_lines(outcome: Outcome, reg: dict[str, Any] | None) -> list[str]:
     """When to draw the next levels (of the regimen given) and what else to watch."""
     rules = outcome.rules
     lines: list[str] = []

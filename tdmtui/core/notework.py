@@ -24,12 +24,15 @@ view. Each figure is rounded by :mod:`tdmtui.core.notefmt`.
 from __future__ import annotations
 
 import math
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
 from tdmtui.core import notefmt as f
 from tdmtui.core.models import DoseArrays, PKParams, concentration
+
+if TYPE_CHECKING:
+    from tdmtui.core.compute import Outcome
 
 #: Methods whose estimate rests on levels around a dose (one compartment).
 LEVEL_METHODS = ("two-level", "sawchuk-zaske", "least-squares")
@@ -48,7 +51,7 @@ def _h(x: float) -> str:
     return f"{x:.2f}".rstrip("0").rstrip(".")
 
 
-def _used_levels(outcome: Any) -> list[Any]:
+def _used_levels(outcome: Outcome) -> list[Any]:
     est = outcome.result.get("estimate") or {}
     names = set(est.get("levels_used") or [])
     return sorted((lv for lv in outcome.case.levels if f"levels[{lv.index}]" in names), key=lambda lv: lv.time)
@@ -63,7 +66,7 @@ def _remaining(params: PKParams, doses: list[Any], t: float) -> float:
     return float(concentration(params, hist, np.array([t]))[0])
 
 
-def _levels_working(outcome: Any) -> list[str]:
+def _levels_working(outcome: Outcome) -> list[str]:
     """ke, peak and Vd from two levels after one dose, the textbook way."""
     levels = _used_levels(outcome)
     est = outcome.result["estimate"]
@@ -104,7 +107,7 @@ def _levels_working(outcome: Any) -> list[str]:
     return out
 
 
-def _model_working(outcome: Any) -> list[str]:
+def _model_working(outcome: Outcome) -> list[str]:
     """CL and V as the model gives them; ke from them."""
     est = outcome.result["estimate"]
     two = est.get("two_compartment") or {}
@@ -122,7 +125,7 @@ def _model_working(outcome: Any) -> list[str]:
     return out
 
 
-def _exposure(outcome: Any, reg: dict[str, Any] | None) -> list[str]:
+def _exposure(outcome: Outcome, reg: dict[str, Any] | None) -> list[str]:
     """AUC24 of the current regimen, the dose for the target, and (peak and trough targets) the regimen's levels."""
     res = outcome.result
     est, cur, tg = res["estimate"], res.get("current_regimen"), res.get("target") or {}
@@ -159,7 +162,7 @@ def _exposure(outcome: Any, reg: dict[str, Any] | None) -> list[str]:
     return out
 
 
-def working_lines(outcome: Any, regimen: dict[str, Any] | None = None) -> list[str]:
+def working_lines(outcome: Outcome, regimen: dict[str, Any] | None = None) -> list[str]:
     """The hand-checkable working for the estimate used and the regimen shown.
 
     Args:

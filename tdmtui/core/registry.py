@@ -210,9 +210,9 @@ def get(method_id: str) -> Method | None:
     return _BY_ID.get(method_id.split(":")[0])
 
 
-def option(choice: str) -> RegimenOption | None:
-    """The regimen option a choice names, or None when it names a method or ``auto``."""
-    return _OPTIONS.get(choice)
+def option(choice: str | None) -> RegimenOption | None:
+    """The regimen option a choice names, or None when it names a method, ``auto`` or nothing."""
+    return _OPTIONS.get(choice) if choice else None
 
 
 def split_choice(choice: str) -> tuple[str, str | None]:

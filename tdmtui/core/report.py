@@ -1,22 +1,19 @@
-"""Plain-text summary of a result for the command line (no colour, <= 80 columns)."""
+"""Plain-text summary of a result for the command line (no colour, <= 80 columns).
+
+Figures are rounded by :mod:`tdmtui.core.numfmt`, the rounding table the note and the app use.
+"""
 
 from __future__ import annotations
 
 import textwrap
 from typing import Any
 
+from tdmtui.core.numfmt import interval as _interval
+from tdmtui.core.numfmt import num
 from tdmtui.core.safety import NOTE_LINE
 from tdmtui.core.textsafe import neutralise
 
 WIDTH = 80
-
-
-def _n(x: float | None, digits: int = 3) -> str:
-    if x is None:
-        return "-"
-    if abs(x) >= 100:
-        return f"{x:.0f}"
-    return f"{x:.{digits}g}"
 
 
 def _wrap(text: str, indent: str = "") -> list[str]:
@@ -34,9 +31,10 @@ def short_name(name: str, drug: str, e: dict[str, Any]) -> str:
 def estimate_line(name: str, e: dict[str, Any]) -> str:
     """One row of the methods table."""
     cur = e.get("current") or {}
-    return (f"{name:<19}{_n(e['ke_per_h']):>8}{_n(e['half_life_h']):>7}{_n(e['vd_l']):>7}"
-            f"{_n(e['vd_l_per_kg']):>6}{_n(e['cl_l_per_h']):>7}{_n(cur.get('auc24_mg_h_per_l')):>8}"
-            f"{_n(cur.get('peak_mg_per_l')):>7}{_n(cur.get('trough_mg_per_l')):>7}")
+    cells = [(e.get(k), k, w) for k, w in (("ke_per_h", 8), ("half_life_h", 7), ("vd_l", 7), ("vd_l_per_kg", 6),
+                                            ("cl_l_per_h", 7))]
+    cells += [(cur.get(k), k, w) for k, w in (("auc24_mg_h_per_l", 8), ("peak_mg_per_l", 7), ("trough_mg_per_l", 7))]
+    return f"{name:<19}" + "".join(f"{num(v, k):>{w}}" for v, k, w in cells)
 
 
 def summary_text(result: dict[str, Any]) -> str:
@@ -44,12 +42,12 @@ def summary_text(result: dict[str, Any]) -> str:
     lines: list[str] = []
     p = result["patient"]
     lines.append(f"{result['drug']}  as of {result['as_of']}  status: {result['status'].upper()}")
-    lines += _wrap(f"CrCl {p['crcl_ml_min']:.0f} mL/min ({p['crcl_rule']})")
-    lines += _wrap(f"Dosing weight {p['dosing_weight_kg']:.1f} kg ({p['dosing_weight_rule']})")
+    lines += _wrap(f"CrCl {num(p['crcl_ml_min'], 'crcl')} mL/min ({p['crcl_rule']})")
+    lines += _wrap(f"Dosing weight {num(p['dosing_weight_kg'], 'weight')} kg ({p['dosing_weight_rule']})")
     cur = result.get("current_regimen")
     if cur:
-        lines += _wrap(f"Current regimen: {cur['dose_mg']:.0f} mg every {cur['interval_h']:g} h over "
-                       f"{cur['infusion_h']:g} h ({cur['source']})")
+        lines += _wrap(f"Current regimen: {num(cur['dose_mg'], 'dose')} mg every {num(cur['interval_h'], 'interval')} h "
+                       f"over {num(cur['infusion_h'], 'infusion')} h ({cur['source']})")
     est = result.get("estimate")
     if est:
         lines.append("")
@@ -61,8 +59,8 @@ def summary_text(result: dict[str, Any]) -> str:
         for name, e in result.get("methods", {}).items():
             lines.append(estimate_line(short_name(name, result["drug"], e), e))
         iv = est.get("interval90") or {}
-        for key, (lo, hi) in iv.items():
-            lines.append(f"  90 % interval {key}: {_n(lo)} to {_n(hi)}")
+        for key, pair in iv.items():
+            lines.append(f"  90 % interval {key}: {_interval(pair, key)[1:-1].replace('-', ' to ', 1)}")
         if est.get("model"):
             lines += _wrap(f"Model: {est['model'].get('id')} - {est['model'].get('citation')}")
     if not est and result.get("methods"):
@@ -82,15 +80,19 @@ def summary_text(result: dict[str, Any]) -> str:
             for text in plan_words(reg):
                 lines += _wrap(text)
         elif reg.get("mode") == "continuous":
-            lines += _wrap(f"Regimen: {reg['action']} - continuous infusion {reg['rate_mg_per_h']:.1f} mg/h "
-                           f"({reg['daily_dose_mg']:.0f} mg/day), starting {reg['next_dose_at']}")
+            lines += _wrap(f"Regimen: {reg['action']} - continuous infusion {num(reg['rate_mg_per_h'], 'rate')} mg/h "
+                           f"({num(reg['daily_dose_mg'], 'dose')} mg/day), starting {reg['next_dose_at']}")
         else:
-            lines += _wrap(f"Regimen: {reg['action']} - {reg['dose_mg']:.0f} mg every {reg['interval_h']:g} h over "
-                           f"{reg['infusion_h']:g} h, next dose {reg['next_dose_at']}")
+            lines += _wrap(f"Regimen: {reg['action']} - {num(reg['dose_mg'], 'dose')} mg every "
+                           f"{num(reg['interval_h'], 'interval')} h over {num(reg['infusion_h'], 'infusion')} h, "
+                           f"next dose {reg['next_dose_at']}")
         pr = reg.get("predicted", {})
         if reg.get("mode") not in ("dialysis", "redose-by-level"):
-            lines.append(f"  predicted AUC24 {_n(pr.get('auc24_mg_h_per_l'))} mg*h/L, peak {_n(pr.get('peak_mg_per_l'))}, "
-                     f"trough {_n(pr.get('trough_mg_per_l'))} mg/L")
+            line = (f"  predicted AUC24 {num(pr.get('auc24_mg_h_per_l'), 'auc')} mg*h/L, peak "
+                    f"{num(pr.get('peak_mg_per_l'), 'conc')}, trough {num(pr.get('trough_mg_per_l'), 'conc')} mg/L")
+            if pr.get("target_probability") is not None:
+                line += f", chance of target {num(pr['target_probability'], 'probability')} %"
+            lines += _wrap(line)
         if reg.get("skipped_doses"):
             lines += _wrap(f"{'hold' if reg.get('hold_until') else 'do not give'} the standing order's dose(s) due "
                            + ", ".join(reg["skipped_doses"]), "  ")
@@ -101,7 +103,8 @@ def summary_text(result: dict[str, Any]) -> str:
             lines.append(f"  nearer start {ns['next_dose_at']}: AUC next 24 h {_n(ns['day1_mg_h_per_l'])} mg*h/L")
         if reg.get("loading_dose"):
             ld = reg["loading_dose"]
-            lines.append(f"  loading dose {ld['dose_mg']:.0f} mg over {ld['infusion_h']:g} h at {ld['at']}")
+            lines.append(f"  loading dose {num(ld['dose_mg'], 'dose')} mg over {num(ld['infusion_h'], 'infusion')} h "
+                         f"at {ld['at']}")
         for nl in reg.get("next_levels", []):
             lines.append(f"  next level: {nl['kind']} at {nl['at']}")
     elif result["status"] == "stop":

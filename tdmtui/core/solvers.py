@@ -18,7 +18,7 @@ The tests check each against scipy (``brentq``, ``least_squares``,
 from __future__ import annotations
 
 import math
-from typing import Callable
+from typing import Any, Callable
 
 import numpy as np
 
@@ -101,7 +101,7 @@ def golden_min(f: Callable[[float], float], a: float, b: float, xtol: float = 1e
     return (x1, f1) if f1 <= f2 else (x2, f2)
 
 
-_erfc = np.frompyfunc(math.erfc, 1, 1)
+_erfc: Any = np.frompyfunc(math.erfc, 1, 1)  # a ufunc over objects (mypy cannot see its return)
 
 
 def log_ndtr(z: object) -> np.ndarray:

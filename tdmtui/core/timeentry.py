@@ -116,17 +116,6 @@ def resolve_time(text: str, anchor: float | None, clock: Clock, field: str) -> T
                             "(date from the row above) or a relative time +12h, +12h 25min")
 
 
-def duration_between(start: float, end: float, field: str) -> float:
-    """Infusion length in hours from its start and end.
-
-    Raises:
-        InputError: naming ``field`` when the end is before the start.
-    """
-    if end < start:
-        raise InputError(field, "the infusion ends before it starts")
-    return end - start
-
-
 def repeat_rows(row: dict[str, Any], interval_h: float, count: int, clock: Clock,
                 field: str = "doses") -> list[dict[str, Any]]:
     """The ``count`` rows that follow ``row`` every ``interval_h`` hours.

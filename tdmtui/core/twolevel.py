@@ -33,6 +33,7 @@ import numpy as np
 
 from tdmtui.core.case import Dose, Level
 from tdmtui.core.errors import NoEstimateError
+from tdmtui.core.library import common_number
 from tdmtui.core.models import DoseArrays, PKParams
 from tdmtui.core.models import onecomp
 from tdmtui.core.working import WorkingStep
@@ -56,7 +57,8 @@ def _fmt(x: float, d: int = 4) -> str:
     return f"{x:.{d}g}"
 
 
-def two_level(doses: DoseArrays, levels: list[Level], clock_fmt=None) -> TwoLevelResult:  # noqa: ANN001
+def two_level(doses: DoseArrays, levels: list[Level], clock_fmt=None,  # noqa: ANN001
+              min_gap_h: float | None = None) -> TwoLevelResult:
     """Exact whole-history fit through the two most recent usable levels.
 
     Args:
@@ -71,8 +73,10 @@ def two_level(doses: DoseArrays, levels: list[Level], clock_fmt=None) -> TwoLeve
         raise NoEstimateError(m, f"needs two usable levels after the first dose; {len(levels)} available "
                                  "(add a second post-distribution level, or use the Bayesian or population method)")
     a, b = levels[-2], levels[-1]
-    if b.time - a.time < 0.25:
-        raise NoEstimateError(m, "the two most recent usable levels are less than 15 min apart; draw them further apart")
+    gap = _gap(min_gap_h)
+    if b.time - a.time < gap:
+        raise NoEstimateError(m, f"the two most recent usable levels are less than {gap * 60:.0f} min apart; "
+                                 "draw them further apart")
     ta, tb = a.time, b.time
     from tdmtui.core.models.batch import Design, batch_concentration
 
@@ -113,6 +117,11 @@ def two_level(doses: DoseArrays, levels: list[Level], clock_fmt=None) -> TwoLeve
     return TwoLevelResult(m, PKParams.one_compartment(ke, v), [a.index, b.index], steps, "whole dose history superposed")
 
 
+def _gap(min_gap_h: float | None) -> float:
+    """The shortest span between two levels that gives ke, h (library ``levels.min_gap_h`` unless given)."""
+    return common_number("levels.min_gap_h") if min_gap_h is None else float(min_gap_h)
+
+
 def _dose_before(doses: list[Dose], t: float) -> Dose | None:
     before = [d for d in doses if d.start < t]
     return before[-1] if before else None
@@ -146,7 +155,7 @@ def _steady_share(doses: list[Dose], dose: Dose, ke: float, tau: float | None) -
 
 
 def sawchuk_zaske(doses: list[Dose], levels: list[Level], tau: float | None,
-                  steady_within: float = 0.05) -> TwoLevelResult:
+                  steady_within: float | None = None, min_gap_h: float | None = None) -> TwoLevelResult:
     """Textbook one-interval Sawchuk-Zaske calculation (pk-sources.md 2.4).
 
     Uses the two most recent usable levels. Both after the same dose: ke from
@@ -161,11 +170,15 @@ def sawchuk_zaske(doses: list[Dose], levels: list[Level], tau: float | None,
             levels not around a single dose.
     """
     m = "sawchuk-zaske"
+    if steady_within is None:  # the library's rule (a protocol's, when the caller passes its Rules' value)
+        steady_within = common_number("monitoring.steady_state_within_rel")
     if len(levels) < 2:
         raise NoEstimateError(m, f"needs two usable levels around one dose; {len(levels)} available")
     a, b = levels[-2], levels[-1]
-    if b.time - a.time < 0.25:
-        raise NoEstimateError(m, "the two most recent usable levels are less than 15 min apart; draw them further apart")
+    gap = _gap(min_gap_h)
+    if b.time - a.time < gap:
+        raise NoEstimateError(m, f"the two most recent usable levels are less than {gap * 60:.0f} min apart; "
+                                 "draw them further apart")
     da, db = _dose_before(doses, a.time), _dose_before(doses, b.time)
     if db is None:
         raise NoEstimateError(m, "the later level precedes every dose")
@@ -186,9 +199,10 @@ def sawchuk_zaske(doses: list[Dose], levels: list[Level], tau: float | None,
         cmax = a.conc * math.exp(ke * (a.time - dose.end))
         steps.append(WorkingStep("Peak at end of infusion", "Cmax = C1 e^(ke (t1 - t'))",
                                  f"{a.conc:g} x e^({ke:.4g} x {a.time - dose.end:.3g})", f"{cmax:.4g} mg/L", m))
-        prev = [lv for lv in levels[:-2] if lv.time < dose.start and (_dose_before(doses, lv.time) is None or
-                                                                     _dose_before(doses, lv.time).end <= lv.time)]
-        prev = [lv for lv in prev if _dose_before(doses, dose.start - 1e-9) is None or lv.time > _dose_before(doses, dose.start - 1e-9).start]
+        prev = [lv for lv in levels[:-2] if lv.time < dose.start and ((d := _dose_before(doses, lv.time)) is None or
+                                                                     d.end <= lv.time)]
+        earlier = _dose_before(doses, dose.start - 1e-9)
+        prev = [lv for lv in prev if earlier is None or lv.time > earlier.start]
         f_hist = 0.0
         if prev:
             p = prev[-1]
@@ -200,7 +214,7 @@ def sawchuk_zaske(doses: list[Dose], levels: list[Level], tau: float | None,
         else:
             share, f_hist, n_before = _steady_share(doses, dose, ke, tau)
             used = [a.index, b.index]
-            if share is not None and abs(share - 1.0) <= steady_within:
+            if share is not None and tau is not None and abs(share - 1.0) <= steady_within:
                 cpre = cmax * math.exp(-ke * (tau - dose.duration))
                 f_hist = 0.0
                 assumption = (f"steady state on a {tau:g} h interval (the {n_before} earlier doses put the pre-dose "
@@ -226,7 +240,7 @@ def sawchuk_zaske(doses: list[Dose], levels: list[Level], tau: float | None,
             raise NoEstimateError(m, "the two levels are not a trough before one dose and a peak after it")
         delta = db.start - a.time
         t_equiv = db.start + tau - delta
-        if t_equiv - b.time < 0.25:
+        if t_equiv - b.time < gap:
             raise NoEstimateError(m, "the peak is drawn where the trough would recur at steady state "
                                      f"({tau:g} h interval): the two levels carry no elimination information")
         ke = math.log(b.conc / a.conc) / (t_equiv - b.time)

@@ -104,9 +104,3 @@ def canonical_unit(kind: str) -> str:
     """The canonical unit of a kind (``dose`` -> ``mg``)."""
     return KINDS[kind][0]
 
-
-def format_quantity(value: float, kind: str, digits: int = 4) -> str:
-    """Write a canonical value back as a contract quantity string (for saving)."""
-    unit = canonical_unit(kind)
-    text = f"{value:.{digits}f}".rstrip("0").rstrip(".")
-    return f"{text or '0'} {unit}"

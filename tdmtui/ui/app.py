@@ -301,8 +301,8 @@ class TdmApp(ComputeMixin, FilingMixin, App[int]):
         self.chosen = event.regimen
         self.doc.snapshot("choose a regimen")
         self.doc.raw[KEY] = chosen_raw(event.regimen)
-        if self.outcome is not None:  # the note follows at once; the recompute brings the record up to date
-            self.outcome.case.raw[KEY] = self.doc.raw[KEY]
+        # the note follows at once (given the choice; the assessment is never changed); the recompute
+        # brings the record up to date
         self.post_message(CaseEdited(KEY))
         self.refresh_note()
         self.notify("Regimen chosen: the note gives it as the regimen; ctrl+s saves it with the case.", timeout=4)
@@ -314,7 +314,7 @@ class TdmApp(ComputeMixin, FilingMixin, App[int]):
         if self.outcome is None:
             return
         saved = self.doc.opened.sha256 if self.doc.opened is not None and not self.doc.dirty else None
-        self.note = note_text(self.outcome, full=self.note_full, saved_digest=saved)
+        self.note = note_text(self.outcome, chosen=self.chosen, full=self.note_full, saved_digest=saved)
         self.query_one(NoteSection).show(self.note)
 
     def action_note_full(self) -> None:

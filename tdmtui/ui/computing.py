@@ -59,8 +59,8 @@ class ComputeMixin:
 
         self.compute_pending = False
         self.generation += 1
-        try:
-            parse_case(self.doc.raw)
+        try:  # parsed once: the worker computes this Case (a deep copy of the raw case, so later edits
+            case = parse_case(copy.deepcopy(self.doc.raw), self.saved_bytes())  # never reach it)
         except InputError as exc:
             self.post_message(EstimateFailed(self.generation, "input", exc.field, exc.message))
             return
@@ -71,7 +71,7 @@ class ComputeMixin:
         if self._spinner is not None:
             self._spinner.stop()
         self._spinner = self.set_timer(SPINNER_AFTER_S, self._show_spinner)
-        self.compute_case(self.generation, copy.deepcopy(self.doc.raw), self.saved_bytes())
+        self.compute_case(self.generation, case)
 
     def saved_bytes(self) -> bytes | None:
         """The case file's bytes when the case is unchanged since it was opened or saved (its digest is the file's)."""
@@ -91,16 +91,14 @@ class ComputeMixin:
             self.set_status("Computing... (the result updates when it is done)")
 
     @work(thread=True, exclusive=True, exit_on_error=False, group="compute")
-    def compute_case(self, generation: int, raw: dict[str, Any], data: bytes | None = None) -> None:
-        """Worker thread: run the engine and post what happened (never touches widgets)."""
+    def compute_case(self, generation: int, case: Any) -> None:
+        """Worker thread: run the engine on the parsed Case and post what happened (never touches widgets)."""
         t0 = time.perf_counter()
         try:
-            from tdmtui.core.compute import compute_raw
+            from tdmtui.core.compute import compute
             from tdmtui.core.errors import InputError, NoEstimateError
-            from tdmtui.ui.widgets.plotdata import build_plot_data
 
-            outcome = compute_raw(raw, data, protocol=self.protocol)
-            outcome.plot_data = build_plot_data(outcome)
+            outcome = compute(case, protocol=self.protocol)
             self.post_message(EstimateReady(generation, outcome, time.perf_counter() - t0))
         except InputError as exc:
             self.post_message(EstimateFailed(generation, "input", exc.field, exc.message))
@@ -118,7 +116,7 @@ class ComputeMixin:
         self.outcome = event.outcome
         result = event.outcome.result
         self.update_header()
-        self.query_one(EstimateSection).show(event.outcome, getattr(event.outcome, "plot_data", None))
+        self.query_one(EstimateSection).show(event.outcome)
         plan = self.query_one(PlanSection)
         plan.show(event.outcome)
         self.chosen = plan.options[plan.chosen] if plan.chosen is not None else None
@@ -139,7 +137,7 @@ class ComputeMixin:
             return
         self.computing = False
         self.outcome = None
-        self.query_one(EstimateSection).show(None, None)
+        self.query_one(EstimateSection).show(None)
         self.query_one(PlanSection).show(None)
         from tdmtui.ui.fieldmap import rows_in_words
 

@@ -148,10 +148,6 @@ class CaseDocument:
         self.dirty = True
         return row
 
-    def can_undo(self) -> bool:
-        """True when a row change can be undone."""
-        return bool(self._undo)
-
     def undo(self) -> str:
         """Go back one row change; returns what was undone ("" when nothing)."""
         if not self._undo:

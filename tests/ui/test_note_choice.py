@@ -74,3 +74,29 @@ async def test_working_view_is_the_notes_working(state, sample_copy):
         shown = str(app.screen.query_one("#est-working-text", Static).content)
     block = app.note.split("Working (to check by hand):\n")[1].split("\nOther methods")[0]
     assert " ".join(block.split()) in " ".join(shown.split())
+
+
+async def test_one_parse_per_recompute(state, sample_copy, monkeypatch):
+    """The app reads the case once per recompute: the worker computes the Case the check produced."""
+    import tdmtui.core.case as case_mod
+
+    calls = []
+    real = case_mod.parse_case
+
+    def counting(*args, **kwargs):
+        calls.append(1)
+        return real(*args, **kwargs)
+
+    monkeypatch.setattr(case_mod, "parse_case", counting)
+    import tdmtui.core.compute as compute_mod
+
+    monkeypatch.setattr(compute_mod, "parse_case", counting)  # compute_raw's own reference
+    path = sample_copy("vanc-steady-state.json")
+    app = TdmApp(str(path), None, state=state)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        assert app.outcome is not None
+        calls.clear()
+        app.request_compute(now=True)
+        await settle(pilot)
+        assert app.outcome is not None and len(calls) == 1

@@ -15,18 +15,21 @@ from __future__ import annotations
 
 import hashlib
 import re
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from tdmtui.core.errors import InputError
 from tdmtui.core.fhir.build import Imported, build_case
 from tdmtui.core.fhir.codes import CodeBook
 from tdmtui.core.fhir.read import decode, looks_like_fhir, read_export
 
+if TYPE_CHECKING:
+    from tdmtui.core.library import Protocol
+
 __all__ = ["Imported", "check_case", "import_export", "looks_like_fhir"]
 
 
 def import_export(data: bytes, name: str, *, drug: str | None = None, as_of: str | None = None,
-                  protocol: Any = None) -> Imported:
+                  protocol: Protocol | None = None) -> Imported:
     """Read an export's bytes and build the case and its report.
 
     Args:
@@ -40,11 +43,11 @@ def import_export(data: bytes, name: str, *, drug: str | None = None, as_of: str
     from tdmtui.core.library import DRUGS
 
     export = read_export(decode(data, name))
-    book = CodeBook(dict(getattr(protocol, "local_codes", {}) or {}))
+    book = CodeBook(dict(protocol.local_codes) if protocol is not None else {})
     imported = build_case(export, book, tuple(DRUGS), drug=drug, as_of=as_of, source=name,
                           sha256=hashlib.sha256(data).hexdigest())
-    if book.local:
-        imported.report.protocol = str(getattr(protocol, "name", ""))
+    if book.local and protocol is not None:
+        imported.report.protocol = protocol.name
     return imported
 
 

@@ -12,7 +12,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from datetime import date
-from typing import Any
+from typing import Any, Callable
 
 from tdmtui.core.errors import InputError, one_line
 from tdmtui.core.fhir.codes import CodeBook
@@ -24,7 +24,7 @@ from tdmtui.core.fhir.values import Skip, birth_date, case_time, moment
 FORMAT = "tdmtui.case/1"
 SEX = {"male": "male", "female": "female"}
 REQUIRED = ("patient.age", "patient.sex", "patient.weight", "patient.height", "patient.scr")
-MAPPERS = {"Observation": map_observation, "MedicationAdministration": map_administration,
+MAPPERS: dict[str, Callable[..., Piece]] = {"Observation": map_observation, "MedicationAdministration": map_administration,
            "MedicationRequest": map_request}
 
 

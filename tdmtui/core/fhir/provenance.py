@@ -34,7 +34,7 @@ def _describe(fieldname: str, value: Any) -> str:
 
 def _current(raw: dict[str, Any], fieldname: str) -> list[Any]:
     """The values now in the case at a provenance field (a list, for rows)."""
-    patient = raw.get("patient") if isinstance(raw.get("patient"), dict) else {}
+    patient: dict[str, Any] = raw["patient"] if isinstance(raw.get("patient"), dict) else {}
     if fieldname == "patient.scr":
         rows = patient.get("scr")
         return list(rows) if isinstance(rows, list) else []

@@ -171,7 +171,7 @@ def map_administration(e: Entry, export: Export, book: CodeBook, patient: Entry 
         raise Skip(f"medication {concept_words(r.get('medicationCodeableConcept')) or 'not named'!r} "
                    "is not a drug of the library")
     check_subject(e, export, patient)
-    dosage = r.get("dosage") if isinstance(r.get("dosage"), dict) else {}
+    dosage: dict[str, Any] = r["dosage"] if isinstance(r.get("dosage"), dict) else {}
     notes = [n for n in (_route_ok(dosage),) if n]
     amount, unit = quantity(dosage.get("dose"), "dose", "the dose")
     if amount <= 0:

@@ -29,7 +29,7 @@ def _models() -> Any:
     return get_fhir_model_class
 
 
-def structure_errors(raw: Any) -> list[str]:
+def structure_errors(raw: object) -> list[str]:
     """Every structure error of an export (a Bundle, or each resource of an array), as one-line texts."""
     get = _models()
     from pydantic import ValidationError

@@ -28,7 +28,7 @@ else:  # pragma: no cover - Python 3.10
 from tdmtui.core.errors import InputError
 
 #: Version of the library data as a whole; bump when any value changes.
-LIBRARY_VERSION = "2026.12.2"
+LIBRARY_VERSION = "2026.12.3"
 
 DRUGS = ("vancomycin", "gentamicin", "tobramycin", "amikacin")
 
@@ -60,6 +60,11 @@ def flatten(tree: dict[str, Any], prefix: str = "") -> dict[str, tuple[Any, str]
 @lru_cache(maxsize=None)
 def _common_flat() -> dict[str, tuple[Any, str]]:
     return flatten(_read("common.toml"))
+
+
+def common_number(key: str) -> float:
+    """A number of the common library (common.toml) by dotted key, for code given no drug's Rules."""
+    return float(_common_flat()[key][0])
 
 
 @lru_cache(maxsize=None)
@@ -151,7 +156,7 @@ def protocol_from_tree(tree: dict[str, Any], sha256: str, default_name: str = "p
     proto = Protocol(name, sha256)
     for section, body in tree.items():
         if section == "local_codes":
-            from tdmtui.core.fhir.codes import parse_local_codes
+            from tdmtui.core.library.localcodes import parse_local_codes
 
             proto.local_codes = parse_local_codes(body, tuple(DRUGS))
             continue

@@ -261,6 +261,7 @@ SCHEMA: dict[str, Spec] = {
     "monitoring.peak_after_end_h": num("h", 0.0, 6.0),
     "monitoring.steady_state_within_rel": num("fraction", 0.0, 0.5),
     "monitoring.ward_hours": band("h of the day", 0.0, 24.0),
+    "levels.min_gap_h": num("h", 0.05, 2.0),
     # ------------------------------------------------------------ extended-interval aminoglycosides
     "extended.mg_per_kg": num("mg/kg", 0.0, 30.0),
     "extended.auc24": band("mg*h/L", 0.0, 300.0),
@@ -319,7 +320,7 @@ def _numbers(x: Any, spec: Spec, field: str, size: int | None = None) -> list[fl
     return [_number(v, spec, f"{field}[{i}]") for i, v in enumerate(x)]
 
 
-def check_value(value: Any, spec: Spec, field: str) -> None:
+def check_value(value: object, spec: Spec, field: str) -> None:
     """Check one value against its spec. Raises InputError naming ``field``."""
     kind = spec.kind
     if kind == "num":

@@ -73,9 +73,10 @@ class ParamSchedule:
         """The set that holds from the last change on (what a forecast uses)."""
         return self.params[-1]
 
-    def arrays(self) -> tuple[np.ndarray, ...]:
+    def arrays(self) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
         """(cl, v1, q, v2) each of shape (1, s) for :func:`batch_tv_concentration`."""
-        return tuple(np.array([[getattr(p, f) for p in self.params]]) for f in ("cl", "v1", "q", "v2"))
+        cl, v1, q, v2 = (np.array([[getattr(p, f) for p in self.params]]) for f in ("cl", "v1", "q", "v2"))
+        return cl, v1, q, v2
 
 
 def _bounds(changes: np.ndarray) -> np.ndarray:

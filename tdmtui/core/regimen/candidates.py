@@ -133,10 +133,10 @@ def infusion_time(dose: float, rules: Rules, keep_h: float | None = None) -> flo
     ``keep_h`` (the patient's own infusion time) replaces the minimum time; the rate limit still holds.
     """
     t = float(rules.value("regimen.min_infusion_h")) if keep_h is None else float(keep_h)
-    rate = float(rules.get("regimen.max_rate_mg_per_h", 0.0) or 0.0)
+    rate = float(rules.value("regimen.max_rate_mg_per_h"))
     if rate > 0:
         t = max(t, dose / rate)
-    step = float(rules.get("regimen.infusion_step_h", 0.0) or 0.0)
+    step = float(rules.value("regimen.infusion_step_h"))
     if step > 0:
         t = math.ceil(t / step - 1e-9) * step
     return t
@@ -160,7 +160,7 @@ def terminal_rate(params: PKParams) -> float:
     return params.ke
 
 
-def ss_at(params: PKParams, dose: float, tau: float, tinf: float, u: Any) -> np.ndarray:
+def ss_at(params: PKParams, dose: float, tau: float, tinf: float, u: float | np.ndarray) -> np.ndarray:
     """Steady-state concentration ``u`` h after the start of a dose (0 <= u <= tau), mg/L.
 
     Superposition (pk-sources.md 2.2) of the dose at 0 and every earlier dose
@@ -189,10 +189,12 @@ def judge(targets: Targets, peak_ref: np.ndarray, trough: np.ndarray, auc24: np.
     on = np.ones(np.shape(dose), dtype=bool)
     t = targets
 
-    def inside(x: np.ndarray, band: tuple[float, float]) -> np.ndarray:
+    def inside(x: np.ndarray, band: tuple[float, float] | None) -> np.ndarray:
+        assert band is not None  # every mode's own band is resolved (regimen.targets)
         return (x >= band[0] - 1e-9) & (x <= band[1] + 1e-9)
 
-    def dist(x: np.ndarray, band: tuple[float, float]) -> np.ndarray:
+    def dist(x: np.ndarray, band: tuple[float, float] | None) -> np.ndarray:
+        assert band is not None
         width = max(band[1] - band[0], 1e-9)
         return np.abs(x - 0.5 * (band[0] + band[1])) / width
 
@@ -298,7 +300,7 @@ def choose(cands: list[Candidate], current_interval: float | None, tie_rel: floa
     return chosen, alts
 
 
-def _draw_values(samples: Any, c: Candidate) -> tuple[np.ndarray, ...]:
+def _draw_values(samples: Any, c: Candidate) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray | None]:
     """(peak, trough, auc24, peak at reference, weights or None) per draw for one candidate.
 
     Batched draws (an object with ``steady_state(dose, tau, tinf, peak_delay_h)``

@@ -25,11 +25,6 @@ if TYPE_CHECKING:
 DAY_H = 24.0
 
 
-def rate_for(params: PKParams, css: float) -> float:
-    """Infusion rate, mg/h, giving ``css`` mg/L at steady state: R = Css x CL."""
-    return css * params.cl
-
-
 def candidates(params: PKParams, targets: Targets, rules: Rules) -> list[Candidate]:
     """Daily amounts on the grid (24 h infusions), judged against the Css band."""
     step = float(rules.value("regimen.rounding_mg"))

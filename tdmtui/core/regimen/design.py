@@ -42,7 +42,7 @@ from tdmtui.core.regimen.types import Plan, RegimenInput
 def choose_mode(inp: RegimenInput, alerts: list[Alert]) -> str:
     """The regimen mode for this case (module docstring)."""
     rules, ct, cur = inp.rules, inp.case_target, inp.current
-    default = str(rules.get("regimen.default_mode", "auc"))
+    default = str(rules.value("regimen.default_mode"))
     if rules.get("drug.family") != "aminoglycoside":
         if inp.option == "nomogram":
             alerts.append(Alert("nomogram-entry", "stop", "method",
@@ -59,8 +59,8 @@ def choose_mode(inp: RegimenInput, alerts: list[Alert]) -> str:
         mode = "extended"
     elif cur:
         per_kg = cur.dose_mg / inp.dosing_weight_kg if inp.dosing_weight_kg > 0 else 0.0
-        ext = cur.interval_h >= float(rules.get("extended.min_interval_h", 24.0)) and per_kg >= float(
-            rules.get("regimen.extended_min_mg_per_kg", math.inf))
+        ext = cur.interval_h >= float(rules.value("extended.min_interval_h")) and per_kg >= float(
+            rules.value("regimen.extended_min_mg_per_kg"))
         mode = "extended" if ext else "peak-trough"
     else:
         mode = default if default in ("extended", "peak-trough") else "peak-trough"
@@ -96,7 +96,7 @@ def sources(inp: RegimenInput, targets: Targets) -> dict[str, Any]:
 def _intervals(inp: RegimenInput, mode: str) -> list[float]:
     every = [float(x) for x in inp.rules.value("regimen.intervals_h")]
     if mode == "extended":
-        low = float(inp.rules.get("extended.min_interval_h", 24.0))
+        low = float(inp.rules.value("extended.min_interval_h"))
         return [x for x in every if x >= low]
     return every
 
@@ -203,19 +203,19 @@ def finish(inp: RegimenInput, targets: Targets, mode: str, plan: Plan, cands: li
         for row, prob in zip(plan.candidates, table_probabilities(cands, inp.samples, targets, _dose_ref(inp, mode))):
             row["probability"] = prob
     current = _current(inp, targets, mode)
-    tie = float(rules.get("regimen.choice_tie_rel", 0.0))
+    tie = float(rules.value("regimen.choice_tie_rel"))
     banded = bool(targets.auc24 or targets.peak)
     keep = inp.current.interval_h if inp.current and mode != "extended" else None
     best, alts = choose(cands, keep, tie,
                         shortest_first=mode == "extended" and banded, interval_band=practice.interval_band(rules, params, mode),
                         shortest_tie=mode == "extended" and not banded,
-                        keep_within=float(rules.get("regimen.keep_interval_within_rel", math.inf)))
+                        keep_within=float(rules.value("regimen.keep_interval_within_rel")))
     continuing = False
     if fixed is not None:
         chosen = fixed
         continuing = current is not None and abs(current.dose_mg - fixed.dose_mg) < 1e-6 and \
             abs(current.interval_h - fixed.interval_h) < 1e-6
-        if continuing:
+        if continuing and current is not None:
             chosen = current  # the standing order as given (its own infusion time)
     elif current is not None and current.on_target and _within_caps(current, rules):
         chosen, continuing = current, True
@@ -333,8 +333,9 @@ def _loading(inp: RegimenInput, targets: Targets, mode: str, chosen: Candidate, 
             tinf = infusion_time(ld.dose_mg, rules)
         if ld is None:
             return None
+    assert ld is not None  # both branches above give one or return
     if mode != "continuous" and not (new_start and not aminoglycoside):
-        rel = float(rules.get("loading.topup_min_rel", 0.0))
+        rel = float(rules.value("loading.topup_min_rel"))
         if ld.dose_mg < max(chosen.dose_mg * (1.0 + rel), chosen.dose_mg + step) - 1e-9:
             return None
     if ld.capped:

@@ -131,9 +131,9 @@ def applies(inp: RegimenInput) -> bool:
     rules, cur = inp.rules, inp.current
     if "nomogram.q24_line" not in rules or cur is None or not inp.levels or not inp.doses:
         return False
-    low = float(rules.get("extended.min_interval_h", 24.0))
+    low = float(rules.value("extended.min_interval_h"))
     per_kg = cur.dose_mg / inp.dosing_weight_kg if inp.dosing_weight_kg > 0 else 0.0
-    if cur.interval_h < low or per_kg < float(rules.get("regimen.extended_min_mg_per_kg", float("inf"))):
+    if cur.interval_h < low or per_kg < float(rules.value("regimen.extended_min_mg_per_kg")):
         return False
     reading, found = nomogram.read(rules, inp.doses, inp.levels, inp.dosing_weight_kg, inp.crcl_ml_min,
                                    inp.renal_replacement, inp.conditions)

@@ -147,7 +147,7 @@ def level_plan(rules: Rules, targets: Targets, mode: str, method: str, continuin
 def _draw(rules: Rules, targets: Targets, mode: str, item: list[Any], first: float, tau: float,
           tinf: float, clock: Clock) -> tuple[float, dict[str, Any]]:
     """One planned draw: (time h, its row), on the protocol's grid (wardclock.py)."""
-    before = float(rules.get("monitoring.trough_before_h", 0.5))
+    before = float(rules.value("monitoring.trough_before_h"))
     kind, n = str(item[0]), int(item[1])
     start = first + (n - 1) * tau
     if kind == "trough":

@@ -65,7 +65,7 @@ def weight_based(rules: Rules, weight_kg: float, bmi: float, continuous: bool = 
     key = "continuous.loading_mg_per_kg" if continuous else "loading.mg_per_kg"
     mgkg = float(rules.value(key))
     note = f"{mgkg:g} mg/kg x {weight_kg:g} kg actual body weight ({rules.citation(key)})"
-    if not continuous and "loading.obese_mg_per_kg" in rules and bmi >= float(rules.get("loading.obese_bmi", math.inf)):
+    if not continuous and "loading.obese_mg_per_kg" in rules and bmi >= float(rules.value("loading.obese_bmi")):
         top = float(rules.value("loading.obese_mg_per_kg")[1])
         if mgkg > top:
             mgkg = top

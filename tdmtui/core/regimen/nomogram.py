@@ -105,7 +105,7 @@ def initial_interval(rules: Rules, crcl: float) -> float | None:
 def exclusions(rules: Rules, crcl: float, renal_replacement: str, conditions: tuple[str, ...]) -> list[tuple[str, str]]:
     """Failed patient checks for extended-interval dosing: (field, message)."""
     out: list[tuple[str, str]] = []
-    low = float(rules.get("extended.min_crcl_ml_min", 0.0))
+    low = float(rules.value("extended.min_crcl_ml_min"))
     if crcl < low:
         out.append(("patient.scr", f"CrCl {crcl:.0f} mL/min is below {low:g} mL/min "
                     f"({rules.citation('extended.min_crcl_ml_min')})"))
@@ -160,7 +160,7 @@ def read(rules: Rules, doses: tuple[Dose, ...], levels: tuple[Level, ...], dosin
 def _zone(rules: Rules, chart: dict[str, dict[str, Any]], after: float, level: Level,
           dose: Dose) -> tuple[Reading, list[Alert]]:
     alerts: list[Alert] = []
-    margin = float(rules.get("nomogram.borderline_rel", 0.0))
+    margin = float(rules.value("nomogram.borderline_rel"))
     zone, interval, borderline = "above-known-lines", None, False
     for name, tau in LINES:
         if name not in chart:

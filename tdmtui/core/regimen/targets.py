@@ -173,8 +173,8 @@ def resolve_targets(rules: Rules, case_target: Target | None, mode: str,
         raise ValueError(f"unknown regimen mode {mode!r}")
     pick = _Picker(rules)
     ct = case_target
-    mic = ct.mic if ct and ct.mic else float(rules.get("mic.default_mg_l", 1.0))
-    ref = str(rules.get("targets.peak_reference", "end"))
+    mic = ct.mic if ct and ct.mic else float(rules.value("mic.default_mg_l"))
+    ref = str(rules.value("targets.peak_reference"))
     indication = ct.indication if ct else None
     kw: dict[str, Any] = {}
     if mode == "auc":
@@ -218,4 +218,4 @@ def resolve_targets(rules: Rules, case_target: Target | None, mode: str,
                                 if "targets.peak_reference" in rules else "library")
     return Targets(mode=mode, peak_reference=ref, mic=float(mic), indication=indication,
                    sources=pick.sources, citations=pick.citations,
-                   **{k: (tuple(map(float, v)) if v else None) for k, v in kw.items()})
+                   **{k: ((float(v[0]), float(v[1])) if v else None) for k, v in kw.items()})

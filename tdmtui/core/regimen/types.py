@@ -10,6 +10,8 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
 
+from tdmtui.core.course import CurrentRegimen  # the one standing-order type (re-exported here)
+
 if TYPE_CHECKING:
     import numpy as np
 
@@ -18,23 +20,6 @@ if TYPE_CHECKING:
     from tdmtui.core.clock import Clock
     from tdmtui.core.library import Rules
     from tdmtui.core.models import DoseArrays, PKParams
-
-
-@dataclass(frozen=True)
-class CurrentRegimen:
-    """The standing order as the case gives it (case-format.md "current regimen").
-
-    Attributes:
-        dose_mg: amount per dose, mg (for a continuous infusion: mg per interval).
-        interval_h: interval between starts, h.
-        infusion_h: infusion duration, h (== interval for a continuous infusion).
-        source_text: where it came from (``schedule`` or the last maintenance doses).
-    """
-
-    dose_mg: float
-    interval_h: float
-    infusion_h: float
-    source_text: str = ""
 
 
 @dataclass(frozen=True)
@@ -86,6 +71,9 @@ class RegimenInput:
     option: str | None = None
     levels: tuple[Level, ...] = ()
     doses: tuple[Dose, ...] = ()
+
+
+__all__ = ["CurrentRegimen", "Plan", "RegimenInput"]
 
 
 @dataclass

@@ -80,8 +80,8 @@ class EstimateSection(Vertical):
         self.query_one(ContentSwitcher).current = view
         self.query_one(f"#{view}").focus()
 
-    def show(self, outcome: Any, plot: Any) -> None:
-        """Fill the views from an Outcome (None: clear them)."""
+    def show(self, outcome: Any) -> None:
+        """Fill the views from an Outcome (None: clear them); the graph builds its curves when it is drawn."""
         table = self.query_one("#est-table", DataTable)
         table.clear(columns=True)
         result = outcome.result if outcome is not None else {}
@@ -106,7 +106,7 @@ class EstimateSection(Vertical):
             table.add_row("levels used", *[", ".join("#" + str(int(x.strip("levels[]")) + 1) for x in est.get("levels_used", [])) or "none"
                                            for _, est in cols])
         self.query_one("#est-working-text", Static).update(working_text(outcome))
-        self.query_one(ConcPlot).show(plot)
+        self.query_one(ConcPlot).show_outcome(outcome)
 
 
 def working_text(outcome: Any) -> str:
@@ -118,11 +118,10 @@ def working_text(outcome: Any) -> str:
 
     lines = working_block(outcome, chosen_of(outcome)[0]) + ["", "How the engine solved it:"]
     for i, w in enumerate(outcome.working, 1):
-        lines.append(f"{i}. {w.title}" + (f"  [{w.method}]" if getattr(w, "method", "") else ""))
+        lines.append(f"{i}. {w.title}" + (f"  [{w.method}]" if w.method else ""))
         lines.append(f"   {w.equation}")
         if w.substituted:
             lines.append(f"   = {w.substituted}")
-        value = getattr(w, "value", "") or getattr(w, "value_text", "")
-        if value:
-            lines.append(f"   -> {value}")
+        if w.value:
+            lines.append(f"   -> {w.value}")
     return "\n".join(lines)

@@ -126,10 +126,10 @@ def derived_text(raw: dict[str, Any], protocol: Any = None) -> tuple[str, str, f
         why = exc.message if isinstance(exc, InputError) else str(exc)
         return "Derived values appear when age, sex, weight, height and SCr read.", f"({why})", None
     s = summary
-    line1 = (f"IBW {fm.qty(s.ibw, 'kg')}  AdjBW {fm.qty(s.adjbw, 'kg')}  BMI {fm.num(s.bmi, 'bmi')}  "
-             f"dosing wt {fm.qty(s.dosing_weight_kg, 'kg')}")
-    line2 = (f"CrCl {fm.qty(s.crcl_ml_min, 'crcl_ml_min')} (C-G, {fm.qty(s.crcl_weight_kg, 'kg')})  "
-             f"eGFR {fm.num(s.egfr_ckd_epi, 'egfr')} mL/min/1.73m2 (CKD-EPI 2021)")
+    line1 = (f"IBW {fm.qty(s.ibw, 'weight')}  AdjBW {fm.qty(s.adjbw, 'weight')}  BMI {fm.num(s.bmi, 'bmi')}  "
+             f"dosing wt {fm.qty(s.dosing_weight_kg, 'weight')}")
+    line2 = (f"CrCl {fm.qty(s.crcl_ml_min, 'crcl_ml_min')} (C-G, {fm.qty(s.crcl_weight_kg, 'weight')})  "
+             f"eGFR {fm.qty(s.egfr_ckd_epi, 'egfr')} (CKD-EPI 2021)")
     return line1, line2, s.crcl_ml_min
 
 

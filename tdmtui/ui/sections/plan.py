@@ -42,7 +42,7 @@ def chosen_in(raw: dict[str, Any]) -> dict[str, Any] | None:
 def probability_text(c: dict[str, Any]) -> str:
     """Probability of target attainment from posterior draws, as a percentage ("-" without draws)."""
     p = c.get("target_probability", (c.get("predicted") or {}).get("target_probability"))
-    return "-" if p is None else f"{100 * float(p):.0f} %"
+    return fm.qty(p, "probability")
 
 
 def summary_lines(result: dict[str, Any]) -> str:

@@ -8,7 +8,7 @@ quantification), target limits "-" lines, "now" a "|" line.
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any
 
 from rich.text import Text
 from textual.widget import Widget
@@ -86,7 +86,9 @@ def plot_lines(data: PlotData, width: int, height: int) -> list[tuple[str, list[
 
 
 class ConcPlot(Widget, can_focus=True):
-    """The concentration-time plot; call :meth:`show` with PlotData or None."""
+    """The concentration-time plot: :meth:`show_outcome` gives it an assessment, whose curves are
+    built (:func:`~tdmtui.ui.widgets.plotdata.build_plot_data`, the plot's own object) only when the
+    plot is drawn; :meth:`show` gives it ready PlotData or None."""
 
     COMPONENT_CLASSES = {"plot--fit", "plot--plan", "plot--band", "plot--level", "plot--aside",
                          "plot--target", "plot--now", "plot--axis"}
@@ -105,14 +107,26 @@ class ConcPlot(Widget, can_focus=True):
     def __init__(self, *, id: str | None = None) -> None:  # noqa: A002
         super().__init__(id=id)
         self.data: PlotData | None = None
+        self._outcome: Any = None
 
     def show(self, data: PlotData | None) -> None:
         """Draw new data (None: no estimate to plot)."""
         self.data = data
+        self._outcome = None
+        self.refresh()
+
+    def show_outcome(self, outcome: Any) -> None:
+        """Plot this assessment (None: nothing to plot); the curves are built when the plot is drawn."""
+        self.data = None
+        self._outcome = outcome
         self.refresh()
 
     def render(self) -> Text:
         w, h = self.size.width, self.size.height
+        if self.data is None and self._outcome is not None:
+            from tdmtui.ui.widgets.plotdata import build_plot_data
+
+            self.data, self._outcome = build_plot_data(self._outcome), None
         if self.data is None:
             return Text("No fitted curve yet: the plot appears when an estimate exists.")
         styles = {name.split("--")[1]: self.get_component_rich_style(name) for name in self.COMPONENT_CLASSES}
