@@ -120,7 +120,7 @@ def _auc_alerts(ctx: MethodContext, targets: Targets, pred: Predicted | None) ->
     if targets.auc24 is None or pred is None:
         return []
     hi = targets.auc24[1]
-    toxic = float(ctx.rules.get("exposure.auc24_toxic", 0.0) or 0.0)
+    toxic = float(ctx.rules.value("exposure.auc24_toxic")) if "exposure.auc24_toxic" in ctx.rules else 0.0
     what = f"AUC24 {pred.auc24:.0f} mg*h/L predicted at steady state of the current regimen"
     if toxic > 0 and pred.auc24 > toxic:
         return [Alert("auc-toxic", "caution", "", f"{what} is above {toxic:g} (kidney injury likely): hold the "
@@ -136,7 +136,7 @@ def _trough_limit(rules: Rules, targets: Targets) -> float | None:
         return None
     if targets.trough_ceiling is not None:
         return targets.trough_ceiling
-    limit = float(rules.get("exposure.trough_high_mg_l", 0.0) or 0.0)
+    limit = float(rules.value("exposure.trough_high_mg_l")) if "exposure.trough_high_mg_l" in rules else 0.0
     return limit if limit > 0 else None
 
 

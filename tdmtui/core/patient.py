@@ -401,7 +401,7 @@ def renal_summary(age: float, sex: str, weight: float, height: float,
     scr_text = f"latest SCr {_mg_dl(scr)} mg/dL ({where})"
     if used != scr:
         scr_text += f"; computed with {_mg_dl(used)} {why} (SCr floor {_mg_dl(floor)} mg/dL)"
-    cap = float(rules.get("renal.crcl_cap_ml_min", 0.0) or 0.0)
+    cap = float(rules.value("renal.crcl_cap_ml_min"))
     if cap > 0 and crcl > cap:
         rule = "local rule" if rules.source("renal.crcl_cap_ml_min") == "protocol" else "library rule"
         scr_text += f"; CrCl {crcl:.0f} mL/min capped at {cap:g} mL/min per {rule}"

@@ -34,6 +34,13 @@ MAY_LACK: dict[str, tuple[tuple[str, ...], str]] = {
                                              "loading.mg_per_kg")},
     "dosing_weight.adjusted_factor": (DRUGS, "optional: renal.adjusted_weight_factor when absent (patient.py)"),
     "targets.variants": (("vancomycin",), "optional indication variants; checked by `in rules`"),
+    **{k: (AMINOGLYCOSIDES, _VANC) for k in ("exposure.auc24_toxic", "exposure.trough_high_mg_l",
+                                             "regimen.obese_initial_max_daily_mg")},
+    "dialysis.pre_dialysis_target_mg_l": (AMINOGLYCOSIDES, "no aminoglycoside pre-dialysis target in the library: "
+                                          "an aminoglycoside on haemodialysis is a stop (regimen/dialysis.py)"),
+    "dialysis.session_clearance_l_h": (DRUGS, "protocol only: no intradialytic clearance is confirmed in pk-sources.md; "
+                                       "checked by rules.get, the fitted model carries the removal (dialysis.py)"),
+    "extended.keep_infusion": (("vancomycin",), _EXTENDED),
 }
 
 _ASKED = re.compile(r'(?:\.value|\.get|\.source|\.citation)\(\s*"([a-z_]+\.[a-z0-9_.]+)"'

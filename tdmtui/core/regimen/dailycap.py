@@ -38,7 +38,7 @@ def daily_cap(rules: Rules, tbw_kg: float, bmi: float, levels_used: int) -> tupl
         lim, _src = limits["daily_dose_mg_per_kg"]
         options.append((lim * tbw_kg, f"the library's never-exceed limit of {lim:g} mg/kg a day at {tbw_kg:g} kg "
                                       "actual weight"))
-    obese = float(rules.get("loading.obese_bmi", math.inf))
+    obese = float(rules.value("loading.obese_bmi")) if "loading.obese_bmi" in rules else math.inf
     if "regimen.obese_initial_max_daily_mg" in rules and bmi >= obese and levels_used == 0:
         cap = float(rules.value("regimen.obese_initial_max_daily_mg"))
         options.append((cap, f"obese patient (BMI {bmi:.1f}) on a first maintenance regimen before any level: "

@@ -64,7 +64,7 @@ def plan_timing(inp: RegimenInput, c: Candidate, continuing: bool, limit: float 
         return Timing(t_due, None, t_due, t_due, ())  # the standing order keeps its own clock
     held = None
     if not continuing and inp.params is not None and limit is not None:
-        held = handover.hold(inp.params, hist, t_due, limit, float(rules.get("regimen.min_hold_h", 0.0)))
+        held = handover.hold(inp.params, hist, t_due, limit, float(rules.value("regimen.min_hold_h")))
         held = wardclock.to_grid(held, rules, inp.clock, "up") if held is not None else None
     start = held if held is not None else wardclock.to_grid(t_due, rules, inp.clock, "up")
     first = start if c.infusion_h >= c.interval_h else \

@@ -35,7 +35,7 @@ _EPS_H = 1.0 / 3600.0  # one second
 
 def grid_min(rules: Rules) -> float:
     """The protocol's time grid, minutes (0 = none)."""
-    return float(rules.get("regimen.time_grid_min", 0.0) or 0.0)
+    return float(rules.value("regimen.time_grid_min"))
 
 
 def _minute_of_day(t: float, clock: Clock) -> float:
