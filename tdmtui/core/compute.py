@@ -139,7 +139,8 @@ def method_reason(requested: str, used: str, estimates: dict[str, Estimate], fai
             short = ("set aside: " + tl.split("; set aside: ")[-1].split("; ")[0] if "set aside" in tl
                      else tl.split(" (")[0])
             why = f" and no single two-level solution ({short})"
-        return f"{count}{why}, so a Bayesian estimate on {name} combines them with what the model expects."
+        them = "it" if n == 1 else "them"
+        return f"{count}{why}, so a Bayesian estimate on {name} combines {them} with what the model expects."
     if used == "continuous-steady-state":
         return ("one level drawn at steady state during a continuous infusion and no Bayesian estimate, so "
                 "CL = rate / level and AUC24 = level x 24.")
