@@ -133,6 +133,10 @@ def method_reason(requested: str, used: str, estimates: dict[str, Estimate], fai
     if used == "bayesian":
         name = (est.model or {}).get("name", "the population model")
         count = "one usable level" if n == 1 else f"{n} usable levels"
+        bounds = sum(r.get("kind") != "quantified" for r in est.extra.get("diagnostics", {}).get("residuals", []))
+        if bounds:  # a level beyond an assay limit enters as a bound, and the sentence says so
+            count = ("one level, reported beyond the assay limit and used as a bound" if n == 1
+                     else f"{count} ({bounds} beyond the assay limit, used as a bound)")
         why = ""
         if n >= 2:
             tl = failures.get("two-level", "not available")

@@ -70,3 +70,11 @@ def test_a_single_model_average_is_named_by_its_model():
     assert res["estimate"]["model"]["name"].startswith("Staatz 2006")
     assert "combines it with" in res["method_reason"] and "model average" not in res["method_reason"]
     assert "bayesian (Staatz 2006)" in render_note(out)
+
+
+def test_a_level_below_the_limit_is_called_a_bound_in_the_reason():
+    # a censored level enters the Bayesian likelihood as P(below the limit) (Beal M3, from memory): the
+    # sentence must not call it a measured value
+    res = compute_raw(CASES["vancomycin below the limit"]).result
+    assert res["method"] == "bayesian"
+    assert res["method_reason"].startswith("one level, reported beyond the assay limit and used as a bound")
