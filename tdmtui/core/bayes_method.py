@@ -303,7 +303,8 @@ def _averaged(ctx: MethodContext, fitted: list, est: dict[str, Estimate]) -> tup
     offers = [o for o, *_ in fitted]
     flags = _combined_flags(offers) + structure_alerts(ctx, fitted, w, est)
     secondary = any(o.model.status != "paper" for o in offers)
-    model_info = {"id": "model-average", "name": f"the model average ({share})", "citation": averaging.CITATION,
+    title = f"the model average ({share})" if len(members) > 1 else members[0].name  # one model: its own name
+    model_info = {"id": "model-average", "name": title, "citation": averaging.CITATION,
                   "verification": "secondary" if secondary else "paper", "seed": members[0].fit.seed,
                   "draws": N_DRAWS, "optimiser": "MAP on each model; weights by importance sampling",
                   "weights": {m.model_id: x for m, x in zip(members, w)},

@@ -145,13 +145,18 @@ def method_reason(requested: str, used: str, estimates: dict[str, Estimate], fai
     if used == "bayesian":
         name = (est.model or {}).get("name", "the population model")
         count = "one usable level" if n == 1 else f"{n} usable levels"
+        bounds = sum(r.get("kind") != "quantified" for r in est.extra.get("diagnostics", {}).get("residuals", []))
+        if bounds:  # a level beyond an assay limit enters as a bound, and the sentence says so
+            count = ("one level, reported beyond the assay limit and used as a bound" if n == 1
+                     else f"{count} ({bounds} beyond the assay limit, used as a bound)")
         why = ""
         if n >= 2:
             tl = failures.get("two-level", "not available")
             short = ("set aside: " + tl.split("; set aside: ")[-1].split("; ")[0] if "set aside" in tl
                      else tl.split(" (")[0])
             why = f" and no single two-level solution ({short})"
-        return f"{count}{why}, so a Bayesian estimate on {name} combines them with what the model expects."
+        them = "it" if n == 1 else "them"
+        return f"{count}{why}, so a Bayesian estimate on {name} combines {them} with what the model expects."
     if used == "continuous-steady-state":
         return ("one level drawn at steady state during a continuous infusion and no Bayesian estimate, so "
                 "CL = rate / level and AUC24 = level x 24.")

@@ -31,6 +31,7 @@ Doses and levels
   empty: the last two maintenance doses define the current regimen.
 Estimate
   t methods side by side   w show working   g concentration plot
+  m model average: each model's weight, estimate and why it has none
 Plan
   arrows move, Enter chooses the regimen named in the note
 Note

@@ -27,15 +27,22 @@ def exponentials(cl, v1, q, v2) -> tuple[np.ndarray, np.ndarray]:  # noqa: ANN00
                      for x in (cl, v1, q, v2))
     if not np.any(q > 0):
         return (cl / v1)[:, None], np.ones((cl.size, 1))
-    k10, k12, k21 = cl / v1, q / v1, q / v2
+    # A batch may mix structures (a model average's draws): a one-compartment row (q = 0) takes
+    # k12 = k21 = 0, so alpha = k10 with weight 1 and the second exponent carries weight 0.
+    one = q <= 0
+    k10, k12 = cl / v1, q / v1
+    k21 = np.divide(q, v2, out=np.zeros_like(q, dtype=float), where=~one)
     x = k10 + k12 - k21
     half_four = 2.0 * k12 * k21  # (root + x)(root - x) = 4 k12 k21, and root > |x|
     root = np.sqrt(x * x + 2.0 * half_four)
     out = np.empty((cl.size, 2, 2))  # [:, 0] exponents alpha, beta; [:, 1] weights A', B'
     out[:, 0, 0] = 0.5 * (k10 + k12 + k21 + root)
     out[:, 0, 1] = k10 * k21 / out[:, 0, 0]
-    out[:, 1, 0] = np.where(x >= 0, 0.5 * (x + root), half_four / (root - x)) / root  # (alpha - k21)/root
-    out[:, 1, 1] = np.where(x <= 0, 0.5 * (root - x), half_four / (root + x)) / root  # (k21 - beta)/root
+    with np.errstate(invalid="ignore", divide="ignore"):  # np.where's unused branch is 0/0 on one-compartment rows
+        out[:, 1, 0] = np.where(x >= 0, 0.5 * (x + root), half_four / (root - x)) / root  # (alpha - k21)/root
+        out[:, 1, 1] = np.where(x <= 0, 0.5 * (root - x), half_four / (root + x)) / root  # (k21 - beta)/root
+    if np.any(one):
+        out[one, 0, 1], out[one, 1, 0], out[one, 1, 1] = out[one, 0, 0], 1.0, 0.0
     return out[:, 0], out[:, 1]
 
 

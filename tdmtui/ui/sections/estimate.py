@@ -12,6 +12,7 @@ from textual.widgets import ContentSwitcher, DataTable, Label, Static
 
 from tdmtui.ui import formatting as fm
 from tdmtui.ui.safety import caution_line
+from tdmtui.ui.sections.weights import weights_text
 from tdmtui.ui.widgets.plot import ConcPlot
 
 #: (row label, key in the estimate dict or in its "current" dict, display key)
@@ -58,12 +59,13 @@ def method_columns(result: dict[str, Any]) -> list[tuple[str, dict[str, Any]]]:
 
 
 class EstimateSection(Vertical):
-    """Views: t table, w working, g graph."""
+    """Views: t table, w working, g graph, m models (the model average's weights)."""
 
     BINDINGS = [
         Binding("t", "view('est-table')", "Table", id="estimate.table"),
         Binding("w", "view('est-working')", "Working", id="estimate.working"),
         Binding("g", "view('est-graph')", "Graph", id="estimate.graph"),
+        Binding("m", "view('est-models')", "Models", id="estimate.models"),
     ]
 
     def compose(self) -> ComposeResult:
@@ -73,6 +75,8 @@ class EstimateSection(Vertical):
             with VerticalScroll(id="est-working"):
                 yield Static("", id="est-working-text", markup=False)
             yield ConcPlot(id="est-graph")
+            with VerticalScroll(id="est-models"):
+                yield Static("", id="est-models-text", markup=False)
         yield Label(caution_line(), classes="caution", markup=False)
 
     def action_view(self, view: str) -> None:
@@ -107,6 +111,7 @@ class EstimateSection(Vertical):
                                            for _, est in cols])
         self.query_one("#est-working-text", Static).update(working_text(outcome))
         self.query_one(ConcPlot).show_outcome(outcome)
+        self.query_one("#est-models-text", Static).update(weights_text(result) if cols else "No estimate yet.")
 
 
 def working_text(outcome: Any) -> str:
