@@ -33,7 +33,8 @@ def method_label(name: str, e: dict[str, Any]) -> str:
     The model-averaged Bayesian estimate is ``bayesian (model average)``.
     """
     family = name.split(":", 1)[0]
-    model = model_label(e).removeprefix("the ")
+    named = (e.get("model") or {}).get("name")  # the library's own equations have an id only: ``population``
+    model = model_label(e).removeprefix("the ") if named else ""
     return f"{family} ({model})" if model and family in ("bayesian", "population") else family
 
 
