@@ -63,12 +63,13 @@ def estimate_lines(outcome: Any, regimen: dict[str, Any] | None, model_words: li
     nums = _level_numbers(outcome, est.get("levels_used") or [])
     why = res.get("method_reason")
     on = f" on level{'s' if ' ' in nums else ''} {nums}" if nums else ""
-    if why and registry.option(method) is None:  # the engine's one sentence says why this method and what it rests on
+    option = registry.option(method)
+    if option is not None:  # the regimen rests on the option (a nomogram); the estimate is given beside it
+        lines += f.wrap(f"Method: {method} ({option.description}){on}: {method_label(used, est)}.")
+    elif why:  # the engine's one sentence says why this method and what it rests on
         lines += f.wrap(f"Method: {method_label(used, est)}{on}: {f.plain_paths(why)}")
     else:
         lines += f.wrap(f"Method: {method_label(used, est)} ({METHOD_TEXT.get(used, used)}){on}.")
-    if registry.option(method) is not None:
-        lines += f.wrap(f"Estimate beside it: {method_label(used, est)}: {METHOD_TEXT.get(used, '')}.")
     vkg = f" ({est['vd_l_per_kg']:.2f} L/kg)" if est.get("vd_l_per_kg") else ""
     lines += f.wrap(f"Estimate: ke {f.ke(est['ke_per_h'])} /h, t1/2 {f.hours(est['half_life_h'])} h, "
                     f"Vd {f.litres(est['vd_l'])} L{vkg}, CL {f.clearance(est['cl_l_per_h'])} L/h.")
