@@ -31,6 +31,9 @@ Doses and levels
   empty: the last two maintenance doses define the current regimen.
 Estimate
   t methods side by side   w show working   g concentration plot
+  ] / [ next / previous page of methods (the one used, *, stays)
+  The plot draws in braille; TDMTUI_PLOT=ascii (or a locale that is
+  not UTF-8) draws it in plain characters: * fitted, + plan, . band.
 Plan
   arrows move, Enter chooses the regimen named in the note
 Note
