@@ -145,8 +145,8 @@ def _record(outcome: Outcome) -> list[str]:
     res, case = outcome.result, outcome.case
     proto = (f"local protocol {res.get('protocol_name')} (sha256 {res.get('protocol_sha256')})"
              if res.get("protocol_name") or res.get("protocol_sha256") else "no local protocol")
-    lines = [""] + f.wrap(f"Record: tdmtui {res.get('version')}, drug library {res.get('library_version')}, "
-                          f"method {res.get('method') or 'none'}, {proto}.")
+    lines = [""] + f.wrap(f"Written by tdmtui {res.get('version')}, drug library {res.get('library_version')}, "
+                          f"{res.get('method') or 'no method'}, {proto}.")
     saved = res.get("input_saved", case.saved)
     lines.append(f"Case sha256 {res.get('input_sha256')}" if saved else f"UNSAVED sha256 {res.get('input_sha256')}")
     return lines

@@ -36,7 +36,8 @@ def method_label(name: str, e: dict[str, Any]) -> str:
     The model-averaged Bayesian estimate is ``bayesian (model average)``.
     """
     family = name.split(":", 1)[0]
-    model = model_label(e).removeprefix("the ")
+    named = (e.get("model") or {}).get("name")  # the library's own equations have an id only: ``population``
+    model = model_label(e).removeprefix("the ") if named else ""
     return f"{family} ({model})" if model and family in ("bayesian", "population") else family
 
 
@@ -65,7 +66,10 @@ def estimate_lines(outcome: Outcome, regimen: dict[str, Any] | None, model_words
     nums = _level_numbers(outcome, est.get("levels_used") or [])
     why = res.get("method_reason")
     on = f" on level{'s' if ' ' in nums else ''} {nums}" if nums else ""
-    if why and registry.option(method) is None:  # the engine's one sentence says why this method and what it rests on
+    option = registry.option(method)
+    if option is not None:  # the regimen rests on the option (a nomogram); the estimate is given beside it
+        lines += f.wrap(f"Method: {method} ({option.description}){on}: {method_label(used, est)}.")
+    elif why:  # the engine's one sentence says why this method and what it rests on
         lines += f.wrap(f"Method: {method_label(used, est)}{on}: {f.plain_paths(why)}")
     else:
         lines += f.wrap(f"Method: {method_label(used, est)} ({METHOD_TEXT.get(used, used)}){on}.")

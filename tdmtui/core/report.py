@@ -21,20 +21,24 @@ def _wrap(text: str, indent: str = "") -> list[str]:
 
 
 def short_name(name: str, drug: str, e: dict[str, Any]) -> str:
-    """A method name that fits the table: ``bayesian:vancomycin-goti-2018`` -> ``MAP goti-2018``."""
-    if name == "bayesian" and e.get("model"):
-        name = f"bayesian:{e['model']['id']}"
-    name = name.replace(f"{drug}-", "")
-    return name.replace("population:", "prior ").replace("bayesian:", "MAP ")[:19]
+    """The method's name as the note and the app give it: ``bayesian (Goti 2018)``, ``population (Thomson 2009)``."""
+    from tdmtui.core.noteplan import method_label
+
+    return method_label(name, e)[:NAME_W - 1]
 
 
 def estimate_line(name: str, e: dict[str, Any]) -> str:
     """One row of the methods table."""
     cur = e.get("current") or {}
-    cells = [(e.get(k), k, w) for k, w in (("ke_per_h", 8), ("half_life_h", 7), ("vd_l", 7), ("vd_l_per_kg", 6),
+    cells = [(e.get(k), k, w) for k, w in (("ke_per_h", 7), ("half_life_h", 6), ("vd_l", 6), ("vd_l_per_kg", 5),
                                             ("cl_l_per_h", 7))]
-    cells += [(cur.get(k), k, w) for k, w in (("auc24_mg_h_per_l", 8), ("peak_mg_per_l", 7), ("trough_mg_per_l", 7))]
-    return f"{name:<19}" + "".join(f"{num(v, k):>{w}}" for v, k, w in cells)
+    cells += [(cur.get(k), k, w) for k, w in (("auc24_mg_h_per_l", 6), ("peak_mg_per_l", 6), ("trough_mg_per_l", 7))]
+    return f"{name:<{NAME_W}}" + "".join(f"{num(v, k):>{w}}" for v, k, w in cells)
+
+
+#: The methods table's first column: the longest name the note uses, ``population (Thomson 2009)``, and a space.
+NAME_W = 26
+TABLE_HEAD = f"{'method':<{NAME_W}}{'ke /h':>7}{'t1/2':>6}{'Vd L':>6}{'L/kg':>5}{'CL L/h':>7}{'AUC24':>6}{'peak':>6}{'trough':>7}"
 
 
 def summary_text(result: dict[str, Any]) -> str:
@@ -54,7 +58,7 @@ def summary_text(result: dict[str, Any]) -> str:
         lines += _wrap(f"Method used: {result['method']}" + (f" - {est.get('assumption')}" if est.get("assumption") else ""))
         if result.get("method_reason"):
             lines += _wrap(f"Why: {result['method_reason']}")
-        lines.append(f"{'method':<19}{'ke /h':>8}{'t1/2 h':>7}{'Vd L':>7}{'L/kg':>6}{'CL L/h':>7}{'AUC24':>8}{'peak':>7}{'trough':>7}")
+        lines.append(TABLE_HEAD)
         lines.append(estimate_line(short_name(result["method"], result["drug"], est), est))
         for name, e in result.get("methods", {}).items():
             lines.append(estimate_line(short_name(name, result["drug"], e), e))
@@ -66,7 +70,7 @@ def summary_text(result: dict[str, Any]) -> str:
     if not est and result.get("methods"):
         lines.append("")
         lines.append("No estimate is used (a stop stands); for reference:")
-        lines.append(f"{'method':<19}{'ke /h':>8}{'t1/2 h':>7}{'Vd L':>7}{'L/kg':>6}{'CL L/h':>7}{'AUC24':>8}{'peak':>7}{'trough':>7}")
+        lines.append(TABLE_HEAD)
         for name, e in result["methods"].items():
             lines.append(estimate_line(short_name(name, result["drug"], e), e))
     for name, why in result.get("methods_unavailable", {}).items():
@@ -100,7 +104,7 @@ def summary_text(result: dict[str, Any]) -> str:
             lines.append(f"  hold until {reg['hold_until']}")
         if reg.get("nearer_start"):
             ns = reg["nearer_start"]
-            lines.append(f"  nearer start {ns['next_dose_at']}: AUC next 24 h {_n(ns['day1_mg_h_per_l'])} mg*h/L")
+            lines.append(f"  nearer start {ns['next_dose_at']}: AUC next 24 h {num(ns['day1_mg_h_per_l'], 'auc')} mg*h/L")
         if reg.get("loading_dose"):
             ld = reg["loading_dose"]
             lines.append(f"  loading dose {num(ld['dose_mg'], 'dose')} mg over {num(ld['infusion_h'], 'infusion')} h "

@@ -145,10 +145,12 @@ class TdmApp(ComputeMixin, FilingMixin, App[int]):
         self.show_warnings([])
         if self.open_error:
             self.notify(self.open_error, severity="error", markup=False, timeout=8)
-        self.offer_recovery()
         if self.first_run_notice and first_run(self.state):
-            self.notify(" ".join(short_text().split()), title="Before you start (shown once; F1 shows it again)", timeout=30,
-                        markup=False)
+            from tdmtui.ui.dialogs import NoticeDialog
+
+            self.push_screen(NoticeDialog("Before you start (shown once)", " ".join(short_text().split()),
+                                          "[Enter] or [Esc] continue   (F1 shows this again)"))
+        self.offer_recovery()  # over the notice: a case's unsaved edits are answered first
         self.request_compute(now=True)
         self.call_after_refresh(self.focus_section)
 

@@ -129,7 +129,10 @@ class ComputeMixin:
         if result.get("status") == "stop":
             self.set_status(f"Computed as of {result.get('as_of')}: STOP stands, no regimen (F8 says why).", error=True)
         else:
-            self.set_status(f"Computed as of {result.get('as_of')}: method {result.get('method')}, status ok.")
+            from tdmtui.core.noteplan import method_label
+
+            label = method_label(result.get("method") or "", result.get("estimate") or {})
+            self.set_status(f"Computed as of {result.get('as_of')}: method {label}, status ok.")
 
     def on_estimate_failed(self, event: EstimateFailed) -> None:
         """Say why the case does not compute, on the status line and on the field."""

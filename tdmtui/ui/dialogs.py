@@ -118,3 +118,32 @@ class HelpScreen(OnceModal[None]):
     def action_close(self) -> None:
         """Close the help."""
         self.finish(None)
+
+
+class NoticeDialog(OnceModal[None]):
+    """A notice read before work starts (the first-run safety text): Enter, Esc or Space closes it.
+
+    It sits over the form until closed, so no toast hides a field's error afterwards.
+    """
+
+    DEFAULT_CSS = """
+    NoticeDialog { align: center middle; }
+    NoticeDialog > Vertical { width: 66; height: auto; border: heavy $accent; padding: 0 1; background: $surface; }
+    NoticeDialog .notice-title, NoticeDialog .notice-keys { text-style: bold; }
+    NoticeDialog .notice-keys { margin-top: 1; }
+    """
+    BINDINGS = [Binding("escape,enter,space", "close", "Continue", id="notice.close")]
+
+    def __init__(self, title: str, text: str, keys: str) -> None:
+        super().__init__()
+        self.title_text, self.text, self.keys = title, text, keys
+
+    def compose(self) -> ComposeResult:
+        with Vertical():
+            yield Label(self.title_text, classes="notice-title", markup=False)
+            yield Static(self.text, markup=False)
+            yield Label(self.keys, classes="notice-keys", markup=False)
+
+    def action_close(self) -> None:
+        """Close the notice."""
+        self.finish(None)

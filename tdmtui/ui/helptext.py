@@ -32,6 +32,9 @@ Doses and levels
 Estimate
   t methods side by side   w show working   g concentration plot
   m model average: each model's weight, estimate and why it has none
+  ] / [ next / previous page of methods (the one used, *, stays)
+  The plot draws in braille; TDMTUI_PLOT=ascii (or a locale that is
+  not UTF-8) draws it in plain characters: * fitted, + plan, . band.
 Plan
   arrows move, Enter chooses the regimen named in the note
 Note

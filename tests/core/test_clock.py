@@ -55,3 +55,27 @@ def test_unknown_zone():
     with pytest.raises(InputError) as exc:
         clock_for([("a", "2026-03-28T20:00")], "Mars/Olympus")
     assert exc.value.field == "timezone"
+
+
+# "Europe" and "Etc" are folders of the zoneinfo database, not zones; the others are files in it that are
+# not zones, or paths out of it. Each is an input error naming timezone, never an internal error.
+@pytest.mark.parametrize("name", ["Europe", "Etc", "America/", "zone.tab", "tzdata.zi", "__init__.py",
+                                  "..", "/etc/passwd", "Europe/../Europe/London", "UTC\x00", ""])
+def test_folder_or_file_that_is_not_a_zone_is_an_input_error(name):
+    with pytest.raises(InputError) as exc:
+        clock_for([("a", "2026-03-28T20:00")], name)
+    assert exc.value.field == "timezone"
+
+
+def test_folder_zone_from_the_command_line_names_the_field(tmp_path, capsys):
+    import json
+    from pathlib import Path
+
+    from tdmtui.cli import main
+
+    raw = json.loads((Path(__file__).parents[2] / "sample_cases" / "vanc-trough-only.json").read_text("utf-8"))
+    raw["timezone"] = "Europe"
+    path = tmp_path / "zone.json"
+    path.write_text(json.dumps(raw), encoding="utf-8")
+    assert main(["note", str(path)]) == 2
+    assert capsys.readouterr().err.startswith("timezone: 'Europe' is not a known IANA time zone name")

@@ -21,7 +21,7 @@ from tdmtui.ui.messages import CaseEdited
 from tdmtui.ui.sections.rows import RowsSection
 from tdmtui.ui.widgets.form import FieldRow, FieldSpec
 
-ORDER = FieldSpec("schedule", "Order", "target", hint="e.g. 1250 mg every 12 h over 90 min")
+ORDER = FieldSpec("schedule", "Order", "target", hint="1 g every 12 h over 1 h")
 
 
 def parse_repeat(text: str) -> tuple[float, int]:

@@ -10,6 +10,7 @@ from textual.binding import Binding
 from textual.containers import Vertical, VerticalScroll
 from textual.widgets import ContentSwitcher, DataTable, Label, Static
 
+from tdmtui.ui import estcolumns
 from tdmtui.ui import formatting as fm
 from tdmtui.ui.safety import caution_line
 from tdmtui.ui.sections.weights import weights_text
@@ -28,7 +29,7 @@ ROWS = (
 )
 
 
-def cell(est: dict[str, Any], key: str, disp: str) -> str:
+def cell(est: dict[str, Any], key: str, disp: str, with_interval: bool = True) -> str:
     """One table cell: the rounded value, with its 90 % interval where the method gives one."""
     if key.startswith("current."):
         value = (est.get("current") or {}).get(key.split(".", 1)[1])
@@ -36,26 +37,8 @@ def cell(est: dict[str, Any], key: str, disp: str) -> str:
     else:
         value = est.get(key)
     text = fm.num(value, disp)
-    iv = fm.interval((est.get("interval90") or {}).get(key), disp)
+    iv = fm.interval((est.get("interval90") or {}).get(key), disp) if with_interval else ""
     return f"{text} {iv}" if iv else text
-
-
-def method_columns(result: dict[str, Any]) -> list[tuple[str, dict[str, Any]]]:
-    """(column title, estimate dict): the method used first, marked "*", then the others."""
-    cols: list[tuple[str, dict[str, Any]]] = []
-    if result.get("estimate"):
-        used = result.get("method")
-        if used == "bayesian" and (result["estimate"].get("model") or {}).get("id"):
-            used = "bay:" + result["estimate"]["model"]["id"].split("-", 1)[-1]
-        cols.append((f"{used}*", result["estimate"]))
-    for name, est in (result.get("methods") or {}).items():
-        if name == "bayesian" and (est.get("model") or {}).get("id"):
-            name = f"bayesian:{est['model']['id']}"  # say which model the primary Bayesian estimate used
-        if ":" in name:  # "population:vancomycin-some-model" -> "pop:some-model"
-            family, model = name.split(":", 1)
-            name = f"{family[:3]}:{model.split('-', 1)[-1]}"
-        cols.append((name[:18], est))
-    return cols
 
 
 class EstimateSection(Vertical):
@@ -66,12 +49,18 @@ class EstimateSection(Vertical):
         Binding("w", "view('est-working')", "Working", id="estimate.working"),
         Binding("g", "view('est-graph')", "Graph", id="estimate.graph"),
         Binding("m", "view('est-models')", "Models", id="estimate.models"),
+        Binding("right_square_bracket", "page(1)", "More methods", show=False, id="estimate.next"),
+        Binding("left_square_bracket", "page(-1)", "Back", show=False, id="estimate.previous"),
     ]
+
+    cols: list[tuple[str, dict[str, Any]]] = []
+    page = 0
+    used_marked = False
 
     def compose(self) -> ComposeResult:
         yield Label("No estimate yet.", id="est-title", classes="section-title", markup=False)
         with ContentSwitcher(initial="est-table", id="est-views"):
-            yield DataTable(cursor_type="cell", id="est-table", zebra_stripes=True, fixed_columns=1)
+            yield DataTable(cursor_type="cell", id="est-table", zebra_stripes=True, fixed_columns=1, header_height=2)
             with VerticalScroll(id="est-working"):
                 yield Static("", id="est-working-text", markup=False)
             yield ConcPlot(id="est-graph")
@@ -86,32 +75,68 @@ class EstimateSection(Vertical):
 
     def show(self, outcome: Any) -> None:
         """Fill the views from an Outcome (None: clear them); the graph builds its curves when it is drawn."""
-        table = self.query_one("#est-table", DataTable)
-        table.clear(columns=True)
         result = outcome.result if outcome is not None else {}
-        cols = method_columns(result)
-        title = self.query_one("#est-title", Label)
-        if not cols:
-            title.update("No estimate: see the message below and the warnings.")
-        elif not result.get("estimate"):
-            title.update("No estimate is used (a STOP stands): the methods below are for reference only.")
-        else:
-            used = result.get("estimate") or {}
-            extra = ""
-            if used.get("target_probability") is not None:
-                extra = f"; P(target) {fm.qty(used['target_probability'], 'probability')}"
-            title.update(f"Used: {result.get('method')} (*){extra}. Arrows scroll; t table w working g graph")
-        table.add_column("", key="label")
-        for name, _ in cols:
-            table.add_column(name, key=name)
-        for label, key, disp in ROWS:
-            table.add_row(label, *[Text(cell(est, key, disp), justify="right") for _, est in cols])
-        if cols:
-            table.add_row("levels used", *[", ".join("#" + str(int(x.strip("levels[]")) + 1) for x in est.get("levels_used", [])) or "none"
-                                           for _, est in cols])
+        self.cols = estcolumns.columns(result)
+        self.used_marked = bool(result.get("estimate"))
+        self.page = 0
+        self.fill_table()
         self.query_one("#est-working-text", Static).update(working_text(outcome))
         self.query_one(ConcPlot).show_outcome(outcome)
-        self.query_one("#est-models-text", Static).update(weights_text(result) if cols else "No estimate yet.")
+        self.query_one("#est-models-text", Static).update(weights_text(result) if self.cols else "No estimate yet.")
+
+    def action_page(self, step: int) -> None:
+        """The next or previous page of methods (the row labels and the method used stay)."""
+        self.page += step
+        self.fill_table()
+
+    def on_resize(self) -> None:
+        self.fill_table()
+
+    def table_pages(self) -> tuple[list[str], list[list[int]]]:
+        """Every column's cells (labels first), and the pages of the other methods that fit the width."""
+        # the 90 % interval beside the method used (the others': the note's full detail, f in the note)
+        texts = [[cell(est, key, disp, with_interval=(i == 0 and self.used_marked)) for _, key, disp in ROWS]
+                 + [levels_cell(est)] for i, (_, est) in enumerate(self.cols)]
+        widths = [max([len(t) for t in col] + [len(x) for x in estcolumns.header(name, i == 0).splitlines()])
+                  for i, ((name, _), col) in enumerate(zip(self.cols, texts))]
+        fixed = max(len(r[0]) for r in ROWS) + estcolumns.PAD
+        keep = 1 if self.used_marked else 0
+        fixed += sum(w + estcolumns.PAD for w in widths[:keep])
+        room = (self.size.width or 80) - 1
+        return texts, [[i + keep for i in pg] for pg in estcolumns.pages(widths[keep:], fixed, room)]
+
+    def fill_table(self) -> None:
+        """The label column, the method used, and this page of the others; the title says which page."""
+        table = self.query_one("#est-table", DataTable)
+        table.clear(columns=True)
+        texts, pages = self.table_pages()
+        self.page = max(0, min(self.page, len(pages) - 1))
+        shown = ([0] if self.used_marked else []) + [i for i in pages[self.page] if i < len(self.cols)]
+        table.add_column("\n", key="label")
+        for i in shown:
+            table.add_column(estcolumns.header(self.cols[i][0], self.used_marked and i == 0), key=f"m{i}")
+        labels = [r[0] for r in ROWS] + ["levels used"] if self.cols else []
+        for r, label in enumerate(labels):
+            table.add_row(label, *[Text(texts[i][r], justify="right") for i in shown])
+        self.query_one("#est-title", Label).update(self.title_text(len(pages)))
+
+    def title_text(self, n_pages: int) -> str:
+        """What the table shows: the method used, its chance of target, which page of the others."""
+        if not self.cols:
+            return "No estimate: see the message below and the warnings."
+        more = f"  Page {self.page + 1}/{n_pages}: ] next, [ back" if n_pages > 1 else ""
+        if not self.used_marked:
+            return "No estimate used (a STOP stands); for reference only." + more
+        name, used = self.cols[0]
+        extra = ""
+        if used.get("target_probability") is not None:
+            extra = f"; P(target) {fm.qty(used['target_probability'], 'probability')}"
+        return f"* used: {name}{extra}{more}"
+
+
+def levels_cell(est: dict[str, Any]) -> str:
+    """The levels an estimate used, numbered as the levels table shows them."""
+    return ", ".join("#" + str(int(x.strip("levels[]")) + 1) for x in est.get("levels_used", [])) or "none"
 
 
 def working_text(outcome: Any) -> str:

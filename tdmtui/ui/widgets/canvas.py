@@ -54,6 +54,8 @@ class BrailleCanvas:
         self._order: list[str] = []
         self._chars: dict[tuple[int, int], Cell] = {}
         self._guides: dict[tuple[int, int], Cell] = {}
+        #: Layers a guide line is drawn over (a cell holding only these shows the guide).
+        self.under_guides: set[str] = set()
 
     # ------------------------------------------------------------ coordinates
     def dot_xs(self) -> np.ndarray:
@@ -120,8 +122,13 @@ class BrailleCanvas:
         self._chars[(r, c)] = (char, layer)
 
     def hguide(self, y: float, char: str, layer: str) -> None:
-        """A horizontal guide line of ``char`` in cells with no dots (e.g. a target limit)."""
+        """A horizontal guide line of ``char`` in cells with no dots (e.g. a target limit).
+
+        A limit at the foot of the axis (a trough target from 0 mg/L) is drawn on the bottom row.
+        """
         r = int(self.dot_y(y)) // 4
+        if r == self.rows and y >= self.y0:
+            r = self.rows - 1
         if 0 <= r < self.rows:
             for c in range(self.cols):
                 self._guides[(r, c)] = (char, layer)
@@ -134,8 +141,13 @@ class BrailleCanvas:
                 self._guides[(r, c)] = (char, layer)
 
     # ------------------------------------------------------------ output
-    def cells(self) -> list[list[Cell]]:
-        """Rows of (character, layer) cells; the layer drawn last wins a shared cell's style."""
+    def cells(self, ascii_glyphs: dict[str, str] | None = None) -> list[list[Cell]]:
+        """Rows of (character, layer) cells; the layer drawn last wins a shared cell's style.
+
+        A guide line shows through the layers named in ``under_guides`` (the sparse 90 % band), so a
+        target limit stays visible inside the band. With ``ascii_glyphs`` (layer -> one ASCII character)
+        a cell with dots shows its layer's character instead of braille, for terminals without it.
+        """
         out: list[list[Cell]] = []
         for r in range(self.rows):
             line: list[Cell] = []
@@ -143,17 +155,19 @@ class BrailleCanvas:
                 if (r, c) in self._chars:
                     line.append(self._chars[(r, c)])
                     continue
-                bits, owner = 0, ""
+                bits, owner, owners = 0, "", set()
                 for name in self._order:
                     block = self._layers[name][r * 4:r * 4 + 4, c * 2:c * 2 + 2]
                     if block.any():
                         owner = name
+                        owners.add(name)
                         for dr in range(4):
                             for dc in range(2):
                                 if block[dr, dc]:
                                     bits |= DOT_BITS[dr][dc]
-                if bits:
-                    line.append((chr(BRAILLE_BASE + bits), owner))
+                if bits and not ((r, c) in self._guides and owners <= self.under_guides):
+                    glyph = ascii_glyphs.get(owner, "*") if ascii_glyphs is not None else chr(BRAILLE_BASE + bits)
+                    line.append((glyph, owner))
                 elif (r, c) in self._guides:
                     line.append(self._guides[(r, c)])
                 else:

@@ -41,6 +41,7 @@ class FieldRow(Horizontal):
     FieldRow > .field-label { width: 12; }
     FieldRow > Input { width: 20; }
     FieldRow.-wide > Input { width: 40; }
+    FieldRow.-time > Input { width: 25; }
     FieldRow > Cycler { width: 20; }
     FieldRow > .field-note { width: 1fr; color: $text-muted; }
     FieldRow.-bad > .field-note { color: $text-error; text-style: bold; }
@@ -48,7 +49,8 @@ class FieldRow(Horizontal):
     """
 
     def __init__(self, spec: FieldSpec, value: Any = "", *, prefix: str = "f") -> None:
-        super().__init__(id=f"{prefix}-{spec.key}", classes="-wide" if spec.kind in ("text", "target") else "")
+        wide = "-wide" if spec.kind in ("text", "target") else "-time" if spec.kind in ("time", "infusion") else ""
+        super().__init__(id=f"{prefix}-{spec.key}", classes=wide)
         self.spec = spec
         self._value = "" if value is None else str(value)
 
@@ -84,7 +86,16 @@ class FieldRow(Horizontal):
             widget.value = text
         if isinstance(widget, Input):
             widget.cursor_position = len(text)
-        self.show("", "")
+        self.show(self.reading(text), "")
+
+    def reading(self, text: str) -> str:
+        """A quantity stored in another unit than the field's reads in the field's unit (``154 lb``: ``= 69.85 kg``)."""
+        if not (text and self.spec.kind.startswith("quantity:") and self.spec.unit):
+            return ""
+        from tdmtui.ui.entry import quantity_entry
+
+        entry = quantity_entry(text, self.spec.kind.split(":", 1)[1], self.spec.unit, self.spec.key)
+        return "" if entry.error else entry.note
 
     def show(self, note: str, error: str) -> None:
         """Show the reading (note) or the reason it fails (error); marks the field."""

@@ -3,7 +3,9 @@
 Monochrome-safe: each element differs by glyph or line pattern, not colour:
 fitted curve solid braille, proposed regimen dashed braille, 90 % band
 sparse dots, levels "o" (used), "x" (set aside), "v" (below the limit of
-quantification), target limits "-" lines, "now" a "|" line.
+quantification), target limits "-" lines (a second band "="), "now" a "|" line.
+Without braille (``TDMTUI_PLOT=ascii``, or a locale that is not UTF-8) the
+curves are "*" fitted, "+" plan, "." band. The legend names only what is drawn.
 """
 
 from __future__ import annotations
@@ -20,6 +22,58 @@ if TYPE_CHECKING:  # numpy stays off the path to the first paint
 LEGEND = "o level x aside v <LOQ  \u28c0\u28c0 fitted  \u28c0 \u28c0 plan  \u2801 90% band  - target  | now"
 MARK = {"used": "o", "aside": "x", "blq": "v"}
 Y_LABEL_W = 6
+#: Glyphs without braille (a terminal or locale that cannot show it): one character per cell and layer.
+ASCII = {"fit": "*", "plan": "+", "band": "."}
+#: The line of each target band (a second band, e.g. the peak beside the trough, gets its own).
+BAND_CHARS = ("-", "=")
+#: The LC_CTYPE values Python's C-locale coercion writes into the environment (PEP 538).
+COERCED = ("C.UTF-8", "C.utf8", "UTF-8")
+
+
+def braille_ok(env: dict[str, str] | None = None) -> bool:
+    """Whether to draw in braille: ``TDMTUI_PLOT=ascii`` or ``braille`` decides; else the locale must be UTF-8.
+
+    The locale is the first of LC_ALL, LC_CTYPE, LANG that is set (as the C library reads it); with none
+    set, Python's preferred encoding. ``LANG=C`` with the LC_CTYPE Python sets when it coerces the C locale
+    counts as C.
+    """
+    import locale
+    import os
+
+    env = os.environ if env is None else env
+    choice = env.get("TDMTUI_PLOT", "").strip().lower()
+    if choice in ("ascii", "braille"):
+        return choice == "braille"
+    if not env.get("LC_ALL") and env.get("LANG") in ("C", "POSIX") and env.get("LC_CTYPE") in COERCED:
+        return False  # Python itself set LC_CTYPE (PEP 538) because the locale is C: the terminal may not be UTF-8
+    name = next((env[k] for k in ("LC_ALL", "LC_CTYPE", "LANG") if env.get(k)), "")
+    enc = name.rsplit(".", 1)[1] if "." in name else ("" if name else locale.getpreferredencoding(False))
+    return enc.split("@")[0].replace("-", "").lower() == "utf8"
+
+
+def legend(data: PlotData, braille: bool) -> str:
+    """What is drawn, and only that: the level glyphs, curves, the band, each target band by name and range."""
+    fit, plan, band = ("\u28c0\u28c0", "\u28c0 \u28c0", "\u2801") if braille else ("*", "+", ".")
+    parts = ["o level x aside v <LOQ", f"{fit} fitted"]
+    if data.plan is not None:
+        parts.append(f"{plan} plan")
+    if data.band is not None:
+        parts.append(f"{band} 90% band")
+    for ch, (lo, hi, name) in zip(BAND_CHARS, data.bands()):
+        parts.append(f"{ch} {name} {lo:g}-{hi:g}")
+    parts.append("| now")
+    return "  ".join(parts)
+
+
+def legend_lines(text: str, cols: int) -> list[str]:
+    """The legend on as many lines as it needs (broken between its parts), never cut."""
+    lines: list[str] = []
+    for part in text.split("  "):
+        if lines and len(lines[-1]) + 2 + len(part) <= cols:
+            lines[-1] += "  " + part
+        else:
+            lines.append(part[:cols])
+    return lines
 
 
 def draw(data: PlotData, cols: int, rows: int) -> BrailleCanvas:
@@ -29,10 +83,11 @@ def draw(data: PlotData, cols: int, rows: int) -> BrailleCanvas:
     from tdmtui.ui.widgets.canvas import BrailleCanvas, dashed, solid, sparse
 
     canvas = BrailleCanvas(cols, rows, data.x0, data.x1, 0.0, data.y_max())
+    canvas.under_guides = {"band"}
     xs = canvas.dot_xs()
-    if data.target:
-        canvas.hguide(data.target[0], "-", "target")
-        canvas.hguide(data.target[1], "-", "target")
+    for ch, (lo, hi, _) in zip(BAND_CHARS, data.bands()):
+        canvas.hguide(lo, ch, "target")
+        canvas.hguide(hi, ch, "target")
     canvas.vguide(data.now, "|", "now")
     if data.band is not None:
         bt, lo, hi = data.band
@@ -48,12 +103,14 @@ def draw(data: PlotData, cols: int, rows: int) -> BrailleCanvas:
     return canvas
 
 
-def plot_lines(data: PlotData, width: int, height: int) -> list[tuple[str, list[tuple[str, str]]]]:
-    """The whole plot as lines of (axis label, cells): canvas, time axis, legend."""
-    rows = max(height - 2, 2)
+def plot_lines(data: PlotData, width: int, height: int,
+               braille: bool = True) -> list[tuple[str, list[tuple[str, str]]]]:
+    """The whole plot as lines of (axis label, cells): canvas, time axis, legend (ASCII when not ``braille``)."""
     cols = max(width - Y_LABEL_W - 1, 10)
+    key = legend_lines(legend(data, braille), cols)
+    rows = max(height - 1 - len(key), 2)
     canvas = draw(data, cols, rows)
-    cells = canvas.cells()
+    cells = canvas.cells(None if braille else ASCII)
     top = data.y_max()
     out = []
     for r, line in enumerate(cells):
@@ -81,7 +138,7 @@ def plot_lines(data: PlotData, width: int, height: int) -> list[tuple[str, list[
         for i, ch in enumerate(now):
             axis[pos + i] = ch
     out.append(("mg/L", [(ch, "axis") for ch in axis]))
-    out.append(("", [(ch, "legend") for ch in LEGEND[: width - Y_LABEL_W - 1]]))
+    out += [("", [(ch, "legend") for ch in line]) for line in key]
     return out
 
 
@@ -108,6 +165,7 @@ class ConcPlot(Widget, can_focus=True):
         super().__init__(id=id)
         self.data: PlotData | None = None
         self._outcome: Any = None
+        self.braille = braille_ok()
 
     def show(self, data: PlotData | None) -> None:
         """Draw new data (None: no estimate to plot)."""
@@ -131,7 +189,7 @@ class ConcPlot(Widget, can_focus=True):
             return Text("No fitted curve yet: the plot appears when an estimate exists.")
         styles = {name.split("--")[1]: self.get_component_rich_style(name) for name in self.COMPONENT_CLASSES}
         text = Text(no_wrap=True, overflow="crop")
-        for i, (label, cells) in enumerate(plot_lines(self.data, w, h)):
+        for i, (label, cells) in enumerate(plot_lines(self.data, w, h, self.braille)):
             if i:
                 text.append("\n")
             text.append(f"{label:>{Y_LABEL_W}} ")

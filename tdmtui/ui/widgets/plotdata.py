@@ -34,6 +34,11 @@ class PlotData:
     levels: list[tuple[float, float, str]] = field(default_factory=list)  # (t, conc, "used"|"aside"|"blq")
     target: tuple[float, float, str] | None = None
     fmt: Any = None  # clock.format
+    targets: list[tuple[float, float, str]] = field(default_factory=list)  # every band (``target`` is the first)
+
+    def bands(self) -> list[tuple[float, float, str]]:
+        """Every target band drawn: ``targets``, else the single ``target``."""
+        return self.targets or ([self.target] if self.target else [])
 
     def y_max(self) -> float:
         """Top of the y axis, mg/L: the highest value plus 10 %."""
@@ -41,23 +46,25 @@ class PlotData:
         if self.plan is not None and self.plan.size:
             values.append(float(np.nanmax(self.plan)))
         values += [c for _, c, _ in self.levels]
-        if self.target:
-            values.append(self.target[1])
+        values += [hi for _, hi, _ in self.bands()]
         return max(values + [1.0]) * 1.1
 
 
-def _target_band(case: Any, rules: Any) -> tuple[float, float, str] | None:
+def _target_bands(case: Any, rules: Any, continuous: bool) -> list[tuple[float, float, str]]:
+    """The concentration targets in mg/L: the case's own, else the library's (trough and peak, or Css when
+    the regimen is a continuous infusion). An AUC-only target gives none (it is not a concentration)."""
     t = case.target
-    for name in ("trough", "peak", "css"):
-        band = getattr(t, name, None)
-        if band:
-            return band[0], band[1], name
+    names = ("css",) if continuous else ("trough", "peak")
+    own = [(band[0], band[1], name) for name in ("trough", "peak", "css") if (band := getattr(t, name, None))]
+    if own:
+        return own
+    out: list[tuple[float, float, str]] = []
     if rules is not None:
-        for name in ("trough", "peak", "css"):
+        for name in names:
             value = rules.get(f"targets.{name}")
-            if isinstance(value, list) and len(value) == 2 and name != "css":
-                return float(value[0]), float(value[1]), name
-    return None
+            if isinstance(value, list) and len(value) == 2:
+                out.append((float(value[0]), float(value[1]), name))
+    return out
 
 
 def build_plot_data(outcome: Any) -> PlotData | None:
@@ -96,4 +103,7 @@ def build_plot_data(outcome: Any) -> PlotData | None:
     for lv in case.levels:
         kind = "aside" if not lv.use else ("blq" if lv.below_loq else "used")
         levels.append((lv.time, lv.conc, kind))
-    return PlotData(x0, x1, now, t, fit, plan_c, band, levels, _target_band(case, outcome.rules), case.clock.format)
+    continuous = (outcome.result.get("regimen") or {}).get("mode") == "continuous"
+    targets = _target_bands(case, outcome.rules, continuous)
+    return PlotData(x0, x1, now, t, fit, plan_c, band, levels, targets[0] if targets else None, case.clock.format,
+                    targets=targets)
