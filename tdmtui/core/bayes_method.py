@@ -168,6 +168,7 @@ def run(ctx: MethodContext) -> MethodRun:
                 fit = bayes.map_fit(o.model, cov, ctx.history, _observations(levels))
                 samples = bayes.importance_samples(fit, N_DRAWS, resample=True)
                 est[key] = _estimate(key, fit, levels, ctx, o, False, samples)
+                est[key].warm = {o.model.id: fit.eta}
                 fitted.append((o, fit, levels, samples))
             else:
                 why[key] = "no usable level for a Bayesian fit (the a priori estimate is shown as population)"
@@ -255,6 +256,7 @@ def _averaged(ctx: MethodContext, fitted: list, est: dict[str, Estimate]) -> tup
     e = Estimate("bayesian", params, [lv.index for lv in levels], steps,
                  f"model average of {len(members)} population model(s) with {len(levels)} level(s)",
                  model=model_info, interval90=interval90, target_probability=prob, samples=mix, extra=extra)
+    e.warm = {**{m.model_id: m.fit.eta for m in members}, "weights": dict(zip((m.model_id for m in members), w))}
     return e, flags
 
 
@@ -324,10 +326,16 @@ def residual_alerts(e: Estimate, rules: Any) -> list[Alert]:
     return out
 
 
-def refit(ctx: MethodContext, model_id: str) -> Estimate | None:
-    """MAP again on one model, or the model average again (for the timing sensitivity); None when it fails."""
+def refit(ctx: MethodContext, model_id: str, warm: dict[str, Any] | None = None) -> Estimate | None:
+    """MAP again on one model, or the model average again (for the timing sensitivity); None when it fails.
+
+    ``warm`` (the base estimate's :attr:`Estimate.warm`): each MAP starts from the base eta, and a model
+    average keeps the base weights when the same models fit again (a time moved by minutes changes each
+    fit; the weights' importance sampling is not redone 4 times per level). Without it, as the base run.
+    """
     from tdmtui.core import averaging, bayes, popmodels
 
+    warm = warm or {}
     cov = _covariates(ctx)
     if model_id == "model-average":
         fitted = []
@@ -336,21 +344,28 @@ def refit(ctx: MethodContext, model_id: str) -> Estimate | None:
             if o.excluded or not levels:
                 continue
             try:
-                fitted.append((o, bayes.map_fit(o.model, cov, ctx.history, _observations(levels)), levels, None))
+                fit = bayes.map_fit(o.model, cov, ctx.history, _observations(levels), start=warm.get(o.model.id))
+                fitted.append((o, fit, levels, None))
             except (NoEstimateError, ConvergenceError):
                 continue
         members = _eligible(fitted)[0]
         if not members:
             return None
-        ms = [averaging.Member(o.model.id, o.model.name, f, None, averaging.log_evidence(f)) for o, f, _, _ in members]
-        return Estimate("bayesian", averaging.point(ms, averaging.weights([m.log_evidence for m in ms])),
-                        [lv.index for lv in members[0][2]])
+        base_w = warm.get("weights") or {}
+        if set(base_w) == {o.model.id for o, *_ in members}:
+            ms = [averaging.Member(o.model.id, o.model.name, f, None, 0.0) for o, f, _, _ in members]
+            w = [base_w[m.model_id] for m in ms]
+        else:
+            ms = [averaging.Member(o.model.id, o.model.name, f, None, averaging.log_evidence(f))
+                  for o, f, _, _ in members]
+            w = averaging.weights([m.log_evidence for m in ms])
+        return Estimate("bayesian", averaging.point(ms, w), [lv.index for lv in members[0][2]])
     model = popmodels.get_model(model_id)
     levels = levels_for(ctx, model.compartments == 2)
     if not levels:
         return None
     try:
-        fit = bayes.map_fit(model, cov, ctx.history, _observations(levels))
+        fit = bayes.map_fit(model, cov, ctx.history, _observations(levels), start=warm.get(model_id))
     except (NoEstimateError, ConvergenceError):
         return None
     return Estimate("bayesian", fit.params, [lv.index for lv in levels])

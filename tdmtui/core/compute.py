@@ -60,13 +60,20 @@ class Outcome:
     params: PKParams | None
     history: DoseArrays
     plan: DoseArrays | None = None
-    band: tuple[np.ndarray, np.ndarray, np.ndarray] | None = None
     working: list[WorkingStep] = field(default_factory=list)
     alerts: list[Alert] = field(default_factory=list)
     renal: RenalSummary | None = None
     estimates: dict[str, Estimate] = field(default_factory=dict)
     rules: Rules | None = None
     regimen_plan: Any = None
+    band_source: tuple[MethodContext, Estimate] | None = field(default=None, repr=False)
+
+    def band_over(self, t0: float, t1: float, points: int = 240) -> tuple[np.ndarray, np.ndarray, np.ndarray] | None:
+        """The 90 % concentration band over [t0, t1] h (times, 5th, 95th percentile), computed when a view
+        asks (only the app's plot shows it), or None without posterior draws."""
+        if self.band_source is None:
+            return None
+        return methods.concentration_band(*self.band_source, self.plan, (t0, t1), points)
 
 
 def choose(requested: str, estimates: dict[str, Estimate], failures: dict[str, str]) -> str:
@@ -218,7 +225,7 @@ def compute(case: Case, protocol: Protocol | None = None, method: str | None = N
             result.pop("regimen", None)
     if "regimen" not in result and result["status"] == "stop":
         outcome.plan = None
-    outcome.band = methods.concentration_band(ctx, est, outcome.plan)
+    outcome.band_source = (ctx, est) if est.samples else None
     result["warnings"] = [a.to_dict() for a in alerts]
     result["working"] = [w.to_dict() for w in est.working]
     outcome.alerts = alerts
