@@ -67,7 +67,8 @@ def batch_concentration(cl, v1, q, v2, design: Design) -> np.ndarray:  # noqa: A
     """
     lam, w = exponentials(cl, v1, q, v2)
     scale = w / np.atleast_1d(np.asarray(v1, dtype=float))[:, None]
-    return np.einsum("mkn,mk->mn", design.layout.sums(lam), scale)
+    sums = design.layout.sums(lam)
+    return sums[:, 0] * scale[:, :1] if lam.shape[1] == 1 else np.sum(sums * scale[:, :, None], axis=1)
 
 
 def batch_steady_state(cl, v1, q, v2, dose: float, tau: float, tinf: float,  # noqa: ANN001
