@@ -35,7 +35,8 @@ sys.path.insert(0, str(BENCH))
 from timing import median_seconds  # noqa: E402
 
 #: smaller arguments for --quick, for the benches that take them
-QUICK_ARGS = {"bench_bayes.py": ["--patients", "60", "--reps", "30"], "bench_regimen.py": ["--reps", "10"]}
+QUICK_ARGS = {"bench_bayes.py": ["--patients", "60", "--reps", "30"], "bench_regimen.py": ["--reps", "10"],
+              "bench_scale.py": ["--quick"]}
 
 
 def median_ms(fn: Callable[[], object], reps: int, warm: int = 1) -> float:
