@@ -37,7 +37,8 @@ from timing import median_seconds  # noqa: E402
 
 #: smaller arguments for --quick, for the benches that take them
 QUICK_ARGS = {"bench_bayes.py": ["--patients", "60", "--reps", "30"], "bench_regimen.py": ["--reps", "10"],
-              "bench_renal.py": ["--patients", "200"]}
+              "bench_renal.py": ["--patients", "200"],
+              "bench_scale.py": ["--quick"]}
 
 
 def median_ms(fn: Callable[[], object], reps: int, warm: int = 1) -> float:

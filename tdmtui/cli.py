@@ -12,14 +12,13 @@ only what it needs.
 from __future__ import annotations
 
 import argparse
-import json
 import sys
 from pathlib import Path
 from typing import Any
 
-SUBCOMMANDS = ("compute", "note", "import")
+SUBCOMMANDS = ("compute", "note", "import", "batch")
 USAGE = ("usage: tdmtui [CASE] | tdmtui compute CASE [--json] [--record] | "
-         "tdmtui note CASE [--full] [--out FILE] | tdmtui import BUNDLE\n"
+         "tdmtui note CASE [--full] [--out FILE] | tdmtui import BUNDLE | tdmtui batch PATH... [--out FILE]\n"
          "  tdmtui CASE opens the app (a file that does not exist yet starts a new case saved there);\n"
          "  'tdmtui --help' or 'tdmtui note --help' lists every option.")
 
@@ -65,10 +64,10 @@ def _write_file(path: str | Path, text: str, option: str) -> None:
 
 
 def cmd_compute(args: argparse.Namespace) -> int:
-    from tdmtui.core.textsafe import json_safe
+    from tdmtui.batchrow import result_text  # the one writer of the JSON text (`tdmtui batch` uses it too)
 
     outcome = _compute(args)
-    text = json_safe(json.dumps(outcome.result, indent=2, ensure_ascii=False, allow_nan=False)) + "\n"
+    text = result_text(outcome.result)
     if args.record:
         record = Path(args.case).with_suffix(".result.json")
         _write_file(record, text, "--record")
@@ -127,7 +126,8 @@ def _app_parser() -> argparse.ArgumentParser:
         prog="tdmtui",
         description="Therapeutic drug monitoring for vancomycin and aminoglycosides. "
                     "Commands: 'tdmtui [CASE]' opens the app; 'tdmtui compute CASE [--json]'; 'tdmtui note CASE [--out FILE]'; "
-                    "'tdmtui import BUNDLE.json [--out CASE]' (FHIR R4 export to a case).")
+                    "'tdmtui import BUNDLE.json [--out CASE]' (FHIR R4 export to a case); "
+                    "'tdmtui batch PATH... [--out FILE.csv|.jsonl]' (many cases, one row each).")
     ap.add_argument("case", nargs="?", help="case file to open (omit for a new case)")
     ap.add_argument("--protocol", metavar="FILE", help="local protocol TOML")
     ap.add_argument("--mouse", action="store_true", help="enable mouse support (off by default for SSH)")
@@ -145,6 +145,10 @@ def main(argv: list[str] | None = None) -> int:
             from tdmtui.importcmd import main as import_main
 
             return import_main(argv[1:])
+        if argv and argv[0] == "batch":
+            from tdmtui.batchcmd import main as batch_main
+
+            return batch_main(argv[1:])
         if argv and argv[0] in SUBCOMMANDS:
             args = _sub_parser(argv[0]).parse_args(argv[1:])
             return cmd_compute(args) if argv[0] == "compute" else cmd_note(args)

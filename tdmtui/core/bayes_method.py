@@ -222,6 +222,7 @@ def _run(ctx: MethodContext, steps: list) -> MethodRun:
                 fit = bayes.map_fit(o.model, cov, ctx.history, _observations(levels), course=course, typical=typical)
                 samples = bayes.importance_samples(fit, N_DRAWS, resample=True)
                 est[key] = _estimate(key, fit, levels, ctx, o, False, samples, renal=sched)
+                est[key].warm = {o.model.id: fit.eta}
                 fitted.append((o, fit, levels, samples))
             else:
                 why[key] = "no usable level for a Bayesian fit (the a priori estimate is shown as population)"
@@ -318,6 +319,7 @@ def _averaged(ctx: MethodContext, fitted: list, est: dict[str, Estimate]) -> tup
         said += "; clearance follows each dated SCr, the forecast uses the latest CrCl"
     e = Estimate("bayesian", params, [lv.index for lv in levels], steps, said,
                  model=model_info, interval90=interval90, target_probability=prob, samples=mix, extra=extra)
+    e.warm = {**{m.model_id: m.fit.eta for m in members}, "weights": dict(zip((m.model_id for m in members), w))}
     return e, flags
 
 
@@ -387,18 +389,25 @@ def residual_alerts(e: Estimate, rules: Rules) -> list[Alert]:
     return out
 
 
-def refit(ctx: MethodContext, model_id: str) -> Estimate | None:
-    """MAP again on one model, or the model average again (for the timing sensitivity); None when it fails."""
+def refit(ctx: MethodContext, model_id: str, warm: dict[str, Any] | None = None) -> Estimate | None:
+    """MAP again on one model, or the model average again (for the timing sensitivity); None when it fails.
+
+    ``warm`` (the base estimate's :attr:`Estimate.warm`): each MAP starts from the base eta, and a model
+    average keeps the base weights when the same models fit again (a time moved by minutes changes each
+    fit; the weights' importance sampling is not redone 4 times per level). Without it, as the base run.
+    """
     from tdmtui.core import averaging, bayes, popmodels
 
     from tdmtui.core import renalcourse
 
+    warm = warm or {}
     cov = _covariates(ctx)
     steps = renalcourse.steps_of(ctx.case)
 
     def fit_one(model: Any, levels: list) -> Any:
         _, typical, course = _course(ctx, model, cov, steps)
-        return bayes.map_fit(model, cov, ctx.history, _observations(levels), course=course, typical=typical)
+        return bayes.map_fit(model, cov, ctx.history, _observations(levels), course=course, typical=typical,
+                             start=warm.get(model.id))
 
     if model_id == "model-average":
         fitted = []
@@ -413,9 +422,15 @@ def refit(ctx: MethodContext, model_id: str) -> Estimate | None:
         members = _eligible(fitted)[0]
         if not members:
             return None
-        ms = [averaging.Member(o.model.id, o.model.name, f, None, averaging.log_evidence(f)) for o, f, _, _ in members]
-        return Estimate("bayesian", averaging.point(ms, averaging.weights([m.log_evidence for m in ms])),
-                        [lv.index for lv in members[0][2]])
+        base_w = warm.get("weights") or {}
+        if set(base_w) == {o.model.id for o, *_ in members}:
+            ms = [averaging.Member(o.model.id, o.model.name, f, None, 0.0) for o, f, _, _ in members]
+            w = [base_w[m.model_id] for m in ms]
+        else:
+            ms = [averaging.Member(o.model.id, o.model.name, f, None, averaging.log_evidence(f))
+                  for o, f, _, _ in members]
+            w = averaging.weights([m.log_evidence for m in ms])
+        return Estimate("bayesian", averaging.point(ms, w), [lv.index for lv in members[0][2]])
     model = popmodels.get_model(model_id)
     levels = levels_for(ctx, model.compartments == 2)
     if not levels:

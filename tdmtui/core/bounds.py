@@ -11,14 +11,18 @@ before any work grows with it. The limits (documented in
 ``MAX_DEPTH``           objects and lists nested at most 16 deep
 ``MAX_TEXT``            a string of at most 2,000 characters (a key: 200; a bare
                         JSON number: 40, and finite)
-``MAX_ROWS``            at most 1,000 doses, 200 levels, 500 SCr values,
+``MAX_ROWS``            at most 10,000 doses, 200 levels, 500 SCr values,
                         50 comedications or conditions
-``MAX_SPAN_DAYS``       every time (as_of included) within 400 days of the others
+``MAX_SPAN_DAYS``       every time (as_of included) within 3,000 days of the others
 ``YEARS``               times in the years 1900 to 2199
 =====================  =========================================================
 
 Design choices (common practice for defensive parsing; no clinical meaning):
-the counts allow a course of several months with frequent levels.
+the counts allow a course of several months with frequent levels. The dose count and
+the span are set by what the engine computes safely: its cost is linear in the doses
+(:mod:`tdmtui.core.models.superpose`; 5,000 doses every 12 h with 20 levels, about
+2,500 days, in a second or two and bounded memory, ``bench/bench_scale.py``); a span
+of 3,000 days still refuses a decade typed wrong.
 """
 
 from __future__ import annotations
@@ -37,8 +41,8 @@ MAX_DEPTH = 16
 MAX_TEXT = 2000
 MAX_KEY = 200
 MAX_NUMBER = 40
-MAX_ROWS = {"doses": 1000, "levels": 200, "patient.scr": 500, "patient.comedications": 50, "patient.conditions": 50}
-MAX_SPAN_DAYS = 400.0
+MAX_ROWS = {"doses": 10000, "levels": 200, "patient.scr": 500, "patient.comedications": 50, "patient.conditions": 50}
+MAX_SPAN_DAYS = 3000.0
 __all__ = ["YEARS", "MAX_FILE_BYTES", "MAX_DEPTH", "MAX_TEXT", "MAX_ROWS", "MAX_SPAN_DAYS"]
 
 

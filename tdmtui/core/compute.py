@@ -67,7 +67,6 @@ class Outcome:
     params: PKParams | None
     history: DoseArrays
     plan: DoseArrays | None = None
-    band: tuple[np.ndarray, np.ndarray, np.ndarray] | None = None
     working: tuple[WorkingStep, ...] = ()
     alerts: tuple[Alert, ...] = ()
     renal: RenalSummary | None = None
@@ -75,6 +74,14 @@ class Outcome:
     rules: Rules | None = None
     regimen_plan: RegimenPlan | None = None
     method_used: str | None = None
+    band_source: tuple[MethodContext, Estimate] | None = field(default=None, repr=False)
+
+    def band_over(self, t0: float, t1: float, points: int = 240) -> tuple[np.ndarray, np.ndarray, np.ndarray] | None:
+        """The 90 % concentration band over [t0, t1] h (times, 5th, 95th percentile), computed when a view
+        asks (only the app's plot shows it), or None without posterior draws."""
+        if self.band_source is None:
+            return None
+        return methods.concentration_band(*self.band_source, self.plan, (t0, t1), points)
 
     def with_result(self, **changes: object) -> Outcome:
         """A copy whose result object has ``changes`` (e.g. ``input_saved=True``); this one is untouched."""
@@ -245,10 +252,10 @@ def compute(case: Case, protocol: Protocol | None = None, method: str | None = N
     if "regimen" not in result and result["status"] == "stop":
         plan_doses = None
     alerts = reconcile.settle(alerts)
-    band = methods.concentration_band(ctx, est, plan_doses)
     result["warnings"] = [a.to_dict() for a in alerts]
     result["working"] = [w.to_dict() for w in est.working]
-    return Outcome(case, result, est.params, history, plan=plan_doses, band=band, working=tuple(est.working),
+    return Outcome(case, result, est.params, history, plan=plan_doses, working=tuple(est.working),
+                   band_source=(ctx, est) if est.samples else None,
                    alerts=tuple(alerts), renal=renal, estimates=estimates, rules=rules, regimen_plan=plan,
                    method_used=used)
 

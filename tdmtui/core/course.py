@@ -8,6 +8,8 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+import numpy as np
+
 from tdmtui.core.alerts import Alert
 from tdmtui.core.case import Case, Dose, Level
 from tdmtui.core.library import Rules
@@ -71,15 +73,40 @@ def level_exclusion(case: Case, level: Level, rules: Rules) -> tuple[str, str] |
     if session is not None:
         return session
     window = float(rules.value("windows.post_distribution_h"))
-    for d in case.doses:
-        if d.start < level.time < d.end and not is_continuous(d, rules):
-            return "level-in-infusion", "drawn while an infusion was running"
-    if running_continuous(case, level, rules) is not None:
+    start, end, dur = _dose_times(case)
+    t = level.time
+    inside = (start < t) & (t < end)
+    if np.any(inside & (dur < _continuous_h(rules))):
+        return "level-in-infusion", "drawn while an infusion was running"
+    if np.any(inside):  # only continuous infusions run: the level is a steady-state one
         return None
-    for d in case.doses:
-        if d.end <= level.time < d.end + window and d.start < level.time:
-            return "level-in-distribution", f"drawn {60 * (level.time - d.end):.0f} min after the end of infusion, inside the {window:g} h distribution window"
+    after = np.flatnonzero((end <= t) & (t < end + window) & (start < t))
+    if after.size:
+        d = case.doses[int(after[0])]
+        return "level-in-distribution", f"drawn {60 * (level.time - d.end):.0f} min after the end of infusion, inside the {window:g} h distribution window"
     return None
+
+
+_TIMES: dict[int, tuple[tuple, np.ndarray, np.ndarray, np.ndarray]] = {}
+
+
+def _dose_times(case: Case) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Start, end and duration of every dose, h, in file order (kept for the last few dose lists: the level checks
+    run for every level and every shifted copy of a case, and must stay linear in the doses)."""
+    hit = _TIMES.get(id(case.doses))
+    if hit is not None and hit[0] is case.doses:
+        return hit[1], hit[2], hit[3]
+    start = np.array([d.start for d in case.doses], dtype=float)
+    end = np.array([d.end for d in case.doses], dtype=float)
+    dur = np.array([d.duration for d in case.doses], dtype=float)
+    if len(_TIMES) >= 16:
+        _TIMES.clear()
+    _TIMES[id(case.doses)] = (case.doses, start, end, dur)
+    return start, end, dur
+
+
+def _continuous_h(rules: Rules) -> float:
+    return float(rules.value("windows.continuous_min_infusion_h"))
 
 
 def is_continuous(dose: Dose, rules: Rules) -> bool:
@@ -89,10 +116,9 @@ def is_continuous(dose: Dose, rules: Rules) -> bool:
 
 def running_continuous(case: Case, level: Level, rules: Rules) -> Dose | None:
     """The continuous infusion running when the level was drawn, or None."""
-    for d in case.doses:
-        if d.start < level.time < d.end and is_continuous(d, rules):
-            return d
-    return None
+    start, end, dur = _dose_times(case)
+    hit = np.flatnonzero((start < level.time) & (level.time < end) & (dur >= _continuous_h(rules)))
+    return case.doses[int(hit[0])] if hit.size else None
 
 
 def usable_levels(case: Case, rules: Rules) -> list[Level]:

@@ -36,6 +36,8 @@ class Estimate:
         target_probability: probability the current regimen meets its target.
         samples: posterior parameter draws (not serialised).
         extra: further JSON-ready keys (diagnostics, two-compartment figures...).
+        warm: where a refit starts (not serialised): model id -> eta of its MAP, and ``"weights"`` of a
+            model average; the timing sensitivity's refits start there.
     """
 
     method: str
@@ -48,6 +50,7 @@ class Estimate:
     target_probability: float | None = None
     samples: ParamSamples | None = None
     extra: dict[str, Any] = field(default_factory=dict)
+    warm: dict[str, Any] = field(default_factory=dict, repr=False)
 
     def current(self, cur: CurrentRegimen | None) -> dict[str, float] | None:
         """Steady-state figures of the current regimen with these parameters."""

@@ -198,7 +198,7 @@ def refit_sawchuk_zaske(ctx: MethodContext, est: Estimate) -> Estimate | None:
 
 def refit_bayesian(ctx: MethodContext, est: Estimate) -> Estimate | None:
     """MAP again on the same model."""
-    return bayes_method.refit(ctx, est.model["id"]) if est.model else None
+    return bayes_method.refit(ctx, est.model["id"], est.warm) if est.model else None
 
 
 def bayesian_alerts(ctx: MethodContext, est: Estimate, runs: MethodRuns) -> list[Alert]:

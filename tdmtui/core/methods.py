@@ -148,18 +148,21 @@ def attach_regimen(ctx: MethodContext, est: Estimate, base: RegimenInput) -> Pla
     return design(dataclasses.replace(base, params=est.params, samples=est.samples, method=est.method))
 
 
-def concentration_band(ctx: MethodContext, est: Estimate, plan: DoseArrays | None):  # noqa: ANN201
-    """90 % concentration band over the history and plan from posterior draws, or None."""
+def concentration_band(ctx: MethodContext, est: Estimate, plan: DoseArrays | None,  # noqa: ANN201
+                       window: tuple[float, float] | None = None, points: int = 240):
+    """90 % concentration band from posterior draws over ``window`` (h; default: the first dose to 24 h
+    after the last dose or ``as_of``), or None. Only a view that shows it asks for it
+    (:meth:`tdmtui.core.compute.Outcome.band_over`); every dose counts, each draw's curve in linear time."""
     if not est.samples:
         return None
     doses = ctx.history if plan is None else ctx.history.concat(plan)
     if len(doses) == 0:
         return None
-    t0 = float(doses.start[0])
-    t1 = max(ctx.case.as_of, float(doses.start[-1] + doses.duration[-1])) + 24.0
+    if window is None:
+        window = (float(doses.start[0]), max(ctx.case.as_of, float(doses.start[-1] + doses.duration[-1])) + 24.0)
     from tdmtui.core.models.batch import Design, batch_concentration
 
-    t = np.linspace(t0, t1, 240)
+    t = np.linspace(window[0], window[1], points)
     s, n = est.samples, 400
     curves = batch_concentration(s.cl[:n], s.v1[:n], s.q[:n], s.v2[:n], Design.build(doses, t))
     lo, hi = np.percentile(curves, [5, 95], axis=0)

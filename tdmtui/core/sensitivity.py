@@ -5,6 +5,11 @@ Each level the method used, and the end of the infusion before it, is moved by
 (45 min) for times marked ``timing: uncertain`` — and the same method is run
 again. A change above ``timing.sensitivity_warn_rel`` (10 %) in AUC24 or ke is
 warned, naming the time that matters. All three numbers are library data.
+
+Cost: a moved level keeps the base dose arrays, a moved infusion end changes one
+duration in them (no rebuild from the case), and each refit starts from the base
+estimate (:attr:`Estimate.warm`: the MAP from the base eta; a model average keeps
+its base weights), so the refits stay linear in the dose history.
 """
 
 from __future__ import annotations
@@ -12,12 +17,32 @@ from __future__ import annotations
 import dataclasses
 from typing import Any
 
+import numpy as np
+
 from tdmtui.core import course, registry
 from tdmtui.core.alerts import Alert
 from tdmtui.core.case import Case
 from tdmtui.core.context import MethodContext, history_of
 from tdmtui.core.errors import ConvergenceError, NoEstimateError
 from tdmtui.core.estimates import Estimate
+from tdmtui.core.models import DoseArrays
+
+
+def _history(ctx: MethodContext, case: Case) -> DoseArrays:
+    """The shifted case's dose arrays: the base ones when only a level moved, one duration changed when
+    one infusion end moved (the case's dose at the same start, amount and old duration), else rebuilt."""
+    if case.doses is ctx.case.doses:
+        return ctx.history
+    h = ctx.history
+    changed = [(a, b) for a, b in zip(ctx.case.doses, case.doses) if a is not b]
+    if len(changed) == 1 and changed[0][0].start <= case.as_of:
+        old, new = changed[0]
+        at = np.flatnonzero((h.start == old.start) & (h.duration == old.duration) & (h.amount == old.amount))
+        if at.size == 1:
+            duration = h.duration.copy()
+            duration[at[0]] = new.duration
+            return DoseArrays(h.start, duration, h.amount)
+    return history_of(case)
 
 
 def _rerun(ctx: MethodContext, est: Estimate, case: Case) -> Estimate | None:
@@ -25,7 +50,7 @@ def _rerun(ctx: MethodContext, est: Estimate, case: Case) -> Estimate | None:
     rec = registry.get(est.method)
     if rec is None or rec.refit is None:
         return None
-    sub = dataclasses.replace(ctx, case=case, history=history_of(case), usable=course.usable_levels(case, ctx.rules))
+    sub = dataclasses.replace(ctx, case=case, history=_history(ctx, case), usable=course.usable_levels(case, ctx.rules))
     try:
         return rec.refit_on(sub, est)
     except (NoEstimateError, ConvergenceError):

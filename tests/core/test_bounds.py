@@ -67,11 +67,15 @@ def test_counts_span_and_years_are_bounded():
     exc = rejected(raw)
     assert exc.field == "levels" and "at most 200" in exc.message
     raw = base_case()
+    raw["doses"] = [raw["doses"][0]] * 10_001  # one over the dose limit (the bound is checked before parsing)
+    exc = rejected(raw)
+    assert exc.field == "doses" and "at most 10,000" in exc.message
+    raw = base_case()
     raw["as_of"] = "2526-03-03T21:00"  # 500 years after the doses
     assert rejected(raw).field == "as_of"
-    raw["as_of"] = "2027-06-03T21:00"  # inside the years, past the 400-day span
+    raw["as_of"] = "2034-09-03T21:00"  # inside the years, past the 3,000-day span
     exc = rejected(raw)
-    assert exc.field == "as_of" and "400 days" in exc.message
+    assert exc.field == "as_of" and "3000 days" in exc.message
     for year in ("9999", "0001"):
         raw = base_case()
         raw["as_of"] = f"{year}-03-03T21:00"

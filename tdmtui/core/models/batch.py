@@ -10,11 +10,10 @@ AUC windows); the tests check both against scipy's ODE solver.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
-
 import numpy as np
 
 from tdmtui.core.models import DoseArrays
+from tdmtui.core.models.superpose import Layout
 
 
 def exponentials(cl, v1, q, v2) -> tuple[np.ndarray, np.ndarray]:  # noqa: ANN001
@@ -46,32 +45,25 @@ def exponentials(cl, v1, q, v2) -> tuple[np.ndarray, np.ndarray]:  # noqa: ANN00
     return out[:, 0], out[:, 1]
 
 
-@dataclass(frozen=True)
 class Design:
-    """Dose-by-time arrays for repeated batch predictions at n times; a dose is *done* at t once its
-    infusion has ended (a bolus: just after it is given), and only done (time, dose) pairs are kept."""
+    """The dose history laid out for repeated batch predictions at n fixed times.
 
-    after: np.ndarray  # (P,) h since the dose of each done pair ended
-    dose: np.ndarray  # (P,) index of that pair's dose
-    starts: np.ndarray  # first pair of each time that has any (pairs are ordered by time)
-    has: np.ndarray  # (n,) True where the time has a done pair
-    into: np.ndarray  # (n, d) h of a running infusion elapsed at t; 0 otherwise
-    running: bool  # any level drawn during an infusion
-    rate: np.ndarray  # (d,) mg/h (0 for a bolus)
-    duration: np.ndarray  # (d,) h
-    bolus: np.ndarray  # (d,) mg for a bolus, 0 for an infusion
+    A thin name over :class:`tdmtui.core.models.superpose.Layout`: the finished doses enter a
+    recurrence carried from time to time and running infusions are listed sparsely, so one
+    prediction costs time linear in doses + times and bounded memory (see that module).
+    """
+
+    def __init__(self, layout: Layout) -> None:
+        self.layout = layout
 
     @classmethod
     def build(cls, doses: DoseArrays, t) -> Design:  # noqa: ANN001
-        u = np.asarray(t, dtype=float).reshape(-1)[:, None] - doses.start[None, :]
-        dur = doses.duration
-        level, dose = np.nonzero((u >= dur) & (u > 0))
-        running = (u > 0) & (u < dur)
-        rate = np.where(dur > 0, doses.amount / np.where(dur > 0, dur, 1.0), 0.0)
-        counts = np.bincount(level, minlength=u.shape[0])
-        starts = (np.cumsum(counts) - counts)[counts > 0]
-        return cls(u[level, dose] - dur[dose], dose, starts, counts > 0, np.where(running, u, 0.0),
-                   bool(running.any()), rate, dur, np.where(dur > 0, 0.0, doses.amount))
+        return cls(Layout.build(doses, t))
+
+    @property
+    def n(self) -> int:
+        """Number of times."""
+        return self.layout.n
 
 
 def batch_concentration(cl, v1, q, v2, design: Design) -> np.ndarray:  # noqa: ANN001
@@ -81,16 +73,9 @@ def batch_concentration(cl, v1, q, v2, design: Design) -> np.ndarray:  # noqa: A
     once done; R (1 - e^(-lam u))/lam while running; superposed, each term weighted by w/V1.
     """
     lam, w = exponentials(cl, v1, q, v2)
-    lam3, scale = lam[:, :, None], w / np.atleast_1d(v1)[:, None]
-    end = (-np.expm1(-lam3 * design.duration) * (design.rate / lam3) + design.bolus) * scale[:, :, None]
-    out = np.zeros((lam.shape[0], design.has.size))
-    if design.starts.size:
-        done = np.sum(np.exp(-lam3 * design.after) * end[:, :, design.dose], axis=1)  # (m, P)
-        out[:, design.has] = np.add.reduceat(done, design.starts, axis=1)
-    if design.running:
-        lam4 = lam3[..., None]
-        out += np.einsum("mknd,mk->mn", -np.expm1(-lam4 * design.into) * (design.rate / lam4), scale)
-    return out
+    scale = w / np.atleast_1d(np.asarray(v1, dtype=float))[:, None]
+    sums = design.layout.sums(lam)
+    return sums[:, 0] * scale[:, :1] if lam.shape[1] == 1 else np.sum(sums * scale[:, :, None], axis=1)
 
 
 def batch_steady_state(cl, v1, q, v2, dose: float, tau: float, tinf: float,  # noqa: ANN001

@@ -25,7 +25,6 @@ import numpy as np
 
 from tdmtui.core.models import DoseArrays, SteadyState
 
-_CHUNK = 1 << 20  # dose x time elements per block, bounds temporary memory
 
 
 def check_positive(**values: float) -> None:
@@ -95,24 +94,11 @@ def unit_concentration(
         Array of the shape of ``t``.
     """
     tt = _times(t)
-    flat = tt.reshape(-1)
-    out = np.zeros(flat.shape, dtype=float)
-    n = len(doses)
-    if n == 0 or flat.size == 0:
-        return out.reshape(tt.shape)
-    s, dur, amt = doses.start, doses.duration, doses.amount
-    x_inf = lam * dur
-    infusion = x_inf > 0.0
-    scale = amt / v / np.where(infusion, x_inf, 1.0)
-    step = max(1, _CHUNK // n)
-    for lo in range(0, flat.size, step):
-        u = flat[lo : lo + step, None] - s[None, :]
-        uc = np.clip(u, 0.0, dur)
-        decay = np.exp(-lam * np.maximum(u - dur, 0.0))
-        started = (u >= 0.0) if right else (u > 0.0)
-        rise = np.where(infusion, -np.expm1(-lam * uc) * scale, started * (amt / v))
-        out[lo : lo + step] = np.sum(rise * decay, axis=1)
-    return out.reshape(tt.shape)
+    if len(doses) == 0 or tt.size == 0:
+        return np.zeros(tt.shape, dtype=float)
+    from tdmtui.core.models.superpose import Layout  # linear in doses + times (see that module)
+
+    return Layout.build(doses, tt, right).sums(np.array([[float(lam)]]))[0, 0].reshape(tt.shape) / v
 
 
 def unit_auc(lam: float, v: float, doses: DoseArrays, a: float, b: float) -> float:

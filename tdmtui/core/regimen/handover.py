@@ -26,9 +26,12 @@ Rules (each number is library or protocol data):
 * **Skipped doses.** ``skipped_doses`` lists the standing order's doses due
   from ``as_of`` up to the new first dose (held, or dropped by a longer
   interval timed from the last dose), so the note names them by clock time.
-* **Forecast.** The proposed doses superposed on the real history from the
-  first dose to ``as_of`` + 72 h, with the exact AUC of the next 0-24 h and
-  24-48 h from ``as_of`` (pk-sources.md 2.2).
+* **Forecast.** The proposed doses superposed on the real history (every
+  dose counts), shown from 72 h before ``as_of`` (or the first dose, if later)
+  to ``as_of`` + 72 h, with the exact AUC of the next 0-24 h and 24-48 h from
+  ``as_of`` (pk-sources.md 2.2). The grid covers that window only, so its cost
+  does not grow with the length of the course; the concentrations on it come
+  from the linear-time superposition (:mod:`tdmtui.core.models.superpose`).
 * **Next levels.** ``monitoring.levels`` maps ``mode/continue`` (a regimen
   continued on target), ``mode/method`` or ``mode`` to a list of draws: ``["peak", n]`` at the peak draw time after dose n of
   the new regimen (vancomycin ``monitoring.peak_after_end_h`` after the end of
@@ -118,13 +121,14 @@ def proposed_doses(first: float, dose: float, tau: float, tinf: float, until: fl
 
 def forecast(params: PKParams, history: DoseArrays, plan: DoseArrays, as_of: float,
              hours: float = FORECAST_H, step: float = 0.1) -> tuple[np.ndarray, np.ndarray, dict[str, float]]:
-    """Concentrations over history + plan to ``as_of + hours``, and the next two daily AUCs.
+    """Concentrations of history + plan from ``as_of - hours`` (or the first dose) to ``as_of + hours``,
+    and the next two daily AUCs.
 
     Returns:
         (times h, conc mg/L, {"day1_mg_h_per_l", "day2_mg_h_per_l"}).
     """
     every = history.concat(plan) if len(history) else plan
-    t0 = min(float(every.start[0]), as_of) if len(every) else as_of
+    t0 = max(min(float(every.start[0]), as_of), as_of - hours) if len(every) else as_of
     t1 = as_of + hours
     events = np.concatenate([every.start, every.start + every.duration, [as_of]])
     grid = np.union1d(np.arange(t0, t1 + 1e-9, step), events[(events >= t0) & (events <= t1)])

@@ -96,9 +96,9 @@ def build_plot_data(outcome: Any) -> PlotData | None:
         cont = np.asarray(models.concentration(outcome.params, outcome.history, t), dtype=float)
         plan_c = np.where(t >= now, cont, np.nan)
     band = None
-    if outcome.band is not None:
-        bt, lo, hi = (np.asarray(a, dtype=float) for a in outcome.band)
-        band = (bt, lo, hi)
+    window = outcome.band_over(x0, x1) if hasattr(outcome, "band_over") else None
+    if window is not None:
+        band = tuple(np.asarray(a, dtype=float) for a in window)
     levels = []
     for lv in case.levels:
         kind = "aside" if not lv.use else ("blq" if lv.below_loq else "used")
