@@ -161,7 +161,8 @@ class Posterior:
             return batch_concentration(*self.params(eta), design)
         from tdmtui.core.models.timevarying import batch_tv_concentration
 
-        return batch_tv_concentration(self.course.changes, *self.piece_params(eta),
+        cl, v1, q, v2 = self.piece_params(eta)
+        return batch_tv_concentration(self.course.changes, cl, v1, q, v2,
                                       self.doses if doses is None else doses, self.obs.time if t is None else t)
 
     def __call__(self, eta: np.ndarray) -> np.ndarray:

@@ -31,7 +31,11 @@ from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any
 
 if TYPE_CHECKING:
+    from tdmtui.core.bayes import Course
     from tdmtui.core.case import Case
+    from tdmtui.core.clock import Clock
+    from tdmtui.core.context import MethodContext
+    from tdmtui.core.estimates import Estimate
     from tdmtui.core.popmodels import Covariates, PopModel, Typical
 
 CODES = {
@@ -97,7 +101,7 @@ def schedule_for(model: PopModel, cov: Covariates, steps: list[RenalStep]) -> Re
     return RenalSchedule(tuple(s.time for s in steps[1:]), typicals, tuple(steps))
 
 
-def intervals(schedule: RenalSchedule, clock: Any) -> list[dict[str, Any]]:
+def intervals(schedule: RenalSchedule, clock: Clock) -> list[dict[str, Any]]:
     """JSON-ready: which CrCl (and typical CL) held over which interval, for the result and the note."""
     out = []
     for i, (step, typ) in enumerate(zip(schedule.steps, schedule.typicals)):
@@ -109,7 +113,7 @@ def intervals(schedule: RenalSchedule, clock: Any) -> list[dict[str, Any]]:
     return out
 
 
-def describe(schedule: RenalSchedule, clock: Any) -> str:
+def describe(schedule: RenalSchedule, clock: Clock) -> str:
     """One line: CrCl per interval, and that the forecast uses the latest."""
     parts = []
     for row in intervals(schedule, clock):
@@ -120,7 +124,7 @@ def describe(schedule: RenalSchedule, clock: Any) -> str:
 
 
 def build_course(schedule: RenalSchedule | None, typical: Typical,
-                 sessions: list[tuple[float, float]] = (), session_cl_l_h: float = 0.0) -> Any:  # type: ignore[assignment]
+                 sessions: list[tuple[float, float]] = (), session_cl_l_h: float = 0.0) -> Course | None:  # type: ignore[assignment]
     """The Bayesian fit's :class:`~tdmtui.core.bayes.Course`: renal pieces and, where a session
     removal is given (library or protocol ``dialysis.session_clearance_l_h``), each session as a piece
     with that clearance added. None when nothing changes."""
@@ -155,7 +159,7 @@ _CLASSIC = {
 }
 
 
-def classic_note(ctx: Any, method: str, est: Any) -> None:
+def classic_note(ctx: MethodContext, method: str, est: Estimate) -> None:
     """Say, on a classic method's estimate, which CrCl held over which interval and what the method did
     with it (one ke over the whole history; the forecast uses the estimate as it stands now)."""
     if method not in _CLASSIC:
@@ -209,7 +213,7 @@ def note_lines(result: dict[str, Any]) -> list[str]:
 _ONE_KE = ("two-level", "sawchuk-zaske", "least-squares")
 
 
-def straddle_reason(ctx: Any, method: str, est: Any) -> str | None:
+def straddle_reason(ctx: MethodContext, method: str, est: Estimate) -> str | None:
     """Why a one-ke method's estimate is withheld: its levels lie either side of a change in renal
     function (an SCr that raised ``scr-unstable``), so no single ke describes them; else None."""
     if method not in _ONE_KE:

@@ -24,6 +24,7 @@ from tdmtui.core.alerts import Alert
 if TYPE_CHECKING:
     from tdmtui.core.context import MethodContext
     from tdmtui.core.estimates import Estimate
+    from tdmtui.core.regimen.dialysis import SessionPlan
     from tdmtui.core.regimen.types import Plan, RegimenInput
 
 CODES = {
@@ -35,7 +36,7 @@ CODES = {
 }
 
 
-def session_plan(ctx: MethodContext) -> Any:
+def session_plan(ctx: MethodContext) -> SessionPlan | None:
     """The dialysis design's input, or None when the dose-after-session plan does not apply."""
     from tdmtui.core import dialysis
     from tdmtui.core.regimen.dialysis import SessionPlan
@@ -68,11 +69,12 @@ def adjust(ctx: MethodContext, est: Estimate, base: RegimenInput, plan: Plan) ->
 
 def change_time(ctx: MethodContext) -> float | None:
     """Time h of the latest SCr that triggered ``scr-unstable``, or None."""
-    times = []
+    times: list[float] = []
     by_field = {s.field: s.time for s in ctx.case.patient.scr}
     for a in ctx.renal.alerts:
-        if a.code == "scr-unstable" and by_field.get(a.field) is not None:
-            times.append(by_field[a.field])
+        t = by_field.get(a.field)
+        if a.code == "scr-unstable" and t is not None:
+            times.append(t)
     return max(times) if times else None
 
 

@@ -133,11 +133,11 @@ async def test_open_sample_case_screen_matches_the_engine(state, sample_copy):
         assert rows["ss trough (mg/L)"][0] == f"{est['current']['trough_mg_per_l']:.1f}"
         iv = est.get("interval90", {}).get("ke_per_h")
         if iv:  # the method used: its 90 % interval beside it, same rounding
-            assert rows["ke (1/h)"][0].split()[1] == f"[{iv[0]#.3g}-{iv[1]#.3g}]"
+            assert rows["ke (1/h)"][0].split()[1] == f"[{iv[0]:#.3g}-{iv[1]:#.3g}]"
         others = await every_method_column(pilot, table)
         assert len(others) == len(expected["methods"])
         for (title, ke), (name, other) in zip(others, expected["methods"].items()):
-            assert ke == f"{other['ke_per_h']#.3g}", name
+            assert ke == f"{other['ke_per_h']:#.3g}", name
             family, _, model = name.partition(":")
             assert title.replace("- ", "-").split(" (")[0] == family, (title, name)  # the note's naming, in full
         header = str(app.screen.query_one("#header", Static).content)

@@ -28,7 +28,7 @@ else:  # pragma: no cover - Python 3.10
 from tdmtui.core.errors import InputError
 
 #: Version of the library data as a whole; bump when any value changes.
-LIBRARY_VERSION = "2026.12.3"
+LIBRARY_VERSION = "2026.12.4"
 
 DRUGS = ("vancomycin", "gentamicin", "tobramycin", "amikacin")
 

@@ -87,7 +87,8 @@ def _choose(inp: RegimenInput, doses: DoseArrays, at: float, pre_t: float, band:
 def design(inp: RegimenInput, sp: SessionPlan, targets_dict: dict[str, Any], sources: dict[str, Any]) -> Plan:
     """Doses after each upcoming session (module docstring)."""
     rules, clock = inp.rules, inp.clock
-    band = tuple(float(x) for x in rules.value("dialysis.pre_dialysis_target_mg_l"))
+    lo_hi = [float(x) for x in rules.value("dialysis.pre_dialysis_target_mg_l")]
+    band = (lo_hi[0], lo_hi[1])
     key = "dialysis.pre_dialysis_target_mg_l"
     targets = {"mode": MODE, "mic_mg_per_l": targets_dict.get("mic_mg_per_l"), "pre_dialysis_mg_per_l": list(band),
                "sources": {"pre": _src(rules, key)}, "citations": {"pre": rules.citation(key)}}

@@ -22,11 +22,13 @@ from typing import TYPE_CHECKING, Any
 
 if TYPE_CHECKING:
     from tdmtui.core.regimen.candidates import Candidate
+    from tdmtui.core.library import Rules
+    from tdmtui.core.models import PKParams
     from tdmtui.core.regimen.targets import Targets
     from tdmtui.core.regimen.types import RegimenInput
 
 
-def interval_band(rules: Any, params: Any, mode: str) -> tuple[float, float] | None:
+def interval_band(rules: Rules, params: PKParams, mode: str) -> tuple[float, float] | None:
     """(shortest, longest) interval, h, the estimate's half-life allows (candidates.py rule 2), or None."""
     if mode in ("extended", "continuous"):
         return None
@@ -45,7 +47,7 @@ def kept_infusion(inp: RegimenInput, mode: str) -> float | None:
     return cur.infusion_h if 0 < cur.infusion_h < cur.interval_h else None
 
 
-def hold_limit(rules: Any, targets: Targets, c: Candidate) -> float | None:
+def hold_limit(rules: Rules, targets: Targets, c: Candidate) -> float | None:
     """The level above which the next dose is held and to which a hold lets it fall, mg/L (module docstring)."""
     if c.infusion_h >= c.interval_h:  # a continuous rate starts when the level is at its own Css
         return c.trough
