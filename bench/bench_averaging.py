@@ -6,7 +6,7 @@ For each vancomycin population model in turn (the "truth"), N invented patients
 are drawn (covariates at random; true parameters from the model's own IIV;
 levels with its own residual error, censored below 2 mg/L). Each patient is
 then fitted with every OTHER model (a mismatched prior, as in practice) and
-with the model average over those others (tdmtui.core.averaging: weights from
+with the model average over those others (tdmtui.core.estimation.averaging: weights from
 each model's evidence, intervals from the weighted mixture). Levels: a trough
 30 min before dose 4, and a peak 1 h after the end of dose 3 with that trough.
 The regimen given: 1000 mg q12h over 1 h (15 mg/kg-ish, design choice).
@@ -60,12 +60,13 @@ sys.path.insert(0, str(Path(__file__).resolve().parent))
 
 from bench_bayes import patient  # noqa: E402  (the same invented covariate ranges)
 
-from tdmtui.core import averaging, bayes  # noqa: E402
+from tdmtui.core.estimation import averaging
+from tdmtui.core.estimation import bayes# noqa: E402
 from tdmtui.core.errors import TdmError  # noqa: E402
 from tdmtui.core.library import Rules  # noqa: E402
 from tdmtui.core.models import DoseArrays, PKParams  # noqa: E402
 from tdmtui.core.regimen.candidates import terminal_rate  # noqa: E402
-from tdmtui.core.popmodels import _build, get_model  # noqa: E402
+from tdmtui.core.estimation.popmodels import _build, get_model  # noqa: E402
 
 MODELS = ("vancomycin-thomson-2009", "vancomycin-goti-2018", "vancomycin-buelga-2005")
 DOSE, TAU, TINF, LOQ = 1000.0, 12.0, 1.0, 2.0
@@ -171,9 +172,9 @@ def _textbook_ke(cov) -> float:
 
 
 def _two_level(doses, obs):
-    from tdmtui.core.case import Level
+    from tdmtui.core.input.case import Level
     from tdmtui.core.errors import NoEstimateError
-    from tdmtui.core.twolevel import two_level
+    from tdmtui.core.estimation.twolevel import two_level
 
     try:
         return two_level(doses, [Level(i, float(t), float(c)) for i, (t, c) in enumerate(zip(obs.time, obs.conc))]).params

@@ -30,10 +30,10 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from tdmtui.core import bayes  # noqa: E402
+from tdmtui.core.estimation import bayes# noqa: E402
 from tdmtui.core.errors import TdmError  # noqa: E402
 from tdmtui.core.models import DoseArrays  # noqa: E402
-from tdmtui.core.popmodels import Covariates, PopModel, get_model  # noqa: E402
+from tdmtui.core.estimation.popmodels import Covariates, PopModel, get_model  # noqa: E402
 
 REGIMEN = {"vancomycin": (1000.0, 12.0, 1.0, 2.0), "gentamicin": (400.0, 24.0, 0.5, 0.3),
            "tobramycin": (400.0, 24.0, 0.5, 0.3)}  # dose mg, tau h, infusion h, assay LOQ mg/L

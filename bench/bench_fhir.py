@@ -66,7 +66,7 @@ def main() -> None:
         print(f"{name:34} {ours * 1e3:8.1f} {models * 1e3:10.1f} {models / ours:12.1f}")
     reps = max(3, args.reps // 4)
     base = load_cost("import tdmtui", reps)
-    ours = load_cost("import tdmtui.core.fhir, tdmtui.core.case", reps)
+    ours = load_cost("import tdmtui.core.fhir, tdmtui.core.input.case", reps)
     lib = load_cost("from fhir.resources.R4B import get_fhir_model_class as g; g('Bundle')", reps)
     print(f"fresh interpreter, ms: tdmtui alone {base * 1e3:.0f}; + our importer {ours * 1e3:.0f}; "
           f"fhir.resources R4B Bundle model {lib * 1e3:.0f}")

@@ -12,7 +12,7 @@ Course: 1000 mg every 12 h over 1 h from 08:00 on day 0, 8 doses; two troughs, 3
 before the 3rd dose (day 1) and before the 8th (day 3, after the change). Fitted with
 the same model, MAP:
 
-* time-varying: clearance follows each dated SCr (tdmtui/core/renalcourse.py);
+* time-varying: clearance follows each dated SCr (tdmtui/core/estimation/renalcourse.py);
 * fixed: the latest SCr as if it had held throughout (the engine before).
 
 Error: AUC24 of the latest regimen (1000 mg q12h at steady state) from the estimate's
@@ -33,7 +33,9 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from tdmtui.core import bayes, popmodels, renalcourse  # noqa: E402
+from tdmtui.core.estimation import bayes
+from tdmtui.core.estimation import popmodels
+from tdmtui.core.estimation import renalcourse# noqa: E402
 from tdmtui.core.errors import ConvergenceError, NoEstimateError  # noqa: E402
 from tdmtui.core.models import DoseArrays  # noqa: E402
 from tdmtui.core.models.timevarying import batch_tv_concentration  # noqa: E402

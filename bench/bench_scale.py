@@ -41,7 +41,7 @@ _ONE = """
 import json, resource, sys, time
 sys.path.insert(0, {bench!r})
 from scale_cases import long_course
-from tdmtui.core.case import parse_case
+from tdmtui.core.input.case import parse_case
 from tdmtui.core.compute import compute
 compute(parse_case(long_course(20)))
 case = parse_case(long_course({n}))

@@ -49,8 +49,8 @@ def median_ms(fn: Callable[[], object], reps: int, warm: int = 1) -> float:
 
 
 def bench_two_level(reps: int) -> tuple[float, str]:
-    from tdmtui.core import twolevel
-    from tdmtui.core.case import Level
+    from tdmtui.core.estimation import twolevel
+    from tdmtui.core.input.case import Level
     from tdmtui.core.models import DoseArrays
 
     doses = DoseArrays.regimen(0.0, 1000.0, 12.0, 1.0, 20)
@@ -61,9 +61,9 @@ def bench_two_level(reps: int) -> tuple[float, str]:
 def _map_problem():  # noqa: ANN202
     import numpy as np
 
-    from tdmtui.core import bayes
+    from tdmtui.core.estimation import bayes
     from tdmtui.core.models import DoseArrays
-    from tdmtui.core.popmodels import Covariates, get_model
+    from tdmtui.core.estimation.popmodels import Covariates, get_model
 
     model = get_model("vancomycin-goti-2018")
     cov = Covariates(age=64.0, sex="female", weight=78.0, height=168.0, scr=1.1)
@@ -101,7 +101,7 @@ def bench_regimen_search(reps: int) -> tuple[float, str]:
 
 
 def bench_thousand_cases() -> tuple[float, str]:
-    from tdmtui.core.case import load_case
+    from tdmtui.core.input.case import load_case
     from tdmtui.core.compute import compute
     from tdmtui.core.errors import TdmError
 

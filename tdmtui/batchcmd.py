@@ -13,7 +13,7 @@ otherwise); the summary on stdout (counts by status and by method, the share
 of cases whose current regimen is on target); with ``--out``, a file of one
 row per case (``.csv``, or ``.jsonl`` whose lines also carry the whole result
 object, equal to ``compute --json``), written atomically with mode 0600.
-Case text (file names, errors) passes :func:`tdmtui.core.textsafe.neutralise`
+Case text (file names, errors) passes :func:`tdmtui.core.input.textsafe.neutralise`
 before the terminal or the CSV; a CSV cell that a spreadsheet would read as a
 formula (``=``, ``+``, ``-``, ``@`` first) starts with ``'``.
 Exit 0 when the batch ran (whatever the cases' statuses); 2 for a usage error.

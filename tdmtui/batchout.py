@@ -1,6 +1,6 @@
 """What ``tdmtui batch`` writes: the rows file (CSV or JSON lines) and the summary table.
 
-Every text cell passes :func:`tdmtui.core.textsafe.neutralise` (a file name or
+Every text cell passes :func:`tdmtui.core.input.textsafe.neutralise` (a file name or
 an error may carry control characters from a hostile case); a CSV text cell
 that a spreadsheet would take for a formula gets a leading ``'`` (common
 practice against formula injection). Numbers are written as Python writes
@@ -22,7 +22,7 @@ STATUS_ORDER = ("ok", "stop", "no-estimate", "input-error", "internal-error")
 
 
 def _cell(value: Any) -> Any:
-    from tdmtui.core.textsafe import neutralise
+    from tdmtui.core.input.textsafe import neutralise
 
     if value is None:
         return ""
@@ -46,7 +46,7 @@ def csv_text(rows: list[Row]) -> str:
 
 def jsonl_text(rows: list[Row]) -> str:
     """One JSON object per line: COLUMNS, then ``result`` (the compute --json object, or null)."""
-    from tdmtui.core.textsafe import json_safe, neutralise
+    from tdmtui.core.input.textsafe import json_safe, neutralise
 
     out = []
     for r in rows:
@@ -59,7 +59,7 @@ def jsonl_text(rows: list[Row]) -> str:
 
 def write_rows(path: str, rows: list[Row]) -> None:
     """The rows file, atomically with mode 0600 (an unwritable place: an error naming --out)."""
-    from tdmtui.core.case import write_atomic
+    from tdmtui.core.input.case import write_atomic
     from tdmtui.core.errors import InputError
 
     text = csv_text(rows) if path.lower().endswith(".csv") else jsonl_text(rows)
@@ -71,7 +71,7 @@ def write_rows(path: str, rows: list[Row]) -> None:
 
 def summary(rows: list[Row], took_s: float, jobs: int, out: str | None) -> str:
     """Counts by status and by method, the on-target share, the first errors (free text neutralised)."""
-    from tdmtui.core.textsafe import neutralise
+    from tdmtui.core.input.textsafe import neutralise
 
     n = len(rows)
     status = Counter(str(r.values.get("status")) for r in rows)
@@ -94,7 +94,7 @@ def summary(rows: list[Row], took_s: float, jobs: int, out: str | None) -> str:
         lines += ["", f"one row per case written to {neutralise(out)}"]
     import textwrap
 
-    from tdmtui.core.safety import NOTE_LINE
+    from tdmtui.core.text.safety import NOTE_LINE
 
     lines += ["", "Each row is a computation for a clinician to review, not an order.", textwrap.fill(NOTE_LINE, 79)]
     return "\n".join(lines) + "\n"

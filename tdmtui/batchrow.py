@@ -41,7 +41,7 @@ class Row:
 
 def result_text(result: dict[str, Any]) -> str:
     """The result object as ``tdmtui compute --json`` prints it (2-space indent, one final line break)."""
-    from tdmtui.core.textsafe import json_safe
+    from tdmtui.core.input.textsafe import json_safe
 
     return json_safe(json.dumps(result, indent=2, ensure_ascii=False, allow_nan=False)) + "\n"
 
@@ -60,7 +60,7 @@ def _protocol(path: str | None) -> Any:
 
 def _load(item: Item) -> Any:
     from tdmtui.core.bounds import MAX_FILE_BYTES, decode_json
-    from tdmtui.core.case import load_case, parse_case
+    from tdmtui.core.input.case import load_case, parse_case
     from tdmtui.core.errors import InputError
 
     if item.path is not None:

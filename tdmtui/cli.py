@@ -45,7 +45,7 @@ def _protocol(path: str | None) -> Any:
 
 
 def _compute(args: argparse.Namespace) -> Any:
-    from tdmtui.core.case import load_case
+    from tdmtui.core.input.case import load_case
     from tdmtui.core.compute import compute
 
     case = load_case(args.case)
@@ -54,7 +54,7 @@ def _compute(args: argparse.Namespace) -> Any:
 
 def _write_file(path: str | Path, text: str, option: str) -> None:
     """Write an output file (atomic, 0600); an unwritable place is an error naming the option."""
-    from tdmtui.core.case import write_atomic
+    from tdmtui.core.input.case import write_atomic
     from tdmtui.core.errors import InputError
 
     try:
@@ -75,14 +75,14 @@ def cmd_compute(args: argparse.Namespace) -> int:
     if args.json:
         sys.stdout.write(text)
     else:
-        from tdmtui.core.report import summary_text
+        from tdmtui.core.text.report import summary_text
 
         sys.stdout.write(summary_text(outcome.result))
     return 0
 
 
 def cmd_note(args: argparse.Namespace) -> int:
-    from tdmtui.core.note import render_note
+    from tdmtui.core.text.note import render_note
 
     outcome = _compute(args)
     text = render_note(outcome, full=args.full)
@@ -96,7 +96,7 @@ def cmd_note(args: argparse.Namespace) -> int:
 
 def _say(message: str) -> None:
     """One line on stderr, free text in it neutralised (a case's key names and values reach here)."""
-    from tdmtui.core.textsafe import neutralise
+    from tdmtui.core.input.textsafe import neutralise
 
     print(neutralise(message), file=sys.stderr)
 

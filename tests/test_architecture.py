@@ -34,7 +34,7 @@ def test_core_module_imports_no_ui(module):
 
 
 def test_case_loading_path_needs_no_scipy_or_pint():
-    loaded = _loaded_after("import tdmtui.core.case, tdmtui.core.patient, tdmtui.core.units")
+    loaded = _loaded_after("import tdmtui.core.input.case, tdmtui.core.patient.body, tdmtui.core.input.units")
     assert "scipy" not in loaded
     assert "pint" not in loaded
 
@@ -51,7 +51,7 @@ def test_compute_of_every_sample_case_needs_no_scipy():
     samples = Path(__file__).resolve().parents[1] / "sample_cases"
     code = (
         "import pathlib\n"
-        "from tdmtui.core.case import load_case\n"
+        "from tdmtui.core.input.case import load_case\n"
         "from tdmtui.core.compute import compute\n"
         "from tdmtui.core.errors import TdmError\n"
         f"for p in sorted(pathlib.Path({str(samples)!r}).glob('*.json')):\n"

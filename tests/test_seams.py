@@ -24,7 +24,7 @@ ALLOWED = {
     "library/__init__.py get(default)": "the caller's default for a key absent from the library",
     "library/__init__.py get -> Any": "a TOML library value (as value)",
     "library/__init__.py with_value(value)": "a TOML library value (as value), derived from others",
-    "dialysis.py parse_dialysis(raw)": "the case's decoded JSON `dialysis` object, checked field by field",
+    "input/dialysis.py parse_dialysis(raw)": "the case's decoded JSON `dialysis` object, checked field by field",
     "regimen/candidates.py with_draws(samples)": "posterior draws: batched arrays or a list of PKParams",
     "regimen/candidates.py target_probability(samples)": "posterior draws: batched arrays or a list of PKParams",
     "regimen/candidates.py table_probabilities(samples)": "posterior draws: batched arrays or a list of PKParams",

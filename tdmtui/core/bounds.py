@@ -33,7 +33,6 @@ import stat
 from pathlib import Path
 from typing import Any
 
-from tdmtui.core.clock import YEARS
 from tdmtui.core.errors import InputError
 
 MAX_FILE_BYTES = 2 * 1024 * 1024
@@ -43,6 +42,9 @@ MAX_KEY = 200
 MAX_NUMBER = 40
 MAX_ROWS = {"doses": 10000, "levels": 200, "patient.scr": 500, "patient.comedications": 50, "patient.conditions": 50}
 MAX_SPAN_DAYS = 3000.0
+#: Years a case time may carry (clock.py refuses others).
+YEARS = (1900, 2199)
+
 __all__ = ["YEARS", "MAX_FILE_BYTES", "MAX_DEPTH", "MAX_TEXT", "MAX_ROWS", "MAX_SPAN_DAYS"]
 
 

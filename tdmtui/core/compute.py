@@ -31,18 +31,24 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from tdmtui import __version__
-from tdmtui.core import checks, course, exposure, limits, methods, reconcile, registry, renalplan
+from tdmtui.core import reconcile, registry
+from tdmtui.core.patient import checks
+from tdmtui.core.course import history as course
+from tdmtui.core.regimen import exposure
+from tdmtui.core.regimen import limits
+from tdmtui.core.estimation import methods
+from tdmtui.core.regimen import renalplan
 from tdmtui.core.alerts import Alert, has_stop
-from tdmtui.core.case import Case, parse_case
-from tdmtui.core.context import MethodContext, history_of
-from tdmtui.core.course import CurrentRegimen
+from tdmtui.core.input.case import Case, parse_case
+from tdmtui.core.estimation.context import MethodContext, history_of
+from tdmtui.core.course.history import CurrentRegimen
 from tdmtui.core.errors import NoEstimateError
-from tdmtui.core.estimates import Estimate
+from tdmtui.core.estimation.estimates import Estimate
 from tdmtui.core.library import LIBRARY_VERSION, Protocol, Rules, library_digest
 from tdmtui.core.models import DoseArrays, PKParams
-from tdmtui.core.patient import RenalSummary, renal_summary
-from tdmtui.core.sensitivity import timing_sensitivity
-from tdmtui.core.working import WorkingStep
+from tdmtui.core.patient.body import RenalSummary, renal_summary
+from tdmtui.core.estimation.sensitivity import timing_sensitivity
+from tdmtui.core.estimation.working import WorkingStep
 
 if TYPE_CHECKING:
     from tdmtui.core.regimen.targets import Targets
@@ -261,7 +267,7 @@ def compute(case: Case, protocol: Protocol | None = None, method: str | None = N
 
 
 def _dialysis_summary(case: Case, rules: Rules, result: dict[str, Any]) -> None:
-    from tdmtui.core.dialysis import summary
+    from tdmtui.core.input.dialysis import summary
 
     found = summary(case, rules)
     if found is not None:

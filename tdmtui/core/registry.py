@@ -1,7 +1,7 @@
 """The estimation methods, one record each, and the regimen options.
 
 Every list of methods reads this table: the case's ``method`` choices
-(:data:`tdmtui.core.case.METHODS`), the CLI's ``--method``, the app's method
+(:data:`tdmtui.core.input.case.METHODS`), the CLI's ``--method``, the app's method
 choice, the note's method text, and the pipeline (which methods run, which one
 ``auto`` takes, how each refits for the timing sensitivity, which alerts belong
 to the method used).
@@ -30,8 +30,8 @@ from typing import TYPE_CHECKING, Any, Callable
 
 if TYPE_CHECKING:
     from tdmtui.core.alerts import Alert
-    from tdmtui.core.context import MethodContext
-    from tdmtui.core.estimates import Estimate
+    from tdmtui.core.estimation.context import MethodContext
+    from tdmtui.core.estimation.estimates import Estimate
 
 #: Why a method that needs no renal function is refused with renal replacement therapy.
 RRT_REFUSAL = "not valid with renal replacement therapy (Cockcroft-Gault and two-level methods do not apply)"
@@ -159,7 +159,7 @@ def _count(n: int) -> str:
     return {1: "one", 2: "two", 3: "three"}.get(n, str(n))
 
 
-_EST = "tdmtui.core.estimators"
+_EST = "tdmtui.core.estimation.estimators"
 
 #: The estimation methods, in the order they run and are listed (results keep this order).
 METHODS: tuple[Method, ...] = (
@@ -188,7 +188,7 @@ METHODS: tuple[Method, ...] = (
     Method("bayesian", "the levels combined with the published population models that fit the patient",
            source="MAP on each model, log-normal between-patient variability; model averaging after Uster DW et "
                   "al. 2021 (from memory)",
-           estimate="tdmtui.core.bayes_method:run", refit=f"{_EST}:refit_bayesian",
+           estimate="tdmtui.core.estimation.bayes_method:run", refit=f"{_EST}:refit_bayesian",
            alerts=f"{_EST}:bayesian_alerts", auto_rank=2, with_renal_replacement=True),
 )
 

@@ -298,7 +298,7 @@ class TdmApp(ComputeMixin, FilingMixin, App[int]):
     @on(PlanSection.RegimenChosen)
     def regimen_chosen(self, event: PlanSection.RegimenChosen) -> None:
         """Save the choice in the case (``chosen_regimen``): the note gives it as the regimen."""
-        from tdmtui.core.chosen import KEY, chosen_raw
+        from tdmtui.core.input.chosen import KEY, chosen_raw
 
         self.chosen = event.regimen
         self.doc.snapshot("choose a regimen")

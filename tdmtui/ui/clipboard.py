@@ -10,8 +10,8 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from tdmtui.core.case import write_atomic
-from tdmtui.core.textsafe import neutralise_block
+from tdmtui.core.input.case import write_atomic
+from tdmtui.core.input.textsafe import neutralise_block
 
 COPY_CAVEAT = ("Sent to your clipboard by OSC 52. Some terminals and tmux (unless set-clipboard is on) "
                "block it: if nothing pastes, press w to write the note to a file.")

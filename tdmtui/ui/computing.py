@@ -54,7 +54,7 @@ class ComputeMixin:
         The engine holds the interpreter for seconds on a busy machine, so it is
         not started while the case is still half typed.
         """
-        from tdmtui.core.case import parse_case
+        from tdmtui.core.input.case import parse_case
         from tdmtui.core.errors import InputError
 
         self.compute_pending = False
@@ -129,7 +129,7 @@ class ComputeMixin:
         if result.get("status") == "stop":
             self.set_status(f"Computed as of {result.get('as_of')}: STOP stands, no regimen (F8 says why).", error=True)
         else:
-            from tdmtui.core.noteplan import method_label
+            from tdmtui.core.text.noteplan import method_label
 
             label = method_label(result.get("method") or "", result.get("estimate") or {})
             self.set_status(f"Computed as of {result.get('as_of')}: method {label}, status ok.")

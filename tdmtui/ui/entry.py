@@ -11,10 +11,10 @@ import re
 from dataclasses import dataclass
 from typing import Any
 
-from tdmtui.core.clock import Clock, clock_for
+from tdmtui.core.input.clock import Clock, clock_for
 from tdmtui.core.errors import InputError
-from tdmtui.core.timeentry import resolve_time
-from tdmtui.core.units import parse_quantity
+from tdmtui.core.input.timeentry import resolve_time
+from tdmtui.core.input.units import parse_quantity
 from tdmtui.ui.fields import check_quantity, complete_quantity
 
 _DURATION = re.compile(r"\s*[0-9]*\.?[0-9]+\s*(min|h|hr|day)?\s*")

@@ -30,7 +30,7 @@ def title_lines(label: str) -> tuple[str, str]:
 
 def columns(result: dict[str, Any]) -> list[tuple[str, dict[str, Any]]]:
     """(method label, estimate): the method used first (marked ``*`` in the table), then the others."""
-    from tdmtui.core.noteplan import method_label  # not on the first screen's import path (numpy)
+    from tdmtui.core.text.noteplan import method_label  # not on the first screen's import path (numpy)
 
     cols: list[tuple[str, dict[str, Any]]] = []
     if result.get("estimate"):

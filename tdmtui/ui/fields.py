@@ -7,7 +7,7 @@ from __future__ import annotations
 import re
 
 from tdmtui.core.errors import InputError
-from tdmtui.core.units import parse_quantity
+from tdmtui.core.input.units import parse_quantity
 
 _NUM_UNIT = re.compile(r"\s*([0-9]*\.?[0-9]+)\s*([^\s0-9].*?)?\s*")
 _NEGATIVE = re.compile(r"\s*-\s*[0-9]*\.?[0-9]+.*")

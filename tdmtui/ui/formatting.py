@@ -1,6 +1,6 @@
 """Display helpers of the app: numbers through the core's one formatter, severities and times.
 
-Every number is rounded by :mod:`tdmtui.core.numfmt` (its docstring holds the
+Every number is rounded by :mod:`tdmtui.core.text.numfmt` (its docstring holds the
 rounding table), so a value reads the same in the app, the chart note and
 ``tdmtui compute``. Keys are the result object's (``ke_per_h``) or the
 table's quantity names (``weight``, ``bmi``, ``egfr``).
@@ -10,7 +10,7 @@ from __future__ import annotations
 
 from typing import Any
 
-from tdmtui.core import numfmt
+from tdmtui.core.text import numfmt
 
 SEVERITY_WORD = {"info": "INFO", "caution": "CAUTION", "stop": "STOP"}
 SEVERITY_ORDER = {"stop": 0, "caution": 1, "info": 2}

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from typing import Any
 
-from tdmtui.core.textsafe import neutralise_block
+from tdmtui.core.input.textsafe import neutralise_block
 
 
 def note_text(outcome: Any, chosen: dict[str, Any] | None = None, full: bool = False,
@@ -19,7 +19,7 @@ def note_text(outcome: Any, chosen: dict[str, Any] | None = None, full: bool = F
         saved_digest: sha256 of the case file when the app's case is saved unchanged in it,
             so the note's record names the file as ``tdmtui note`` on that file does.
     """
-    from tdmtui.core.note import render_note
+    from tdmtui.core.text.note import render_note
 
     if saved_digest and saved_digest == outcome.result.get("input_sha256"):
         outcome = outcome.with_result(input_saved=True)

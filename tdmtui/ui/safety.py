@@ -1,11 +1,11 @@
-"""The safety text the app shows (from tdmtui.core.safety), and the once-only first-run notice."""
+"""The safety text the app shows (from tdmtui.core.text.safety), and the once-only first-run notice."""
 
 from __future__ import annotations
 
 import os
 from pathlib import Path
 
-from tdmtui.core.safety import SCREEN_LINE, SHORT
+from tdmtui.core.text.safety import SCREEN_LINE, SHORT
 
 #: Marker file in the state folder: the first-run notice has been shown.
 NOTICE_MARKER = "safety-notice-shown"

@@ -1,7 +1,7 @@
 """The app's last line against terminal injection: no control character reaches the screen.
 
 The note, summary and clipboard text are neutralised by
-:mod:`tdmtui.core.textsafe` (``\\x1b``, ``<U+202E>``). Other free text on
+:mod:`tdmtui.core.input.textsafe` (``\\x1b``, ``<U+202E>``). Other free text on
 screen (the fields being edited, table cells, messages) is drawn by Textual
 and Rich, which drop a few controls (BEL, BS, VT, FF, CR) but pass ESC, C1
 and bidirectional controls to the terminal. :func:`install` widens their
@@ -17,7 +17,7 @@ from __future__ import annotations
 
 from rich.text import Text
 
-from tdmtui.core.textsafe import BIDI, neutralise
+from tdmtui.core.input.textsafe import BIDI, neutralise
 
 #: codepoint -> visible stand-in of one cell (line break and tab are left to the widgets)
 STAND_INS: dict[int, str] = {

@@ -4,8 +4,8 @@ from __future__ import annotations
 
 from typing import Any
 
-from tdmtui.core.case import Target
-from tdmtui.core.clock import Clock
+from tdmtui.core.input.case import Target
+from tdmtui.core.input.clock import Clock
 from tdmtui.core.library import Protocol, Rules
 from tdmtui.core.models import DoseArrays, PKParams
 from tdmtui.core.regimen import CurrentRegimen, RegimenInput

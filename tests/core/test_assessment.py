@@ -7,9 +7,9 @@ import dataclasses
 import pytest
 
 from casedata import SAMPLES
-from tdmtui.core.case import load_case
+from tdmtui.core.input.case import load_case
 from tdmtui.core.compute import Outcome, compute
-from tdmtui.core.course import CurrentRegimen
+from tdmtui.core.course.history import CurrentRegimen
 from tdmtui.core.regimen import types
 
 

@@ -77,7 +77,7 @@ def test_record_of_a_bayesian_estimate_has_model_seed_and_etas(tmp_path, capsys)
 
 def test_record_of_the_model_average_gives_back_its_estimate(tmp_path, capsys):
     # The record holds each model's weight and estimate; the averaged CL is their weighted
-    # geometric mean (the averaging rule documented in tdmtui/core/averaging.py), and the
+    # geometric mean (the averaging rule documented in tdmtui/core/estimation/averaging.py), and the
     # weights of the models that take part sum to one.
     rec, _ = record_of("vanc-trough-only", tmp_path)
     capsys.readouterr()

@@ -16,7 +16,7 @@ import pytest
 from ode_reference import ode_reference
 from scipy import stats
 
-from tdmtui.core.bayes import (
+from tdmtui.core.estimation.bayes import (
     Design,
     NO_LEVELS,
     Observations,
@@ -32,9 +32,9 @@ from tdmtui.core.bayes import (
     sample_posterior,
 )
 from tdmtui.core.errors import ConvergenceError
-from tdmtui.core.lsq import least_squares_fit
+from tdmtui.core.estimation.lsq import least_squares_fit
 from tdmtui.core.models import DoseArrays
-from tdmtui.core.popmodels import Covariates, PopModel, _build, get_model
+from tdmtui.core.estimation.popmodels import Covariates, PopModel, _build, get_model
 
 # C-G 90 mL/min with 65 kg (pk-sources.md 3.4.1 typical-patient check): 50 y, SCr 65/72 mg/dL.
 BUELGA_PATIENT = Covariates(age=50.0, sex="male", weight=65.0, height=170.0, scr=65.0 / 72.0)
@@ -385,7 +385,7 @@ def test_trough_only_auc24_bias_and_error(mid):
 def test_two_compartment_half_life_intervals():
     # pk-sources.md 2.6 macro-constants, written out here for the a priori Thomson 2009 draws: the
     # interval of ln 2 / beta must match the quantiles of the half-lives computed from the same draws.
-    from tdmtui.core.bayes import two_compartment_intervals
+    from tdmtui.core.estimation.bayes import two_compartment_intervals
 
     draws = sample_posterior(population_fit(get_model("vancomycin-thomson-2009"), ADULT), 4000, seed=5)
     k10, k12, k21 = draws.cl / draws.v1, draws.q / draws.v1, draws.q / draws.v2
@@ -401,7 +401,7 @@ def test_two_compartment_half_life_intervals():
 def test_second_start_reaches_the_grid_minimum(monkeypatch):
     # Force the first start to fail: L-BFGS-B (scipy) from the best +-2 SD grid point must land on the
     # brute-force grid minimum too.
-    import tdmtui.core.bayes as bayes
+    import tdmtui.core.estimation.bayes as bayes
 
     monkeypatch.setattr(bayes, "_newton", lambda *a, **k: None)
     obs = CASES["two-levels"]

@@ -17,7 +17,7 @@ import pytest
 
 from casedata import ROOT, base_case
 from tdmtui.core import bounds
-from tdmtui.core.case import load_case, parse_case
+from tdmtui.core.input.case import load_case, parse_case
 from tdmtui.core.errors import InputError
 
 

@@ -8,7 +8,7 @@ import stat
 
 import pytest
 
-from tdmtui.core.case import canonical_bytes, load_case, parse_case, save_case
+from tdmtui.core.input.case import canonical_bytes, load_case, parse_case, save_case
 from tdmtui.core.errors import InputError
 
 

@@ -7,7 +7,7 @@ from zoneinfo import ZoneInfo
 
 import pytest
 
-from tdmtui.core.clock import clock_for
+from tdmtui.core.input.clock import clock_for
 from tdmtui.core.errors import InputError
 
 

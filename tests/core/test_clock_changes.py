@@ -11,10 +11,10 @@ from __future__ import annotations
 import pytest
 
 from casedata import base_case
-from tdmtui.core.case import parse_case
+from tdmtui.core.input.case import parse_case
 from tdmtui.core.compute import compute
 from tdmtui.core.errors import InputError
-from tdmtui.core.note import render_note
+from tdmtui.core.text.note import render_note
 
 
 def london_case(level_time: str) -> dict:

@@ -17,7 +17,7 @@ import pytest
 from casedata import SAMPLES
 
 from tdmtui.core.compute import compute_raw
-from tdmtui.core.exposure import exposure_alerts, unresolved
+from tdmtui.core.regimen.exposure import exposure_alerts, unresolved
 from tdmtui.core.library import Rules, protocol_from_tree
 
 CODES = ("auc-high", "auc-toxic", "trough-high", "peak-high")
@@ -88,8 +88,8 @@ def test_vancomycin_auc_703_is_high_not_toxic_and_settled_by_the_proposal():
 
 def _ctx_of(out):
     from tdmtui.core.compute import regimen_input, regimen_targets
-    from tdmtui.core.context import MethodContext
-    from tdmtui.core.course import current_regimen, usable_levels
+    from tdmtui.core.estimation.context import MethodContext
+    from tdmtui.core.course.history import current_regimen, usable_levels
 
     case, rules = out.case, out.rules
     cur, _ = current_regimen(case, rules)

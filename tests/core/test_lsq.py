@@ -6,9 +6,9 @@ import numpy as np
 import pytest
 from scipy.integrate import solve_ivp
 
-from tdmtui.core.bayes import Observations
+from tdmtui.core.estimation.bayes import Observations
 from tdmtui.core.errors import ConvergenceError, NoEstimateError
-from tdmtui.core.lsq import least_squares_fit
+from tdmtui.core.estimation.lsq import least_squares_fit
 from tdmtui.core.models import DoseArrays
 
 

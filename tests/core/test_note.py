@@ -4,7 +4,7 @@ Sources of the expected values:
 - golden files: tests/golden/*.txt, written by tests/golden/regenerate.py and
   read by a person before commit (a change in them must be intended);
 - printed figures: the result dict, with the note's documented rounding rule
-  (tdmtui/core/notefmt.py) restated here as a number of decimals per figure;
+  (tdmtui/core/text/notefmt.py) restated here as a number of decimals per figure;
 - level timing: clock arithmetic on the case times, worked by hand below;
 - steady-state share: the accumulation factor 1 - e^(-n ke tau) of a constant
   regimen (pk-sources.md 2.3, standard one-compartment equations);
@@ -29,12 +29,12 @@ import pytest
 
 from casedata import ROOT, SAMPLES, base_case
 from tdmtui.cli import main
-from tdmtui.core import notefmt
-from tdmtui.core.case import load_case
+from tdmtui.core.text import notefmt
+from tdmtui.core.input.case import load_case
 from tdmtui.core.compute import compute, compute_raw
 from tdmtui.core.models import PKParams
-from tdmtui.core.note import render_note
-from tdmtui.core.safety import NOTE_LINE
+from tdmtui.core.text.note import render_note
+from tdmtui.core.text.safety import NOTE_LINE
 
 GOLDEN = ROOT / "tests" / "golden"
 GOLDEN_CASES = ("vanc-steady-state", "gent-peak-trough", "vanc-loading-early")

@@ -1,4 +1,4 @@
-"""The rounding table (tdmtui/core/numfmt.py) printed as its docstring says.
+"""The rounding table (tdmtui/core/text/numfmt.py) printed as its docstring says.
 
 Expected strings are worked by hand from the rule (common practice for
 clinical display: ke to 3 significant figures, half-life 1 decimal, and so on).
@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import pytest
 
-from tdmtui.core import numfmt
+from tdmtui.core.text import numfmt
 
 
 @pytest.mark.parametrize("value, quantity, text", [

@@ -14,7 +14,7 @@ import re
 import pytest
 
 from tdmtui.core.compute import compute_raw
-from tdmtui.core.note import render_note
+from tdmtui.core.text.note import render_note
 
 
 def _t(h: float) -> str:

@@ -16,12 +16,12 @@ from pathlib import Path
 import pytest
 from ode_reference import ode_reference
 
-from tdmtui.core import onelevel
-from tdmtui.core.case import Dose, Level
+from tdmtui.core.estimation import onelevel
+from tdmtui.core.input.case import Dose, Level
 from tdmtui.core.compute import compute_raw
 from tdmtui.core.errors import NoEstimateError
 from tdmtui.core.models import DoseArrays
-from tdmtui.core.working import WorkingStep
+from tdmtui.core.estimation.working import WorkingStep
 
 ROOT = Path(__file__).resolve().parents[2]
 V_STEP = WorkingStep("Volume (population)", "V = given", "", "", "test")

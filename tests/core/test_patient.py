@@ -12,7 +12,7 @@ import pytest
 
 from tdmtui.core.errors import InputError
 from tdmtui.core.library import Rules, load_protocol
-from tdmtui.core.patient import (
+from tdmtui.core.patient.body import (
     adjusted_weight,
     bmi,
     bsa_dubois,
@@ -26,7 +26,7 @@ from tdmtui.core.patient import (
     lbw_janmahasatian,
     renal_summary,
 )
-from tdmtui.core.units import parse_quantity
+from tdmtui.core.input.units import parse_quantity
 
 # pk-sources.md W1: female, 68 y, 165 cm, TBW 92 kg, SCr 1.1 mg/dL
 W1 = {"age": 68.0, "sex": "female", "weight": 92.0, "height": 165.0, "scr": 1.1}

@@ -14,7 +14,7 @@ import math
 import pytest
 
 from tdmtui.core.errors import InputError, NoEstimateError
-from tdmtui.core.popmodels import Covariates, all_models, auto_model, get_model, models_for, offered_models
+from tdmtui.core.estimation.popmodels import Covariates, all_models, auto_model, get_model, models_for, offered_models
 
 
 def patient(age: float, weight: float, scr: float, *, sex: str = "male", height: float = 172.0,

@@ -14,7 +14,7 @@ import sys
 import pytest
 
 from casedata import ROOT, base_case
-from tdmtui.core.case import parse_case
+from tdmtui.core.input.case import parse_case
 from tdmtui.core.compute import compute
 from tdmtui.core.errors import InputError
 from tdmtui.core.library import DRUGS, _drug_flat, load_protocol, never_exceed, protocol_from_tree

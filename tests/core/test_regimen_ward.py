@@ -14,12 +14,12 @@ import re
 import numpy as np
 import pytest
 
-from tdmtui.core.case import Target, load_case
-from tdmtui.core.clock import Clock
+from tdmtui.core.input.case import Target, load_case
+from tdmtui.core.input.clock import Clock
 from tdmtui.core.compute import compute
 from tdmtui.core.library import Rules
 from tdmtui.core.models import DoseArrays, PKParams
-from tdmtui.core.note import render_note
+from tdmtui.core.text.note import render_note
 from tdmtui.core.regimen import CurrentRegimen, design
 from tdmtui.core.regimen import wardclock
 

@@ -14,12 +14,13 @@ import pytest
 
 from casedata import SAMPLES
 from tdmtui.cli import _sub_parser
-from tdmtui.core import case as case_mod
-from tdmtui.core import noteplan, registry
-from tdmtui.core.case import load_case
+from tdmtui.core.input import case as case_mod
+from tdmtui.core import registry
+from tdmtui.core.text import noteplan
+from tdmtui.core.input.case import load_case
 from tdmtui.core.compute import compute
 from tdmtui.core.errors import InputError
-from tdmtui.core.estimates import Estimate
+from tdmtui.core.estimation.estimates import Estimate
 from tdmtui.core.models import PKParams
 from tdmtui.core.registry import Method, MethodRun
 

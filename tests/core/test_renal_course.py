@@ -16,8 +16,10 @@ import pytest
 from casedata import SAMPLES, base_case
 from ode_reference_tv import ode_reference_tv
 
-from tdmtui.core import bayes, popmodels, renalcourse
-from tdmtui.core.case import parse_case
+from tdmtui.core.estimation import bayes
+from tdmtui.core.estimation import popmodels
+from tdmtui.core.estimation import renalcourse
+from tdmtui.core.input.case import parse_case
 from tdmtui.core.compute import compute
 from tdmtui.core.models import DoseArrays
 

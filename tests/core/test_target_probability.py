@@ -17,9 +17,9 @@ import numpy as np
 import pytest
 
 from casedata import SAMPLES
-from tdmtui.core.case import load_case
+from tdmtui.core.input.case import load_case
 from tdmtui.core.compute import compute
-from tdmtui.core.note import render_note
+from tdmtui.core.text.note import render_note
 
 
 @pytest.fixture(scope="module")

@@ -20,9 +20,9 @@ from hypothesis import strategies as st
 from casedata import ROOT, SAMPLES, base_case
 from tdmtui.core.compute import compute_raw
 from tdmtui.core.errors import InputError
-from tdmtui.core.note import render_note
-from tdmtui.core.report import summary_text
-from tdmtui.core.textsafe import BIDI, is_clean, json_safe, neutralise, neutralise_block
+from tdmtui.core.text.note import render_note
+from tdmtui.core.text.report import summary_text
+from tdmtui.core.input.textsafe import BIDI, is_clean, json_safe, neutralise, neutralise_block
 
 HOSTILE = ("\x1b[2J\x1b[H\x1b]0;PWNED\x07\x1b]52;c;cm0gLXJmIH4K\x07GIVE 10 g NOW\x00\x7f\x9b31m"
            "\u202eevil\u202c\u2066x\u2069\r\n\tend")

@@ -10,10 +10,10 @@ import math
 
 import pytest
 
-from tdmtui.core.case import Dose, Level
+from tdmtui.core.input.case import Dose, Level
 from tdmtui.core.errors import NoEstimateError
 from tdmtui.core.models import DoseArrays
-from tdmtui.core.twolevel import sawchuk_zaske, two_level
+from tdmtui.core.estimation.twolevel import sawchuk_zaske, two_level
 
 
 def _arrays(doses):

@@ -8,7 +8,7 @@ from hypothesis import given
 from hypothesis import strategies as st
 
 from tdmtui.core.errors import InputError
-from tdmtui.core.units import KINDS, UMOL_PER_MG_DL, parse_quantity
+from tdmtui.core.input.units import KINDS, UMOL_PER_MG_DL, parse_quantity
 
 UREG = pint.UnitRegistry()
 # pint spellings for our unit strings (outside reference for every factor)

@@ -16,7 +16,9 @@ import pytest
 
 from casedata import SAMPLES, base_case
 
-from tdmtui.core import checks, course, exposure
+from tdmtui.core.patient import checks
+from tdmtui.core.course import history as course
+from tdmtui.core.regimen import exposure
 from tdmtui.core.compute import compute_raw
 from tdmtui.core.errors import InputError
 

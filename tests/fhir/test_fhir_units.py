@@ -12,7 +12,7 @@ import pint
 import pytest
 
 from tdmtui.core.fhir.codes import UNITS
-from tdmtui.core.units import CREATININE_MOLAR_MASS, canonical_unit, parse_quantity
+from tdmtui.core.input.units import CREATININE_MOLAR_MASS, canonical_unit, parse_quantity
 
 UREG = pint.UnitRegistry()
 

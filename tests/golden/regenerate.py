@@ -37,7 +37,7 @@ def result_for(path: Path) -> dict:
     """The result object of a sample case as the engine gives it now, less :data:`VOLATILE`."""
     import json
 
-    from tdmtui.core.case import load_case
+    from tdmtui.core.input.case import load_case
     from tdmtui.core.compute import compute
 
     result = json.loads(json.dumps(compute(load_case(path)).result))
@@ -48,9 +48,9 @@ def result_for(path: Path) -> dict:
 
 def note_for(name: str) -> str:
     """The note of ``sample_cases/<name>.json`` as the engine writes it now."""
-    from tdmtui.core.case import load_case
+    from tdmtui.core.input.case import load_case
     from tdmtui.core.compute import compute
-    from tdmtui.core.note import render_note
+    from tdmtui.core.text.note import render_note
 
     return render_note(compute(load_case(ROOT / "sample_cases" / f"{name}.json")))
 

@@ -21,7 +21,7 @@ from pathlib import Path
 import pytest
 
 from relhelpers import ROOT, sample_raws
-from tdmtui.core.case import canonical_bytes, load_case, save_case
+from tdmtui.core.input.case import canonical_bytes, load_case, save_case
 from tdmtui.ui.document import CaseDocument, ChangedOnDisk
 
 PY = sys.executable
@@ -59,7 +59,7 @@ def _leftovers(folder: Path, name: str) -> list[Path]:
 
 _SAVE_AND_HANG = """
     import json, os, sys, time
-    import tdmtui.core.case as case
+    import tdmtui.core.input.case as case
     real_fsync = os.fsync
     def fsync_then_hang(fd):
         real_fsync(fd)
@@ -90,7 +90,7 @@ def test_writer_killed_mid_save_leaves_the_previous_file_intact(tmp_path):
 
 _SAVE_LOOP = """
     import json, sys
-    from tdmtui.core.case import save_case
+    from tdmtui.core.input.case import save_case
     raw = json.loads(sys.stdin.readline())
     who = sys.argv[2] if len(sys.argv) > 2 else "version"
     print("ready", flush=True)

@@ -18,14 +18,14 @@ from typing import Any
 import pytest
 
 from relhelpers import ROOT
-from tdmtui.core.case import load_case
+from tdmtui.core.input.case import load_case
 from tdmtui.core.compute import compute
 
 SAMPLES = sorted((ROOT / "sample_cases").glob("*.json"))
 
 _DIGESTS = """
 import hashlib, json, sys
-from tdmtui.core.case import load_case
+from tdmtui.core.input.case import load_case
 from tdmtui.core.compute import compute
 for path in sys.argv[1:]:
     text = json.dumps(compute(load_case(path)).result, indent=2, ensure_ascii=False, allow_nan=False)

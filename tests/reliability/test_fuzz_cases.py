@@ -30,12 +30,13 @@ from hypothesis import strategies as st
 
 from relhelpers import (DRUGS, FIELD_RE, FUZZ_COUNTS, JUNK, ROOT, UNITS, check_result, limit_problems, mutate,
                         mutate_bytes, plausible_case, resolve, sample_raws)
-from tdmtui.core import checks, course
-from tdmtui.core.case import Case, load_case, parse_case
+from tdmtui.core.patient import checks
+from tdmtui.core.course import history as course
+from tdmtui.core.input.case import Case, load_case, parse_case
 from tdmtui.core.compute import compute, compute_raw
 from tdmtui.core.errors import InputError, NoEstimateError
 from tdmtui.core.library import Rules
-from tdmtui.core.patient import renal_summary
+from tdmtui.core.patient.body import renal_summary
 
 SEED = 20260301
 N_MUTATED = 10_000

@@ -22,7 +22,7 @@ import traceback
 from pathlib import Path
 
 from relhelpers import FUZZ_COUNTS, ROOT, limit_problems, sample_raws
-from tdmtui.core.case import parse_case
+from tdmtui.core.input.case import parse_case
 from tdmtui.core.compute import compute
 from tdmtui.core.errors import InputError, NoEstimateError
 from tdmtui.core.library import DRUGS, load_protocol, protocol_from_tree

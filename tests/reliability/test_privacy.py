@@ -20,7 +20,7 @@ from pathlib import Path
 import pytest
 
 from relhelpers import ROOT, sample_raws
-from tdmtui.core.case import load_case, save_case, write_atomic
+from tdmtui.core.input.case import load_case, save_case, write_atomic
 from tdmtui.core.compute import compute
 
 MARK = "QZX-PRIVATE-7731"  # an invented marker typed into every free-text field
@@ -78,7 +78,7 @@ def test_computing_every_sample_opens_no_connection(no_network):
 
 
 def load_case_from(raw: dict):  # noqa: ANN201
-    from tdmtui.core.case import parse_case
+    from tdmtui.core.input.case import parse_case
 
     return parse_case(raw)
 

@@ -24,8 +24,8 @@ from pathlib import Path
 import pytest
 
 from casedata import base_case
-from tdmtui.core import case as case_mod
-from tdmtui.core.case import SaveLockTimeout, remove_stale_temps, save_case
+from tdmtui.core.input import case as case_mod
+from tdmtui.core.input.case import SaveLockTimeout, remove_stale_temps, save_case
 from tdmtui.ui.document import CaseDocument
 from tdmtui.ui.recovery import (RecoveryRefused, find_recovery, read_recovery, recovery_path, remove_recovery,
                                 write_recovery)

@@ -145,9 +145,9 @@ def test_levels_at_the_assay_limit_compute(drug, censor):
 
 
 def _map_problem():  # noqa: ANN202
-    from tdmtui.core import bayes
+    from tdmtui.core.estimation import bayes
     from tdmtui.core.models import DoseArrays
-    from tdmtui.core.popmodels import Covariates, get_model
+    from tdmtui.core.estimation.popmodels import Covariates, get_model
 
     model = get_model("vancomycin-goti-2018")
     cov = Covariates(age=64.0, sex="female", weight=78.0, height=168.0, scr=1.1)
@@ -180,7 +180,7 @@ def test_map_fit_raises_instead_of_returning_a_guess(monkeypatch, on_bound):
 
 
 def test_requested_bayesian_method_exits_3_when_the_fit_does_not_converge(monkeypatch):
-    from tdmtui.core import bayes
+    from tdmtui.core.estimation import bayes
 
     raw = course("vancomycin", 80.0, 178.0, 55.0, _scr_for(80.0, 55.0, 80.0), 4, 12.0, 1250.0, 1.5, 80.0)
     raw["levels"] = raw["levels"][:1]  # one trough: the Bayesian method is the one asked for
@@ -196,8 +196,8 @@ def test_requested_bayesian_method_exits_3_when_the_fit_does_not_converge(monkey
 
 
 def test_two_level_with_no_root_says_so():
-    from tdmtui.core import twolevel
-    from tdmtui.core.case import Level
+    from tdmtui.core.estimation import twolevel
+    from tdmtui.core.input.case import Level
     from tdmtui.core.models import DoseArrays
 
     doses = DoseArrays.regimen(0.0, 1000.0, 12.0, 1.0, 4)

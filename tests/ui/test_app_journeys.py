@@ -331,7 +331,7 @@ async def test_write_note_to_a_file_0600(state, sample_copy):
         await pilot.press("enter")
         await pilot.pause()
     out = path.with_name("vanc-steady-state.note.txt")
-    from tdmtui.core.safety import NOTE_LINE
+    from tdmtui.core.text.safety import NOTE_LINE
 
     # the note carries the standing caution (wrapped at 80 columns)
     assert out.read_text() == app.note and " ".join(NOTE_LINE.split()) in " ".join(app.note.split())

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import pytest
 
-from tdmtui.core.clock import Clock
+from tdmtui.core.input.clock import Clock
 from tdmtui.ui.entry import anchor_for, case_clock, infusion_entry, quantity_entry, time_entry
 from tdmtui.ui.sections.doses import parse_repeat
 

@@ -6,7 +6,7 @@ import stat
 
 from textual.widgets import Input, Static
 
-from tdmtui.core.safety import SHORT_LINES
+from tdmtui.core.text.safety import SHORT_LINES
 from tdmtui.ui.app import TdmApp
 from tdmtui.ui.dialogs import NoticeDialog
 from tdmtui.ui.safety import NOTICE_MARKER

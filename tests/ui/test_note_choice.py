@@ -78,7 +78,7 @@ async def test_working_view_is_the_notes_working(state, sample_copy):
 
 async def test_one_parse_per_recompute(state, sample_copy, monkeypatch):
     """The app reads the case once per recompute: the worker computes the Case the check produced."""
-    import tdmtui.core.case as case_mod
+    import tdmtui.core.input.case as case_mod
 
     calls = []
     real = case_mod.parse_case

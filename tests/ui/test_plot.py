@@ -159,7 +159,7 @@ def test_every_target_band_is_drawn_both_limits_also_at_zero_and_inside_the_90_b
 
 
 def test_an_auc_only_target_draws_no_band_and_the_legend_claims_none():
-    from tdmtui.core.case import load_case
+    from tdmtui.core.input.case import load_case
     from tdmtui.core.compute import compute
     from tdmtui.ui.widgets.plotdata import build_plot_data
     from uihelpers import SAMPLES

@@ -8,9 +8,9 @@ from __future__ import annotations
 
 import pytest
 
-from tdmtui.core.clock import Clock
+from tdmtui.core.input.clock import Clock
 from tdmtui.core.errors import InputError
-from tdmtui.core.timeentry import repeat_rows, resolve_time
+from tdmtui.core.input.timeentry import repeat_rows, resolve_time
 
 NAIVE = Clock("naive")
 
@@ -105,8 +105,8 @@ def test_repeat_rows_rejects_zero_interval_and_silly_counts():
 def test_times_as_people_type_them(typed, expected):
     # clock arithmetic by hand from the row above at 2026-03-03 08:00; for 0805 the row above is at
     # 08:10, so 08:05 is earlier and rolls to the next day (as 08:05 typed with a colon does)
-    from tdmtui.core.clock import Clock
-    from tdmtui.core.timeentry import resolve_time
+    from tdmtui.core.input.clock import Clock
+    from tdmtui.core.input.timeentry import resolve_time
 
     clock = Clock("naive")
     anchor = clock.parse("2026-03-03T08:10", "x") if typed == "0805" else clock.parse("2026-03-03T08:00", "x")

@@ -2,7 +2,7 @@
 
 Each figure is read off each view (the app's tables at 80x24, the note's text,
 the command-line summary) and compared as printed; the expected strings follow
-the rounding table of tdmtui/core/numfmt.py (ke 3 significant figures,
+the rounding table of tdmtui/core/text/numfmt.py (ke 3 significant figures,
 half-life 1 decimal, CL 2 decimals, AUC24 whole, probability whole percent).
 """
 

@@ -71,7 +71,7 @@ def check_case(imported: Imported) -> None:
         InputError: the first missing part, or the case's own error with the
             resource it came from named first.
     """
-    from tdmtui.core.case import parse_case
+    from tdmtui.core.input.case import parse_case
 
     if imported.report.missing:
         part, why = imported.report.missing[0]

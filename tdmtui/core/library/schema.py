@@ -7,7 +7,7 @@ key (``protocol.vancomycin.regimen.rounding_mg``) for an unknown key, a wrong
 type or unit, or a value outside the range. The ranges are wide plausibility
 bounds (design choices: a value outside them is a slip, whatever the site);
 what protects the patient whatever the protocol says is the library's
-``never_exceed`` limits (:mod:`tdmtui.core.limits`), which no protocol may set.
+``never_exceed`` limits (:mod:`tdmtui.core.regimen.limits`), which no protocol may set.
 
 Adding a key a protocol may set is ONE line in :data:`SCHEMA`::
 

@@ -5,7 +5,7 @@ The cap the design works to is the smallest of:
 * the library's or local protocol's ``regimen.max_daily_dose_mg``;
 * the drug's never-exceed daily limits (``never_exceed.daily_dose_mg`` and
   ``never_exceed.daily_dose_mg_per_kg`` x actual weight), so the design never
-  proposes what the final guard (:mod:`tdmtui.core.limits`) would refuse;
+  proposes what the final guard (:mod:`tdmtui.core.regimen.limits`) would refuse;
 * ``regimen.obese_initial_max_daily_mg`` only where its source says it applies:
   an obese patient (BMI at or above ``loading.obese_bmi``) whose first maintenance
   regimen rests on no measured level (2020 vancomycin guideline: obese patients'

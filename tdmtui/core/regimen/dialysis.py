@@ -1,7 +1,7 @@
 """The proposal on intermittent haemodialysis: a dose after each session, aimed at the pre-dialysis target.
 
 Schedule: the sessions to come (the case's ``dialysis.planned``, else the last
-week's sessions repeated a week later; :func:`tdmtui.core.dialysis.schedule`)
+week's sessions repeated a week later; :func:`tdmtui.core.input.dialysis.schedule`)
 within ``dialysis.plan_days``. A dose is given at the END of each session but
 the last; each is chosen, in turn, as the practical dose (``regimen.rounding_mg``
 steps up to ``regimen.max_single_dose_mg``, infusion time by the drug's rate

@@ -53,7 +53,7 @@ from tdmtui.core.models import DoseArrays, PKParams, auc, concentration, time_to
 from tdmtui.core.regimen import wardclock
 
 if TYPE_CHECKING:
-    from tdmtui.core.clock import Clock
+    from tdmtui.core.input.clock import Clock
     from tdmtui.core.library import Rules
     from tdmtui.core.regimen.targets import Targets
 

@@ -10,14 +10,14 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
 
-from tdmtui.core.course import CurrentRegimen  # the one standing-order type (re-exported here)
+from tdmtui.core.course.history import CurrentRegimen  # the one standing-order type (re-exported here)
 
 if TYPE_CHECKING:
     import numpy as np
 
     from tdmtui.core.alerts import Alert
-    from tdmtui.core.case import Dose, Level, Target
-    from tdmtui.core.clock import Clock
+    from tdmtui.core.input.case import Dose, Level, Target
+    from tdmtui.core.input.clock import Clock
     from tdmtui.core.library import Rules
     from tdmtui.core.models import DoseArrays, PKParams
 

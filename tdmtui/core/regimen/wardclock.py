@@ -27,7 +27,7 @@ import math
 from typing import TYPE_CHECKING, Any
 
 if TYPE_CHECKING:
-    from tdmtui.core.clock import Clock
+    from tdmtui.core.input.clock import Clock
     from tdmtui.core.library import Rules
 
 _EPS_H = 1.0 / 3600.0  # one second

@@ -6,10 +6,10 @@ from typing import Any
 
 from textual.binding import Binding
 
-from tdmtui.core.case import DOSE_KINDS, TIMINGS
+from tdmtui.core.input.case import DOSE_KINDS, TIMINGS
 from tdmtui.core.errors import InputError
-from tdmtui.core.timeentry import repeat_rows
-from tdmtui.core.units import parse_quantity
+from tdmtui.core.input.timeentry import repeat_rows
+from tdmtui.core.input.units import parse_quantity
 from tdmtui.ui.dialogs import TextDialog
 from textual import on
 from textual.app import ComposeResult

@@ -143,8 +143,8 @@ def working_text(outcome: Any) -> str:
     """The working of the note (to check by hand), then the engine's own steps with their numbers."""
     if outcome is None or not outcome.result.get("estimate"):
         return "No working to show."
-    from tdmtui.core.note import chosen_of
-    from tdmtui.core.noteplan import working_block
+    from tdmtui.core.text.note import chosen_of
+    from tdmtui.core.text.noteplan import working_block
 
     lines = working_block(outcome, chosen_of(outcome)[0]) + ["", "How the engine solved it:"]
     for i, w in enumerate(outcome.working, 1):

@@ -9,7 +9,7 @@ from textual.app import ComposeResult
 from textual.containers import VerticalScroll
 from textual.widgets import Input, Label
 
-from tdmtui.core.case import METHODS, RENAL_REPLACEMENT, SEXES
+from tdmtui.core.input.case import METHODS, RENAL_REPLACEMENT, SEXES
 from tdmtui.core.errors import InputError
 from tdmtui.core.library import DRUGS
 from tdmtui.ui import formatting as fm
@@ -100,8 +100,8 @@ def derived_text(raw: dict[str, Any], protocol: Any = None) -> tuple[str, str, f
     CrCl here is the engine's.
     """
     from tdmtui.core.library import Rules
-    from tdmtui.core.patient import renal_summary
-    from tdmtui.core.units import parse_quantity
+    from tdmtui.core.patient.body import renal_summary
+    from tdmtui.core.input.units import parse_quantity
 
     p = raw.get("patient") if isinstance(raw.get("patient"), dict) else {}
     missing = [k for k in ("age", "sex", "weight", "height", "scr") if not p.get(k)]

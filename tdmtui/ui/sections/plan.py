@@ -11,7 +11,7 @@ from textual.containers import Vertical
 from textual.message import Message
 from textual.widgets import DataTable, Label, Static
 
-from tdmtui.core.chosen import offered, parse_chosen, same
+from tdmtui.core.input.chosen import offered, parse_chosen, same
 from tdmtui.ui import formatting as fm
 from tdmtui.ui.safety import caution_line
 
@@ -53,7 +53,7 @@ def summary_lines(result: dict[str, Any]) -> str:
             return "No regimen: a STOP warning stands (see the warnings)."
         return "No regimen proposed yet."
     if reg.get("mode") in WORDED_MODES:
-        from tdmtui.core.renalplan import plan_words
+        from tdmtui.core.regimen.renalplan import plan_words
 
         nl = reg.get("next_levels") or []
         return "\n".join(plan_words(reg) + ["Next levels: " + "; ".join(f"{x.get('kind')} {x.get('at')}" for x in nl)]

@@ -26,7 +26,7 @@ def _name(mid: str, est: dict[str, Any]) -> str:
     """The model's short name, from its estimate or, for a model not fitted, from the library."""
     name = (est.get("model") or {}).get("name")
     if not name:
-        from tdmtui.core.popmodels import get_model
+        from tdmtui.core.estimation.popmodels import get_model
 
         try:
             name = get_model(mid).name

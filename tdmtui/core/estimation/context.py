@@ -1,0 +1,50 @@
+"""What every estimation method is given: the case and the facts computed before estimation.
+
+The pipeline (:mod:`tdmtui.core.compute`) builds one :class:`MethodContext`
+after the renal, course and target stages; every method of the registry
+(:mod:`tdmtui.core.registry`) reads it and none changes it.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import TYPE_CHECKING
+
+from tdmtui.core.input.case import Case, Level
+from tdmtui.core.course.history import CurrentRegimen
+from tdmtui.core.library import Rules
+from tdmtui.core.models import DoseArrays
+from tdmtui.core.patient.body import RenalSummary
+
+if TYPE_CHECKING:
+    from tdmtui.core.regimen.targets import Targets
+
+
+def history_of(case: Case) -> DoseArrays:
+    """The real doses up to ``as_of`` as arrays."""
+    ds = [d for d in case.doses if d.start <= case.as_of]
+    return DoseArrays.from_lists([d.start for d in ds], [d.duration for d in ds], [d.amount for d in ds])
+
+
+@dataclass(frozen=True)
+class MethodContext:
+    """What every method needs.
+
+    Attributes:
+        case: the parsed case.
+        rules: library values with the local protocol on top.
+        renal: body size and renal function.
+        history: the real doses up to ``as_of``.
+        usable: levels fit for one-compartment methods, by time.
+        current: the standing order, or None.
+        targets: the targets the regimen is judged by (probability of target
+            of the current regimen uses them), or None.
+    """
+
+    case: Case
+    rules: Rules
+    renal: RenalSummary
+    history: DoseArrays
+    usable: list[Level]
+    current: CurrentRegimen | None
+    targets: Targets | None = None

@@ -1,0 +1,1 @@
+"""Input: the case file, its bounds, units, clock times and free text made safe."""

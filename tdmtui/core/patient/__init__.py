@@ -1,0 +1,1 @@
+"""The patient: body size, renal function and patient-level checks."""

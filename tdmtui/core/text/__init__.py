@@ -1,0 +1,2 @@
+"""Text for people: the chart note, the command-line summary, the working and the
+safety text."""
