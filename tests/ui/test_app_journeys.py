@@ -101,10 +101,12 @@ async def test_type_a_new_vancomycin_case_fit_choose_and_copy_note(state):
         assert plan_table.row_count >= 2
         plan_table.focus()
         await pilot.press("down", "enter")
+        await settle(pilot)  # the choice rewrites the note: wait for it before copying
         assert app.chosen is not None
         second = app.outcome.result["regimen"].get("candidates") or [None, *app.outcome.result["regimen"]["alternatives"]]
         assert app.chosen["dose_mg"] == second[1]["dose_mg"]
         await pilot.press("f7", "c")
+        await pilot.pause()
         assert app.clipboard == app.note
         assert "Chosen in review: " in app.clipboard
         assert f"{app.chosen['dose_mg']:.0f} mg" in app.clipboard
