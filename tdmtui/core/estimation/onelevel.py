@@ -83,14 +83,8 @@ def superposition(inp: OneLevelInput) -> Estimate:
     def conc(ke: float) -> float:
         return float(onecomp.concentration(ke, v, inp.history, lv.time))
 
-    if lv.below_loq:
-        raise _bound_message(m, lv, conc)
-    if lv.above_uloq:
-        raise NoEstimateError(m, f"levels[{lv.index}] is above the assay limit: no value to solve for")
-    ke = solve_decreasing(conc, lv.conc)
-    if ke is None:
-        raise NoEstimateError(m, f"no ke between {KE_LO:g} and {KE_HI:g} /h puts the history through "
-                                 f"levels[{lv.index}] {lv.conc:g} mg/L with the population volume {v:.4g} L")
+    ke = _ke_through(m, lv, conc, f"no ke between {KE_LO:g} and {KE_HI:g} /h puts the history through "
+                                  f"levels[{lv.index}] {lv.conc:g} mg/L with the population volume {v:.4g} L")
     steps = [inp.v_working,
              WorkingStep("Model", "C(t) = sum over doses of (D/T)/(ke V) (1 - e^(-ke min(u,T))) e^(-ke max(u-T,0))",
                          f"{len(inp.history)} doses superposed, V {v:.4g} L, levels[{lv.index}] {lv.conc:g} mg/L",
@@ -100,6 +94,18 @@ def superposition(inp: OneLevelInput) -> Estimate:
              WorkingStep("Clearance", "CL = ke x V", f"{ke:.4g} x {v:.4g}", f"{ke * v:.4g} L/h", m)]
     return Estimate(m, PKParams.one_compartment(ke, v), [lv.index], steps,
                     "population volume; ke from one level with every dose superposed")
+
+
+def _ke_through(m: str, lv: Any, c: Callable[[float], float], none_found: str) -> float:
+    """ke putting the curve ``c`` through the level (a censored level is a bound, refused with it)."""
+    if lv.below_loq:
+        raise _bound_message(m, lv, c)
+    if lv.above_uloq:
+        raise NoEstimateError(m, f"levels[{lv.index}] is above the assay limit: no value to solve for")
+    ke = solve_decreasing(c, lv.conc)
+    if ke is None:
+        raise NoEstimateError(m, none_found)
+    return ke
 
 
 def _ss_conc(dose: Any, tau: float, v: float, u: float) -> Callable[[float], float]:
@@ -127,14 +133,8 @@ def steady_state_trough(inp: OneLevelInput) -> Estimate:
     if not 0 < u <= inp.tau + 1e-9:
         raise NoEstimateError(m, f"levels[{lv.index}] is not within one interval after the last dose")
     c = _ss_conc(inp.dose, inp.tau, v, u)
-    if lv.below_loq:
-        raise _bound_message(m, lv, c)
-    if lv.above_uloq:
-        raise NoEstimateError(m, f"levels[{lv.index}] is above the assay limit: no value to solve for")
-    ke = solve_decreasing(c, lv.conc)
-    if ke is None:
-        raise NoEstimateError(m, f"no ke puts the steady-state curve through levels[{lv.index}] {lv.conc:g} mg/L "
-                                 f"with the population volume {v:.4g} L")
+    ke = _ke_through(m, lv, c, f"no ke puts the steady-state curve through levels[{lv.index}] {lv.conc:g} mg/L "
+                               f"with the population volume {v:.4g} L")
     share = float(onecomp.concentration(ke, v, inp.history, lv.time)) / c(ke)
     if abs(share - 1.0) > inp.steady_within:
         raise NoEstimateError(m, f"levels[{lv.index}] is not at steady state (the history puts it at {share:.0%} of "
