@@ -151,7 +151,7 @@ def parse_dialysis(raw: Any, clock: Clock, as_of: float, renal_replacement: str,
 
 
 def recorded(case: Case) -> tuple[Session, ...]:
-    d = getattr(case, "dialysis", None)
+    d = case.dialysis
     return d.sessions if d else ()
 
 
@@ -163,7 +163,7 @@ def fit_sessions(case: Case, rules: Rules) -> tuple[list[tuple[float, float]], f
 
 def schedule(case: Case, rules: Rules) -> tuple[list[tuple[float, float]], bool]:
     """The sessions the plan doses after: (start, end) within ``dialysis.plan_days``; True when projected."""
-    d = getattr(case, "dialysis", None)
+    d = case.dialysis
     if d is None:
         return [], False
     horizon = case.as_of + 24.0 * float(rules.value("dialysis.plan_days"))
@@ -227,7 +227,7 @@ def dose_relations(case: Case) -> list[dict[str, Any]]:
 
 def summary(case: Case, rules: Rules) -> dict[str, Any] | None:
     """JSON-ready: sessions, the doses beside them, the plan's sessions (the result's ``dialysis``)."""
-    d = getattr(case, "dialysis", None)
+    d = case.dialysis
     if d is None:
         return None
     plan, projected = schedule(case, rules)

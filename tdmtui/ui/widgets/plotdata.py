@@ -96,7 +96,7 @@ def build_plot_data(outcome: Any) -> PlotData | None:
         cont = np.asarray(models.concentration(outcome.params, outcome.history, t), dtype=float)
         plan_c = np.where(t >= now, cont, np.nan)
     band = None
-    window = outcome.band_over(x0, x1) if hasattr(outcome, "band_over") else None
+    window = outcome.band_over(x0, x1)
     if window is not None:
         band = tuple(np.asarray(a, dtype=float) for a in window)
     levels = []
