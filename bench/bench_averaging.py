@@ -172,7 +172,7 @@ def _textbook_ke(cov) -> float:
 
 
 def _two_level(doses, obs):
-    from tdmtui.core.input.case import Level
+    from tdmtui.core.input.casetypes import Level
     from tdmtui.core.errors import NoEstimateError
     from tdmtui.core.estimation.twolevel import two_level
 

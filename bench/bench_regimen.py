@@ -21,7 +21,7 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from tdmtui.core.input.case import Target  # noqa: E402
+from tdmtui.core.input.casetypes import Target  # noqa: E402
 from tdmtui.core.input.clock import Clock  # noqa: E402
 from tdmtui.core.library import Rules  # noqa: E402
 from tdmtui.core.models import DoseArrays, PKParams  # noqa: E402

@@ -50,7 +50,7 @@ def median_ms(fn: Callable[[], object], reps: int, warm: int = 1) -> float:
 
 def bench_two_level(reps: int) -> tuple[float, str]:
     from tdmtui.core.estimation import twolevel
-    from tdmtui.core.input.case import Level
+    from tdmtui.core.input.casetypes import Level
     from tdmtui.core.models import DoseArrays
 
     doses = DoseArrays.regimen(0.0, 1000.0, 12.0, 1.0, 20)

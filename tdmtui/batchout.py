@@ -59,7 +59,7 @@ def jsonl_text(rows: list[Row]) -> str:
 
 def write_rows(path: str, rows: list[Row]) -> None:
     """The rows file, atomically with mode 0600 (an unwritable place: an error naming --out)."""
-    from tdmtui.core.input.case import write_atomic
+    from tdmtui.core.input.casefile import write_atomic
     from tdmtui.core.errors import InputError
 
     text = csv_text(rows) if path.lower().endswith(".csv") else jsonl_text(rows)

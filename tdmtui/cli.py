@@ -54,7 +54,7 @@ def _compute(args: argparse.Namespace) -> Any:
 
 def _write_file(path: str | Path, text: str, option: str) -> None:
     """Write an output file (atomic, 0600); an unwritable place is an error naming the option."""
-    from tdmtui.core.input.case import write_atomic
+    from tdmtui.core.input.casefile import write_atomic
     from tdmtui.core.errors import InputError
 
     try:

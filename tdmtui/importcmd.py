@@ -33,7 +33,7 @@ def parser() -> argparse.ArgumentParser:
 
 def main(argv: list[str]) -> int:
     """Run the import; InputError propagates to the command line (exit 2)."""
-    from tdmtui.core.input.case import canonical_bytes, write_atomic
+    from tdmtui.core.input.casefile import canonical_bytes, write_atomic
     from tdmtui.core.errors import InputError
     from tdmtui.core.fhir import check_case, import_export
     from tdmtui.core.library import protocol_or_default

@@ -39,7 +39,8 @@ from tdmtui.core.regimen import limits
 from tdmtui.core.estimation import methods
 from tdmtui.core.regimen import renalplan
 from tdmtui.core.alerts import Alert, has_stop
-from tdmtui.core.input.case import Case, parse_case
+from tdmtui.core.input.case import parse_case
+from tdmtui.core.input.casetypes import Case
 from tdmtui.core.estimation.context import MethodContext, history_of
 from tdmtui.core.course.history import CurrentRegimen
 from tdmtui.core.errors import NoEstimateError

@@ -1,7 +1,7 @@
 """The estimation methods, one record each, and the regimen options.
 
 Every list of methods reads this table: the case's ``method`` choices
-(:data:`tdmtui.core.input.case.METHODS`), the CLI's ``--method``, the app's method
+(:data:`tdmtui.core.input.casetypes.METHODS`), the CLI's ``--method``, the app's method
 choice, the note's method text, and the pipeline (which methods run, which one
 ``auto`` takes, how each refits for the timing sensitivity, which alerts belong
 to the method used).

@@ -10,7 +10,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from tdmtui.core.input.case import write_atomic
+from tdmtui.core.input.casefile import write_atomic
 from tdmtui.core.input.textsafe import neutralise_block
 
 COPY_CAVEAT = ("Sent to your clipboard by OSC 52. Some terminals and tmux (unless set-clipboard is on) "

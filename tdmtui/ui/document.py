@@ -16,7 +16,8 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
-from tdmtui.core.input.case import FORMAT, canonical_bytes, folder_lock, remove_stale_temps, save_case
+from tdmtui.core.input.casefile import canonical_bytes, folder_lock, remove_stale_temps, save_case
+from tdmtui.core.input.casetypes import FORMAT
 
 
 def new_case_raw(drug: str = "vancomycin") -> dict[str, Any]:

@@ -11,7 +11,7 @@ from __future__ import annotations
 from pathlib import Path
 from typing import Any
 
-from tdmtui.core.input.case import SaveLockTimeout
+from tdmtui.core.input.casefile import SaveLockTimeout
 from tdmtui.ui.dialogs import AskDialog, TextDialog
 from tdmtui.ui.document import ChangedOnDisk, new_case_raw
 from tdmtui.ui.recovery import RecoveryRefused, find_recovery, recovery_path, remove_recovery

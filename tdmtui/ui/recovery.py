@@ -29,7 +29,7 @@ from datetime import datetime, timezone
 from pathlib import Path
 from typing import Any
 
-from tdmtui.core.input.case import write_atomic
+from tdmtui.core.input.casefile import write_atomic
 
 FORMAT = "tdmtui.recovery/1"
 UNSAVED_NAME = "unsaved-case.recovery"

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from typing import Any
 
-from tdmtui.core.input.case import Target
+from tdmtui.core.input.casetypes import Target
 from tdmtui.core.input.clock import Clock
 from tdmtui.core.library import Protocol, Rules
 from tdmtui.core.models import DoseArrays, PKParams

@@ -8,7 +8,8 @@ import stat
 
 import pytest
 
-from tdmtui.core.input.case import canonical_bytes, load_case, parse_case, save_case
+from tdmtui.core.input.case import load_case, parse_case
+from tdmtui.core.input.casefile import canonical_bytes, save_case
 from tdmtui.core.errors import InputError
 
 

@@ -17,7 +17,7 @@ import pytest
 from ode_reference import ode_reference
 
 from tdmtui.core.estimation import onelevel
-from tdmtui.core.input.case import Dose, Level
+from tdmtui.core.input.casetypes import Dose, Level
 from tdmtui.core.compute import compute_raw
 from tdmtui.core.errors import NoEstimateError
 from tdmtui.core.models import DoseArrays

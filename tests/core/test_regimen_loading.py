@@ -10,7 +10,7 @@ import math
 
 import pytest
 
-from tdmtui.core.input.case import Target
+from tdmtui.core.input.casetypes import Target
 from tdmtui.core.models import DoseArrays, PKParams
 from tdmtui.core.regimen import CurrentRegimen, design
 from tdmtui.core.regimen.loading import to_target, weight_based

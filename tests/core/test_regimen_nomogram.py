@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import pytest
 
-from tdmtui.core.input.case import Dose, Level
+from tdmtui.core.input.casetypes import Dose, Level
 from tdmtui.core.models import DoseArrays, PKParams
 from tdmtui.core.regimen import design
 

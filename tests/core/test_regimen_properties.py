@@ -15,7 +15,7 @@ import math
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from tdmtui.core.input.case import Target
+from tdmtui.core.input.casetypes import Target
 from tdmtui.core.library import Rules
 from tdmtui.core.models import DoseArrays, PKParams
 from tdmtui.core.regimen import CurrentRegimen, design

@@ -16,7 +16,7 @@ import numpy as np
 import pytest
 from scipy.integrate import solve_ivp
 
-from tdmtui.core.input.case import Target
+from tdmtui.core.input.casetypes import Target
 from tdmtui.core.models import DoseArrays, PKParams, auc, concentration
 from tdmtui.core.regimen import CurrentRegimen, design
 from tdmtui.core.regimen.candidates import terminal_rate

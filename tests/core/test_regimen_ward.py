@@ -14,7 +14,8 @@ import re
 import numpy as np
 import pytest
 
-from tdmtui.core.input.case import Target, load_case
+from tdmtui.core.input.case import load_case
+from tdmtui.core.input.casetypes import Target
 from tdmtui.core.input.clock import Clock
 from tdmtui.core.compute import compute
 from tdmtui.core.library import Rules

@@ -7,7 +7,7 @@ from __future__ import annotations
 
 import pytest
 
-from tdmtui.core.input.case import Target
+from tdmtui.core.input.casetypes import Target
 from tdmtui.core.library import Rules
 from tdmtui.core.models import DoseArrays, PKParams, concentration
 from tdmtui.core.regimen import CurrentRegimen, design

@@ -15,6 +15,7 @@ import pytest
 from casedata import SAMPLES
 from tdmtui.cli import _sub_parser
 from tdmtui.core.input import case as case_mod
+from tdmtui.core.input import casetypes
 from tdmtui.core import registry
 from tdmtui.core.text import noteplan
 from tdmtui.core.input.case import load_case
@@ -37,7 +38,7 @@ def test_every_list_of_methods_is_the_registry():
     assert choices[0] == "auto"
     assert set(choices) >= {"auto", "two-level", "sawchuk-zaske", "least-squares", "bayesian", "population",
                             "one-level", "nomogram"}
-    assert case_mod.METHODS == choices
+    assert casetypes.METHODS == choices
     action = next(a for a in _sub_parser("compute")._actions if "--method" in a.option_strings)
     assert tuple(action.choices) == choices
     assert set(noteplan.METHOD_TEXT) == set(choices) - {"auto"}

@@ -10,7 +10,7 @@ import math
 
 import pytest
 
-from tdmtui.core.input.case import Dose, Level
+from tdmtui.core.input.casetypes import Dose, Level
 from tdmtui.core.errors import NoEstimateError
 from tdmtui.core.models import DoseArrays
 from tdmtui.core.estimation.twolevel import sawchuk_zaske, two_level

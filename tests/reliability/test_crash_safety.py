@@ -21,7 +21,8 @@ from pathlib import Path
 import pytest
 
 from relhelpers import ROOT, sample_raws
-from tdmtui.core.input.case import canonical_bytes, load_case, save_case
+from tdmtui.core.input.case import load_case
+from tdmtui.core.input.casefile import canonical_bytes, save_case
 from tdmtui.ui.document import CaseDocument, ChangedOnDisk
 
 PY = sys.executable
@@ -59,14 +60,14 @@ def _leftovers(folder: Path, name: str) -> list[Path]:
 
 _SAVE_AND_HANG = """
     import json, os, sys, time
-    import tdmtui.core.input.case as case
+    import tdmtui.core.input.casefile as casefile
     real_fsync = os.fsync
     def fsync_then_hang(fd):
         real_fsync(fd)
         print("in-save", flush=True)   # the new bytes are written and synced, not yet renamed
         time.sleep(600)
     os.fsync = fsync_then_hang
-    case.save_case(sys.argv[1], json.loads(sys.stdin.readline()))
+    casefile.save_case(sys.argv[1], json.loads(sys.stdin.readline()))
 """
 
 
@@ -90,7 +91,7 @@ def test_writer_killed_mid_save_leaves_the_previous_file_intact(tmp_path):
 
 _SAVE_LOOP = """
     import json, sys
-    from tdmtui.core.input.case import save_case
+    from tdmtui.core.input.casefile import save_case
     raw = json.loads(sys.stdin.readline())
     who = sys.argv[2] if len(sys.argv) > 2 else "version"
     print("ready", flush=True)

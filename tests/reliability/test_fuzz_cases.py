@@ -32,7 +32,8 @@ from relhelpers import (DRUGS, FIELD_RE, FUZZ_COUNTS, JUNK, ROOT, UNITS, check_r
                         mutate_bytes, plausible_case, resolve, sample_raws)
 from tdmtui.core.patient import checks
 from tdmtui.core.course import history as course
-from tdmtui.core.input.case import Case, load_case, parse_case
+from tdmtui.core.input.case import load_case, parse_case
+from tdmtui.core.input.casetypes import Case
 from tdmtui.core.compute import compute, compute_raw
 from tdmtui.core.errors import InputError, NoEstimateError
 from tdmtui.core.library import Rules

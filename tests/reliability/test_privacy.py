@@ -20,7 +20,8 @@ from pathlib import Path
 import pytest
 
 from relhelpers import ROOT, sample_raws
-from tdmtui.core.input.case import load_case, save_case, write_atomic
+from tdmtui.core.input.case import load_case
+from tdmtui.core.input.casefile import save_case, write_atomic
 from tdmtui.core.compute import compute
 
 MARK = "QZX-PRIVATE-7731"  # an invented marker typed into every free-text field

@@ -24,8 +24,8 @@ from pathlib import Path
 import pytest
 
 from casedata import base_case
-from tdmtui.core.input import case as case_mod
-from tdmtui.core.input.case import SaveLockTimeout, remove_stale_temps, save_case
+from tdmtui.core.input import casefile
+from tdmtui.core.input.casefile import SaveLockTimeout, remove_stale_temps, save_case
 from tdmtui.ui.document import CaseDocument
 from tdmtui.ui.recovery import (RecoveryRefused, find_recovery, read_recovery, recovery_path, remove_recovery,
                                 write_recovery)
@@ -157,7 +157,7 @@ def test_a_save_lock_held_elsewhere_times_out_with_a_message(tmp_path, monkeypat
     save_case(case, base_case())
     doc = CaseDocument.open(str(case))
     doc.set(("label",), "mine")
-    monkeypatch.setattr(case_mod, "LOCK_WAIT_S", 0.5)
+    monkeypatch.setattr(casefile, "LOCK_WAIT_S", 0.5)
     fd = os.open(tmp_path, os.O_RDONLY)
     pid = os.fork()
     if pid == 0:  # pragma: no cover - the other session holds the folder's lock
@@ -220,7 +220,7 @@ def test_a_lock_held_by_another_user_in_a_shared_folder_times_out(shared, monkey
     folder, case = shared
     doc = CaseDocument.open(str(case))
     doc.set(("label",), "mine")
-    monkeypatch.setattr(case_mod, "LOCK_WAIT_S", 0.5)
+    monkeypatch.setattr(casefile, "LOCK_WAIT_S", 0.5)
     r, w = os.pipe()
 
     def hold() -> bool:

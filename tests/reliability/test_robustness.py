@@ -197,7 +197,7 @@ def test_requested_bayesian_method_exits_3_when_the_fit_does_not_converge(monkey
 
 def test_two_level_with_no_root_says_so():
     from tdmtui.core.estimation import twolevel
-    from tdmtui.core.input.case import Level
+    from tdmtui.core.input.casetypes import Level
     from tdmtui.core.models import DoseArrays
 
     doses = DoseArrays.regimen(0.0, 1000.0, 12.0, 1.0, 4)

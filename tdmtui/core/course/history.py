@@ -11,7 +11,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from tdmtui.core.alerts import Alert
-from tdmtui.core.input.case import Case, Dose, Level
+from tdmtui.core.input.casetypes import Case, Dose, Level
 from tdmtui.core.library import Rules
 
 #: Stable warning codes raised here, with their meaning.

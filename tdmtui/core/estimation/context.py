@@ -10,7 +10,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
-from tdmtui.core.input.case import Case, Level
+from tdmtui.core.input.casetypes import Case, Level
 from tdmtui.core.course.history import CurrentRegimen
 from tdmtui.core.library import Rules
 from tdmtui.core.models import DoseArrays

@@ -16,7 +16,7 @@ from tdmtui.core import registry
 from tdmtui.core.estimation import bayes_method
 from tdmtui.core.estimation import twolevel
 from tdmtui.core.alerts import Alert
-from tdmtui.core.input.case import Dose
+from tdmtui.core.input.casetypes import Dose
 from tdmtui.core.course.history import level_exclusion
 from tdmtui.core.estimation.context import MethodContext
 from tdmtui.core.errors import ConvergenceError, NoEstimateError

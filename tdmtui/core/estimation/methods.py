@@ -15,7 +15,7 @@ import numpy as np
 from tdmtui.core import registry
 from tdmtui.core.estimation import bayes_method
 from tdmtui.core.alerts import Alert
-from tdmtui.core.input.case import Level
+from tdmtui.core.input.casetypes import Level
 from tdmtui.core.estimation.context import MethodContext
 from tdmtui.core.course.history import CurrentRegimen, level_exclusion
 from tdmtui.core.errors import ConvergenceError, NoEstimateError

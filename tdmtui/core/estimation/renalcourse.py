@@ -32,7 +32,7 @@ from typing import TYPE_CHECKING, Any
 
 if TYPE_CHECKING:
     from tdmtui.core.estimation.bayes import Course
-    from tdmtui.core.input.case import Case
+    from tdmtui.core.input.casetypes import Case
     from tdmtui.core.input.clock import Clock
     from tdmtui.core.estimation.context import MethodContext
     from tdmtui.core.estimation.estimates import Estimate

@@ -22,7 +22,7 @@ import numpy as np
 from tdmtui.core import registry
 from tdmtui.core.course import history as course
 from tdmtui.core.alerts import Alert
-from tdmtui.core.input.case import Case
+from tdmtui.core.input.casetypes import Case
 from tdmtui.core.estimation.context import MethodContext, history_of
 from tdmtui.core.errors import ConvergenceError, NoEstimateError
 from tdmtui.core.estimation.estimates import Estimate

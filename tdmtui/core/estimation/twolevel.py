@@ -31,7 +31,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from tdmtui.core.input.case import Dose, Level
+from tdmtui.core.input.casetypes import Dose, Level
 from tdmtui.core.errors import NoEstimateError
 from tdmtui.core.library import common_number
 from tdmtui.core.models import DoseArrays, PKParams

@@ -1,4 +1,4 @@
-"""Case files: the contract's JSON in, typed and checked values out, and back.
+"""Reading a case: the contract's JSON in, a typed and checked :class:`Case` out.
 
 ``parse_case`` turns the raw JSON object into a :class:`Case` of plain floats
 in canonical units, raising :class:`InputError` naming the field path (with
@@ -6,142 +6,30 @@ the 0-based index as the entry stands in the file) for anything malformed.
 Drug-specific plausibility and course timing are judged later by
 :mod:`tdmtui.core.course.history`, which raises warnings instead.
 
-``save_case`` writes atomically (temporary file, fsync, rename; mode 0600).
+The Case and its parts are in :mod:`tdmtui.core.input.casetypes`; writing a
+case back is :mod:`tdmtui.core.input.casefile`.
 """
 
 from __future__ import annotations
 
-import contextlib
 import hashlib
-import json
-import os
-import stat
-import tempfile
-from dataclasses import dataclass
 from pathlib import Path
-from typing import Any, Iterator
+from typing import Any
 
-from tdmtui.core import registry
 from tdmtui.core.bounds import check_span, check_tree, decode_json, read_case_bytes
 from tdmtui.core.alerts import Alert
+from tdmtui.core.input.casefile import canonical_bytes
+from tdmtui.core.input.casetypes import (DOSE_KINDS, FORMAT, METHODS, RENAL_REPLACEMENT, SEXES, TARGET_BANDS,
+                                         TIMINGS, Case, Dose, Level, Patient, Schedule, ScrValue, Target)
 from tdmtui.core.input.chosen import parse_chosen
 from tdmtui.core.input.clock import Clock, ambiguous, clock_for
 from tdmtui.core.errors import InputError
 from tdmtui.core.library import DRUGS, Rules
 from tdmtui.core.input.units import parse_quantity
 
-FORMAT = "tdmtui.case/1"
-SEXES = ("male", "female")
-RENAL_REPLACEMENT = ("none", "ihd", "crrt", "pd")
-DOSE_KINDS = ("loading", "maintenance", "extra")
-TIMINGS = ("actual", "scheduled", "uncertain")
-#: The case's ``method`` choices: ``auto``, every estimation method, every regimen option (registry.py).
-METHODS = registry.CHOICES
-TARGET_BANDS = ("auc24", "peak", "trough", "css")
-
 #: Hard limits beyond which a value cannot be a person's (input error, exit 2).
 #: Narrower drug- and adult-specific plausibility lives in the library.
 _ABSURD = {"age": (0.0, 130.0), "weight": (0.3, 700.0), "height": (20.0, 280.0), "scr": (0.01, 50.0)}
-
-
-@dataclass(frozen=True)
-class Dose:
-    """One infusion. Times in h since the epoch; amount mg."""
-
-    index: int
-    start: float
-    duration: float
-    amount: float
-    kind: str = "maintenance"
-    timing: str = "actual"
-
-    @property
-    def end(self) -> float:
-        return self.start + self.duration
-
-
-@dataclass(frozen=True)
-class Level:
-    """One measured concentration (mg/L); ``conc`` holds the limit when censored."""
-
-    index: int
-    time: float
-    conc: float
-    below_loq: bool = False
-    above_uloq: bool = False
-    use: bool = True
-    reason: str = ""
-    timing: str = "actual"
-
-    @property
-    def quantified(self) -> bool:
-        return not (self.below_loq or self.above_uloq)
-
-
-@dataclass(frozen=True)
-class ScrValue:
-    """A serum creatinine in mg/dL; ``index`` is None for the single-string form."""
-
-    index: int | None
-    time: float | None
-    value: float
-
-    @property
-    def field(self) -> str:
-        return "patient.scr" if self.index is None else f"patient.scr[{self.index}].value"
-
-
-@dataclass(frozen=True)
-class Patient:
-    age: float
-    sex: str
-    weight: float
-    height: float
-    scr: tuple[ScrValue, ...]
-    renal_replacement: str = "none"
-    conditions: tuple[str, ...] = ()
-    comedications: tuple[str, ...] = ()
-
-
-@dataclass(frozen=True)
-class Schedule:
-    interval: float
-    dose: float | None = None
-    duration: float | None = None
-
-
-@dataclass(frozen=True)
-class Target:
-    """Targets given in the case (None = take the library's or protocol's)."""
-
-    auc24: tuple[float, float] | None = None
-    peak: tuple[float, float] | None = None
-    trough: tuple[float, float] | None = None
-    css: tuple[float, float] | None = None
-    mic: float | None = None
-    indication: str | None = None
-
-
-@dataclass(frozen=True)
-class Case:
-    """A parsed case. ``doses`` are sorted by start; ``levels`` by time."""
-
-    drug: str
-    label: str
-    as_of: float
-    as_of_given: bool
-    clock: Clock
-    patient: Patient
-    doses: tuple[Dose, ...]
-    levels: tuple[Level, ...]
-    schedule: Schedule | None
-    target: Target
-    method: str
-    raw: dict[str, Any]
-    sha256: str
-    saved: bool
-    notices: tuple[Alert, ...] = ()  # warnings found while reading (ambiguous times, an unused timezone)
-    dialysis: Any = None  # dialysis.Dialysis: haemodialysis sessions, or None (docs/dialysis.md)
 
 
 def _obj(value: Any, field: str) -> dict[str, Any]:
@@ -325,11 +213,6 @@ def _parse_schedule(raw: Any) -> Schedule | None:
     return Schedule(interval, dose, duration)
 
 
-def canonical_bytes(raw: dict[str, Any]) -> bytes:
-    """The canonical serialisation used for digests of unsaved cases and for saving."""
-    return (json.dumps(raw, ensure_ascii=False, indent=2) + "\n").encode("utf-8")
-
-
 def parse_case(raw: object, data: bytes | None = None) -> Case:
     """Check and convert a case object.
 
@@ -343,16 +226,38 @@ def parse_case(raw: object, data: bytes | None = None) -> Case:
     """
     raw = _obj(raw, "(case)")
     check_tree(raw)
+    drug = _drug(raw)
+    rules = Rules(drug)
+    label = _text(raw.get("label", ""), "label")
+    clock = clock_for(_times(raw), raw.get("timezone"))
+    patient = _parse_patient(_need(raw, "patient", ""), clock, rules)
+    doses, levels = _parse_rows(raw, clock)
+    schedule = _parse_schedule(raw.get("schedule"))
+    target = _parse_target(raw.get("target"))
+    method = _choice(raw.get("method", "auto"), METHODS, "method")
+    parse_chosen(raw)  # checked here so a mistyped choice is named like any other field
+    as_of, given = _as_of(raw, clock, patient, doses, levels)
+    from tdmtui.core.input.dialysis import parse_dialysis
+
+    dialysis = parse_dialysis(raw.get("dialysis"), clock, as_of, patient.renal_replacement, rules)
+    digest = hashlib.sha256(data if data is not None else canonical_bytes(raw)).hexdigest()
+    return Case(drug, label, as_of, given, clock, patient, doses, levels, schedule, target, method,
+                raw, digest, data is not None, _notices(raw, clock), dialysis)
+
+
+def _drug(raw: dict[str, Any]) -> str:
+    """The case's format checked, and its drug (one of the library's)."""
     fmt = _need(raw, "format", "")
     if fmt != FORMAT:
         raise InputError("format", f"expected {FORMAT!r}, got {fmt!r}")
     drug = _need(raw, "drug", "")
     if drug not in DRUGS:
         raise InputError("drug", f"{drug!r} is not in the drug library ({', '.join(DRUGS)})")
-    rules = Rules(drug)
-    label = _text(raw.get("label", ""), "label")
-    clock = clock_for(_times(raw), raw.get("timezone"))
-    patient = _parse_patient(_need(raw, "patient", ""), clock, rules)
+    return str(drug)
+
+
+def _parse_rows(raw: dict[str, Any], clock: Clock) -> tuple[tuple[Dose, ...], tuple[Level, ...]]:
+    """The doses sorted by start and the levels by time (file order breaks ties)."""
     doses_raw = _need(raw, "doses", "")
     if not isinstance(doses_raw, list):
         raise InputError("doses", "expected a list (it may be empty)")
@@ -361,10 +266,12 @@ def parse_case(raw: object, data: bytes | None = None) -> Case:
     if not isinstance(levels_raw, list):
         raise InputError("levels", "expected a list")
     levels = tuple(sorted((_parse_level(r, i, clock) for i, r in enumerate(levels_raw)), key=lambda lv: (lv.time, lv.index)))
-    schedule = _parse_schedule(raw.get("schedule"))
-    target = _parse_target(raw.get("target"))
-    method = _choice(raw.get("method", "auto"), METHODS, "method")
-    parse_chosen(raw)  # checked here so a mistyped choice is named like any other field
+    return doses, levels
+
+
+def _as_of(raw: dict[str, Any], clock: Clock, patient: Patient, doses: tuple[Dose, ...],
+           levels: tuple[Level, ...]) -> tuple[float, bool]:
+    """(assessment time h, given in the file): ``as_of``, else the latest event; the span checked."""
     if "as_of" in raw:
         as_of, given = clock.parse(raw["as_of"], "as_of"), True
     else:
@@ -376,12 +283,7 @@ def parse_case(raw: object, data: bytes | None = None) -> Case:
     check_span([(f"doses[{d.index}].start", d.start) for d in doses] + [(f"levels[{lv.index}].time", lv.time) for lv in levels]
                + [(s.field.removesuffix(".value") + ".time", s.time) for s in patient.scr if s.time is not None]
                + [("as_of", as_of)])
-    from tdmtui.core.input.dialysis import parse_dialysis
-
-    dialysis = parse_dialysis(raw.get("dialysis"), clock, as_of, patient.renal_replacement, rules)
-    digest = hashlib.sha256(data if data is not None else canonical_bytes(raw)).hexdigest()
-    return Case(drug, label, as_of, given, clock, patient, doses, levels, schedule, target, method,
-                raw, digest, data is not None, _notices(raw, clock), dialysis)
+    return as_of, given
 
 
 #: Warning codes raised while reading a case.
@@ -416,120 +318,3 @@ def load_case(path: str | Path) -> Case:
     data = read_case_bytes(path)
     return parse_case(decode_json(data, str(path)), data)
 
-
-def write_atomic(path: str | Path, data: bytes, mode: int = 0o600) -> None:
-    """Write bytes atomically: temporary file in the same folder, fsync, rename.
-
-    The file is created with ``mode`` (0600: only the owner may read it).
-    A crash at any point leaves either the old file or the new one, whole.
-    """
-    p = Path(path)
-    fd, tmp = tempfile.mkstemp(prefix=f".{p.name}.", suffix=".tmp", dir=str(p.parent or "."))
-    try:
-        os.fchmod(fd, mode)
-        with os.fdopen(fd, "wb") as fh:
-            fh.write(data)
-            fh.flush()
-            os.fsync(fh.fileno())
-        os.replace(tmp, p)
-        remove_stale_temps(p)
-        try:
-            dfd = os.open(str(p.parent or "."), os.O_RDONLY)
-            try:
-                os.fsync(dfd)
-            finally:
-                os.close(dfd)
-        except OSError:
-            pass
-    except BaseException:
-        try:
-            os.unlink(tmp)
-        except OSError:
-            pass
-        raise
-
-
-#: A temporary file of an atomic write older than this was left by an interrupted save.
-STALE_TEMP_S = 120.0
-
-
-def remove_stale_temps(path: str | Path) -> int:
-    """Remove this user's temporary files of interrupted writes of ``path`` (``.NAME.*.tmp``); count them.
-
-    Only regular files owned by this user and older than :data:`STALE_TEMP_S`
-    (a write in progress takes milliseconds) are removed; links are never followed.
-    """
-    p = Path(path)
-    folder, prefix, removed = p.parent or Path("."), f".{p.name}.", 0
-    try:
-        names = [n for n in os.listdir(folder) if n.startswith(prefix) and n.endswith(".tmp")]
-    except OSError:
-        return 0
-    import time
-
-    now = time.time()
-    for name in names:
-        try:
-            info = os.lstat(folder / name)
-            if (stat.S_ISREG(info.st_mode) and info.st_uid == os.getuid()
-                    and now - info.st_mtime > STALE_TEMP_S):
-                os.unlink(folder / name)
-                removed += 1
-        except OSError:
-            continue
-    return removed
-
-
-def save_case(path: str | Path, raw: dict[str, Any]) -> str:
-    """Save a raw case object atomically with mode 0600; return the sha256 of what was written."""
-    data = canonical_bytes(raw)
-    write_atomic(path, data)
-    return hashlib.sha256(data).hexdigest()
-
-
-class SaveLockTimeout(Exception):
-    """Another session (perhaps another user's) held the folder's save lock too long."""
-
-
-#: How long a save waits for another session's save lock before giving up with a message.
-LOCK_WAIT_S = 5.0
-
-
-@contextlib.contextmanager
-def folder_lock(path: str | Path, wait_s: float | None = None) -> Iterator[None]:
-    """Hold an exclusive advisory lock on the folder of ``path`` (POSIX flock).
-
-    Two sessions saving into the same folder take turns, so a check of the
-    file's digest and the rename that follows it cannot be interleaved with
-    another session's save (where flock is not available it is a no-op).
-    A lock held longer than ``wait_s`` (another user may hold one on a shared
-    folder for ever) raises :class:`SaveLockTimeout` instead of freezing.
-    """
-    try:
-        import fcntl
-    except ImportError:  # pragma: no cover - not POSIX
-        yield
-        return
-    import time
-
-    folder = str(Path(path).resolve().parent)
-    fd = os.open(folder, os.O_RDONLY)
-    try:
-        deadline = time.monotonic() + (LOCK_WAIT_S if wait_s is None else wait_s)
-        while True:
-            try:
-                fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
-                break
-            except BlockingIOError:
-                if time.monotonic() >= deadline:
-                    raise SaveLockTimeout(
-                        f"another session is holding the save lock of {folder} (waited "
-                        f"{LOCK_WAIT_S if wait_s is None else wait_s:g} s); nothing was written: try again, "
-                        "or save under another folder") from None
-                time.sleep(0.05)
-        yield
-    finally:
-        try:
-            fcntl.flock(fd, fcntl.LOCK_UN)
-        finally:
-            os.close(fd)

@@ -36,7 +36,7 @@ from typing import TYPE_CHECKING, Any
 from tdmtui.core.errors import InputError
 
 if TYPE_CHECKING:
-    from tdmtui.core.input.case import Case, Level
+    from tdmtui.core.input.casetypes import Case, Level
     from tdmtui.core.input.clock import Clock
     from tdmtui.core.library import Rules
 

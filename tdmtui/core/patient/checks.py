@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from tdmtui.core.alerts import Alert
-from tdmtui.core.input.case import Case
+from tdmtui.core.input.casetypes import Case
 from tdmtui.core.errors import InputError
 from tdmtui.core.library import Rules
 

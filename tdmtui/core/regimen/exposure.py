@@ -42,7 +42,7 @@ from typing import TYPE_CHECKING
 from tdmtui.core.alerts import Alert
 
 if TYPE_CHECKING:
-    from tdmtui.core.input.case import Level
+    from tdmtui.core.input.casetypes import Level
     from tdmtui.core.estimation.context import MethodContext
     from tdmtui.core.estimation.estimates import Estimate
     from tdmtui.core.library import Rules

@@ -34,7 +34,7 @@ import numpy as np
 from tdmtui.core.alerts import Alert
 
 if TYPE_CHECKING:
-    from tdmtui.core.input.case import Dose, Level
+    from tdmtui.core.input.casetypes import Dose, Level
     from tdmtui.core.library import Rules
 
 LINES = (("q24", 24.0), ("q36", 36.0), ("q48", 48.0))

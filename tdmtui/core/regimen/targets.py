@@ -26,7 +26,7 @@ from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
 
 if TYPE_CHECKING:
-    from tdmtui.core.input.case import Target
+    from tdmtui.core.input.casetypes import Target
     from tdmtui.core.library import Rules
 
 MODES = ("auc", "peak-trough", "extended", "continuous")

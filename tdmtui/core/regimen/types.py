@@ -16,7 +16,7 @@ if TYPE_CHECKING:
     import numpy as np
 
     from tdmtui.core.alerts import Alert
-    from tdmtui.core.input.case import Dose, Level, Target
+    from tdmtui.core.input.casetypes import Dose, Level, Target
     from tdmtui.core.input.clock import Clock
     from tdmtui.core.library import Rules
     from tdmtui.core.models import DoseArrays, PKParams

@@ -35,7 +35,7 @@ from tdmtui.core.text import numfmt
 from tdmtui.core.models import DoseArrays, PKParams, concentration
 
 if TYPE_CHECKING:
-    from tdmtui.core.input.case import Case
+    from tdmtui.core.input.casetypes import Case
 
 WIDTH = 80
 

@@ -6,7 +6,7 @@ from typing import Any
 
 from textual.binding import Binding
 
-from tdmtui.core.input.case import DOSE_KINDS, TIMINGS
+from tdmtui.core.input.casetypes import DOSE_KINDS, TIMINGS
 from tdmtui.core.errors import InputError
 from tdmtui.core.input.timeentry import repeat_rows
 from tdmtui.core.input.units import parse_quantity

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from typing import Any
 
-from tdmtui.core.input.case import TIMINGS
+from tdmtui.core.input.casetypes import TIMINGS
 from tdmtui.ui.entry import Entry
 from tdmtui.ui.formatting import short_time
 from tdmtui.ui.sections.rows import RowsSection

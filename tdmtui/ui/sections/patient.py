@@ -9,7 +9,7 @@ from textual.app import ComposeResult
 from textual.containers import VerticalScroll
 from textual.widgets import Input, Label
 
-from tdmtui.core.input.case import METHODS, RENAL_REPLACEMENT, SEXES
+from tdmtui.core.input.casetypes import METHODS, RENAL_REPLACEMENT, SEXES
 from tdmtui.core.errors import InputError
 from tdmtui.core.library import DRUGS
 from tdmtui.ui import formatting as fm
