@@ -34,7 +34,7 @@ def test_core_module_imports_no_ui(module):
 
 
 def test_case_loading_path_needs_no_scipy_or_pint():
-    loaded = _loaded_after("import tdmtui.core.input.case, tdmtui.core.patient.body, tdmtui.core.input.units")
+    loaded = _loaded_after("import tdmtui.core.input.case, tdmtui.core.patient.renal, tdmtui.core.input.units")
     assert "scipy" not in loaded
     assert "pint" not in loaded
 

@@ -47,7 +47,7 @@ from tdmtui.core.errors import NoEstimateError
 from tdmtui.core.estimation.estimates import Estimate
 from tdmtui.core.library import LIBRARY_VERSION, Protocol, Rules, library_digest
 from tdmtui.core.models import DoseArrays, PKParams
-from tdmtui.core.patient.body import RenalSummary, renal_summary
+from tdmtui.core.patient.renal import RenalSummary, renal_summary
 from tdmtui.core.estimation.sensitivity import timing_sensitivity
 from tdmtui.core.estimation.working import WorkingStep
 

@@ -13,7 +13,7 @@ from casedata import SAMPLES, base_case
 from tdmtui.core.compute import compute_raw
 from tdmtui.core.errors import InputError
 from tdmtui.core.library import Rules, protocol_from_tree
-from tdmtui.core.patient.body import cockcroft_gault, renal_summary
+from tdmtui.core.patient.renal import cockcroft_gault, renal_summary
 
 
 def _codes(out):

@@ -12,20 +12,9 @@ import pytest
 
 from tdmtui.core.errors import InputError
 from tdmtui.core.library import Rules, load_protocol
-from tdmtui.core.patient.body import (
-    adjusted_weight,
-    bmi,
-    bsa_dubois,
-    bsa_mosteller,
-    ckd_epi_2021,
-    cockcroft_gault,
-    crcl_weight,
-    deindex_egfr,
-    dosing_weight,
-    ibw_devine,
-    lbw_janmahasatian,
-    renal_summary,
-)
+from tdmtui.core.patient.body import (adjusted_weight, bmi, bsa_dubois, bsa_mosteller, crcl_weight, dosing_weight,
+                                      ibw_devine, lbw_janmahasatian)
+from tdmtui.core.patient.renal import ckd_epi_2021, cockcroft_gault, deindex_egfr, renal_summary
 from tdmtui.core.input.units import parse_quantity
 
 # pk-sources.md W1: female, 68 y, 165 cm, TBW 92 kg, SCr 1.1 mg/dL

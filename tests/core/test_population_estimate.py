@@ -6,7 +6,7 @@ import pytest
 
 from tdmtui.core.estimation.estimates import textbook_population
 from tdmtui.core.library import Rules
-from tdmtui.core.patient.body import cockcroft_gault
+from tdmtui.core.patient.renal import cockcroft_gault
 
 
 def test_w2_aminoglycoside_initial_estimate_textbook_patient():

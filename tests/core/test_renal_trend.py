@@ -10,7 +10,7 @@ from __future__ import annotations
 import pytest
 
 from tdmtui.core.library import Rules, protocol_from_tree
-from tdmtui.core.patient.body import renal_summary
+from tdmtui.core.patient.renal import renal_summary
 
 
 def _unstable(series, rules=None):

@@ -37,7 +37,7 @@ from tdmtui.core.input.casetypes import Case
 from tdmtui.core.compute import compute, compute_raw
 from tdmtui.core.errors import InputError, NoEstimateError
 from tdmtui.core.library import Rules
-from tdmtui.core.patient.body import renal_summary
+from tdmtui.core.patient.renal import renal_summary
 
 SEED = 20260301
 N_MUTATED = 10_000

@@ -14,7 +14,7 @@ from tdmtui.core.input.casetypes import Case, Level
 from tdmtui.core.course.history import CurrentRegimen
 from tdmtui.core.library import Rules
 from tdmtui.core.models import DoseArrays
-from tdmtui.core.patient.body import RenalSummary
+from tdmtui.core.patient.renal import RenalSummary
 
 if TYPE_CHECKING:
     from tdmtui.core.regimen.targets import Targets

@@ -63,7 +63,7 @@ from tdmtui.core.alerts import Alert
 from tdmtui.core.errors import InputError, NoEstimateError
 from tdmtui.core.models import PKParams
 from tdmtui.core.input.units import UMOL_PER_MG_DL
-from tdmtui.core.patient.body import cockcroft_gault
+from tdmtui.core.patient.renal import cockcroft_gault
 
 PARAMS_1 = ("cl", "v1")
 PARAMS_2 = ("cl", "v1", "q", "v2")

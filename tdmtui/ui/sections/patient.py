@@ -100,7 +100,7 @@ def derived_text(raw: dict[str, Any], protocol: Any = None) -> tuple[str, str, f
     CrCl here is the engine's.
     """
     from tdmtui.core.library import Rules
-    from tdmtui.core.patient.body import renal_summary
+    from tdmtui.core.patient.renal import renal_summary
     from tdmtui.core.input.units import parse_quantity
 
     p = raw.get("patient") if isinstance(raw.get("patient"), dict) else {}
