@@ -18,7 +18,8 @@ from tdmtui.core.input.case import parse_case
 from tdmtui.core.compute import compute
 from tdmtui.core.errors import InputError
 from tdmtui.core.library import DRUGS, _drug_flat, load_protocol, never_exceed, protocol_from_tree
-from tdmtui.core.library.schema import SCHEMA, check_value
+from tdmtui.core.library.protocolcheck import check_value
+from tdmtui.core.library.schema import SCHEMA
 
 if sys.version_info >= (3, 11):
     import tomllib

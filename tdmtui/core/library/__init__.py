@@ -147,7 +147,8 @@ def protocol_from_tree(tree: dict[str, Any], sha256: str, default_name: str = "p
     Raises:
         InputError: naming the key (``protocol.<section>.<key>``).
     """
-    from tdmtui.core.library.schema import SECTIONS, check_section
+    from tdmtui.core.library.protocolcheck import check_section
+    from tdmtui.core.library.schema import SECTIONS
 
     tree = dict(tree)
     name = tree.pop("name", default_name)
