@@ -65,7 +65,7 @@ from tdmtui.core.estimation import bayes# noqa: E402
 from tdmtui.core.errors import TdmError  # noqa: E402
 from tdmtui.core.library import Rules  # noqa: E402
 from tdmtui.core.models import DoseArrays, PKParams  # noqa: E402
-from tdmtui.core.regimen.candidates import terminal_rate  # noqa: E402
+from tdmtui.core.regimen.steadystate import terminal_rate  # noqa: E402
 from tdmtui.core.estimation.popmodels import _build, get_model  # noqa: E402
 
 MODELS = ("vancomycin-thomson-2009", "vancomycin-goti-2018", "vancomycin-buelga-2005")

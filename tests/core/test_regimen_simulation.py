@@ -19,7 +19,7 @@ from scipy.integrate import solve_ivp
 from tdmtui.core.input.casetypes import Target
 from tdmtui.core.models import DoseArrays, PKParams, auc, concentration
 from tdmtui.core.regimen import CurrentRegimen, design
-from tdmtui.core.regimen.candidates import terminal_rate
+from tdmtui.core.regimen.steadystate import terminal_rate
 
 from regimen_cases import CLOCK, T0, inp, rules
 

@@ -11,7 +11,8 @@ from tdmtui.core.input.casetypes import Target
 from tdmtui.core.library import Rules
 from tdmtui.core.models import DoseArrays, PKParams, concentration
 from tdmtui.core.regimen import CurrentRegimen, design
-from tdmtui.core.regimen.candidates import evaluate, textbook_redesign
+from tdmtui.core.regimen.candidates import evaluate
+from tdmtui.core.regimen.steadystate import textbook_redesign
 from tdmtui.core.regimen.targets import resolve_targets
 
 from regimen_cases import CLOCK, T0, inp, rules

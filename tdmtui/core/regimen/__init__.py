@@ -20,7 +20,8 @@ at a draw time other than the end of infusion. ``loading_dose`` carries
 candidate table for the UI. Modules:
 
 * targets.py - targets per mode with their source.
-* candidates.py - the grid, steady-state figures, the documented choice rule.
+* candidates.py - candidates judged against the targets, the documented choice rule, posterior draws.
+* grid.py, steadystate.py - the practical dose and infusion-time grid; steady-state figures per mg.
 * handover.py - next dose, hold, 72 h forecast, next levels.
 * timing.py, wardclock.py, practice.py - the hand-over on the grid and ward hours, skipped doses, hold limit, intervals by half-life.
 * loading.py - new-start and top-up loading doses.

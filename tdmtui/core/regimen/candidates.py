@@ -1,18 +1,8 @@
-"""Candidate regimens: the dose grid x the interval set, judged against the targets.
+"""Candidate regimens: the dose grid x the interval set, judged against the targets, and the choice.
 
-Each candidate is a practical order: a dose on the rounding grid
-(``regimen.rounding_mg``), an interval from the interval set
-(``regimen.intervals_h``), and an infusion time no faster than the rate
-limit (``regimen.max_rate_mg_per_h``), no shorter than
-``regimen.min_infusion_h``, rounded up to ``regimen.infusion_step_h``. Doses
-above ``regimen.max_single_dose_mg`` or daily totals above
-``regimen.max_daily_dose_mg`` are never generated.
-
-Steady-state peak (end of infusion), trough (just before the next dose) and
-AUC24 come from the shared models (:func:`tdmtui.core.models.steady_state`,
-pk-sources.md 2.3); the peak at the target's draw time is the steady-state
-profile at that time (superposition, pk-sources.md 2.2). All are linear in
-the dose, so each (interval, infusion time) pair is evaluated once per mg.
+The candidates are practical orders on the grid of :mod:`tdmtui.core.regimen.grid`
+(doses on the rounding grid under the caps, infusion times within the rate
+limit); their steady-state figures come from :mod:`tdmtui.core.regimen.steadystate`.
 
 Choice rule (documented for the note):
     1. A candidate is on target when its judged figure is inside the band:
@@ -55,7 +45,9 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from tdmtui.core.models import DoseArrays, PKParams, concentration, steady_state
+from tdmtui.core.models import PKParams
+from tdmtui.core.regimen.grid import dose_grid, infusion_time
+from tdmtui.core.regimen.steadystate import unit_values
 
 if TYPE_CHECKING:
     from tdmtui.core.library import Rules
@@ -123,60 +115,6 @@ class Candidate:
                 "peak_mg_per_l": self.peak, "trough_mg_per_l": self.trough,
                 "auc24_mg_h_per_l": self.auc24, "peak_at_reference_mg_per_l": self.peak_ref,
                 "on_target": self.on_target, "distance": self.distance, "probability": self.probability}
-
-
-def infusion_time(dose: float, rules: Rules, keep_h: float | None = None) -> float:
-    """Infusion time, h: the rate limit and the minimum time, rounded up to the step.
-
-    ``max(min_infusion_h, dose / max_rate)`` rounded up to ``infusion_step_h``
-    (rate 0 = no limit). Vancomycin: no faster than 1 g/h (pk-sources.md 3.1).
-    ``keep_h`` (the patient's own infusion time) replaces the minimum time; the rate limit still holds.
-    """
-    t = float(rules.value("regimen.min_infusion_h")) if keep_h is None else float(keep_h)
-    rate = float(rules.value("regimen.max_rate_mg_per_h"))
-    if rate > 0:
-        t = max(t, dose / rate)
-    step = float(rules.value("regimen.infusion_step_h"))
-    if step > 0:
-        t = math.ceil(t / step - 1e-9) * step
-    return t
-
-
-def dose_grid(rules: Rules, interval: float) -> np.ndarray:
-    """Doses on the rounding grid under the single and daily caps, mg."""
-    step = float(rules.value("regimen.rounding_mg"))
-    top = float(rules.value("regimen.max_single_dose_mg"))
-    top = min(top, float(rules.value("regimen.max_daily_dose_mg")) * interval / 24.0)
-    n = int(math.floor(top / step + 1e-9))
-    return step * np.arange(1, n + 1, dtype=float)
-
-
-def terminal_rate(params: PKParams) -> float:
-    """Slowest disposition rate constant, 1/h (ke, or beta for two compartments)."""
-    if params.is_two_compartment:
-        from tdmtui.core.models.twocomp import macro_constants
-
-        return float(macro_constants(params.cl, params.v1, params.q, params.v2)[1])
-    return params.ke
-
-
-def ss_at(params: PKParams, dose: float, tau: float, tinf: float, u: float | np.ndarray) -> np.ndarray:
-    """Steady-state concentration ``u`` h after the start of a dose (0 <= u <= tau), mg/L.
-
-    Superposition (pk-sources.md 2.2) of the dose at 0 and every earlier dose
-    back until the terminal exponential has decayed by e^-25.
-    """
-    n = int(math.ceil(25.0 / (terminal_rate(params) * tau))) + 1
-    starts = -tau * np.arange(n - 1, -1, -1, dtype=float)
-    hist = DoseArrays(starts, np.full(n, float(tinf)), np.full(n, float(dose)))
-    return concentration(params, hist, np.asarray(u, dtype=float))
-
-
-def unit_values(params: PKParams, tau: float, tinf: float, t_ref: float) -> tuple[float, float, float, float]:
-    """(peak, trough, auc24, peak at t_ref) of 1 mg every tau h over tinf h."""
-    ss = steady_state(params, 1.0, tau, tinf)
-    ref = ss.peak if abs(t_ref - tinf) < 1e-12 else float(ss_at(params, 1.0, tau, tinf, t_ref))
-    return ss.peak, ss.trough, ss.auc24, ref
 
 
 def judge(targets: Targets, peak_ref: np.ndarray, trough: np.ndarray, auc24: np.ndarray,
@@ -384,22 +322,3 @@ def table_probabilities(cands: list[Candidate], samples: Any, targets: Targets,
         d = c.dose_mg
         out.append(_share_on_target(targets, d * ref, d * tr, d * au, d, w))
     return out
-
-
-def textbook_redesign(ke: float, v: float, tinf: float, cmax: float, cmin: float,
-                      intervals: list[float], rounding: float) -> dict[str, float]:
-    """Textbook peak/trough redesign (pk-sources.md 2.4, Bauer's form).
-
-    tau = ln(Cmax/Cmin)/ke + t' (rounded to the nearest interval in the set);
-    k0 = Cmax ke V (1 - e^(-ke tau)) / (1 - e^(-ke t')); dose = k0 t' rounded
-    to the grid.
-
-    Returns:
-        ``tau_exact``, ``tau``, ``dose_exact`` (mg) and ``dose`` (mg).
-    """
-    tau_exact = math.log(cmax / cmin) / ke + tinf
-    tau = min(intervals, key=lambda x: (abs(x - tau_exact), x))
-    k0 = cmax * ke * v * -math.expm1(-ke * tau) / -math.expm1(-ke * tinf)
-    dose_exact = k0 * tinf
-    return {"tau_exact": tau_exact, "tau": float(tau), "dose_exact": dose_exact,
-            "dose": round(dose_exact / rounding) * rounding}

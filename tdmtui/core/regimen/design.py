@@ -32,8 +32,8 @@ import numpy as np
 from tdmtui.core.alerts import Alert
 from tdmtui.core.models import steady_state
 from tdmtui.core.regimen import continuous, handover, loading, nomogram, practice, timing, wardclock
-from tdmtui.core.regimen.candidates import (Candidate, choose, evaluate, infusion_time, judge, search,
-                                            table_probabilities, with_draws)
+from tdmtui.core.regimen.candidates import Candidate, choose, evaluate, judge, search, table_probabilities, with_draws
+from tdmtui.core.regimen.grid import infusion_time
 from tdmtui.core.regimen.extended import nomogram_plan
 from tdmtui.core.regimen.targets import Targets, resolve_targets
 from tdmtui.core.regimen.types import Plan, RegimenInput

@@ -68,7 +68,7 @@ def _grid(rules: Any) -> np.ndarray:
 def _choose(inp: RegimenInput, doses: DoseArrays, at: float, pre_t: float, band: tuple[float, float],
             sessions: list[tuple[float, float]], cl: float) -> tuple[float, float, float]:
     """(dose mg, infusion h, predicted pre-dialysis level) for the dose at ``at`` (module docstring)."""
-    from tdmtui.core.regimen.candidates import infusion_time
+    from tdmtui.core.regimen.grid import infusion_time
 
     assert inp.params is not None
     mid = 0.5 * (band[0] + band[1])

@@ -24,7 +24,7 @@ from typing import TYPE_CHECKING, Any
 from tdmtui.core.alerts import Alert, has_stop
 from tdmtui.core.regimen import handover, nomogram, wardclock
 from tdmtui.core.regimen.practice import kept_infusion
-from tdmtui.core.regimen.candidates import infusion_time
+from tdmtui.core.regimen.grid import infusion_time
 
 if TYPE_CHECKING:
     from tdmtui.core.regimen.targets import Targets
