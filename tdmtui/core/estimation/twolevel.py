@@ -154,6 +154,25 @@ def _steady_share(doses: list[Dose], dose: Dose, ke: float, tau: float | None) -
     return f / _steady_predose(dose, ke, tau), f, n
 
 
+_SZ = "sawchuk-zaske"
+
+
+@dataclass
+class _Interval:
+    """What the one-interval calculation found: ke 1/h, Cmax and the pre-dose level mg/L, and how.
+
+    ``f_hist``: the pre-dose concentration the history leaves with V = 1 L (mg/L x L), when the
+    pre-dose level is taken from the history (else 0).
+    """
+
+    ke: float
+    cmax: float
+    cpre: float
+    f_hist: float
+    assumption: str
+    used: list[int]
+
+
 def sawchuk_zaske(doses: list[Dose], levels: list[Level], tau: float | None,
                   steady_within: float | None = None, min_gap_h: float | None = None) -> TwoLevelResult:
     """Textbook one-interval Sawchuk-Zaske calculation (pk-sources.md 2.4).
@@ -169,116 +188,145 @@ def sawchuk_zaske(doses: list[Dose], levels: list[Level], tau: float | None,
         NoEstimateError: too few levels, no interval where one is needed, or
             levels not around a single dose.
     """
-    m = "sawchuk-zaske"
     if steady_within is None:  # the library's rule (a protocol's, when the caller passes its Rules' value)
         steady_within = common_number("monitoring.steady_state_within_rel")
     if len(levels) < 2:
-        raise NoEstimateError(m, f"needs two usable levels around one dose; {len(levels)} available")
+        raise NoEstimateError(_SZ, f"needs two usable levels around one dose; {len(levels)} available")
     a, b = levels[-2], levels[-1]
     gap = _gap(min_gap_h)
     if b.time - a.time < gap:
-        raise NoEstimateError(m, f"the two most recent usable levels are less than {gap * 60:.0f} min apart; "
-                                 "draw them further apart")
+        raise NoEstimateError(_SZ, f"the two most recent usable levels are less than {gap * 60:.0f} min apart; "
+                                   "draw them further apart")
+    da, db = _doses_before(doses, a, b)
+    steps: list[WorkingStep] = []
+    if da is db:
+        iv = _after_one_dose(doses, levels, db, tau, steady_within, steps)
+    else:
+        iv = _trough_then_peak(doses, a, b, da, db, tau, gap, steady_within, steps)
+    v, eq, sub = _volume(db, iv)
+    if not (v > 0 and math.isfinite(v)):
+        raise NoEstimateError(_SZ, "the levels give no positive volume (the peak is not above the pre-dose level)")
+    ke = iv.ke
+    steps.append(WorkingStep("Volume", eq, sub, f"{v:.4g} L", _SZ))
+    steps.append(WorkingStep("Clearance", "CL = ke x V", f"{ke:.4g} x {v:.4g}", f"{ke * v:.4g} L/h", _SZ))
+    return TwoLevelResult(_SZ, PKParams.one_compartment(ke, v), iv.used, steps, iv.assumption)
+
+
+def _doses_before(doses: list[Dose], a: Level, b: Level) -> tuple[Dose | None, Dose]:
+    """The doses before each of the two levels; neither level drawn during an infusion."""
     da, db = _dose_before(doses, a.time), _dose_before(doses, b.time)
     if db is None:
-        raise NoEstimateError(m, "the later level precedes every dose")
+        raise NoEstimateError(_SZ, "the later level precedes every dose")
     for lv, d in ((a, da), (b, db)):
         if d is not None and lv.time < d.end:
-            raise NoEstimateError(m, f"levels[{lv.index}] was drawn during an infusion (a continuous one): "
-                                     "Sawchuk-Zaske needs levels after the end of an infusion; the two-level "
-                                     "(whole-history) and Bayesian fits use it")
-    steps: list[WorkingStep] = []
-    dose = db
+            raise NoEstimateError(_SZ, f"levels[{lv.index}] was drawn during an infusion (a continuous one): "
+                                       "Sawchuk-Zaske needs levels after the end of an infusion; the two-level "
+                                       "(whole-history) and Bayesian fits use it")
+    return da, db
+
+
+def _after_one_dose(doses: list[Dose], levels: list[Level], dose: Dose, tau: float | None, steady_within: float,
+                    steps: list[WorkingStep]) -> _Interval:
+    """Both levels after the same dose: ke from their slope, Cmax back-extrapolated, then the pre-dose level."""
+    a, b = levels[-2], levels[-1]
+    ke = math.log(a.conc / b.conc) / (b.time - a.time)
+    if ke <= 0:
+        raise NoEstimateError(_SZ, "the later level is not lower than the earlier one after the same dose")
+    steps.append(WorkingStep("Elimination rate", "ke = ln(C1/C2) / (t2 - t1)",
+                             f"ln({a.conc:g}/{b.conc:g}) / {b.time - a.time:.3g} h", f"{ke:.4g} /h", _SZ))
+    cmax = a.conc * math.exp(ke * (a.time - dose.end))
+    steps.append(WorkingStep("Peak at end of infusion", "Cmax = C1 e^(ke (t1 - t'))",
+                             f"{a.conc:g} x e^({ke:.4g} x {a.time - dose.end:.3g})", f"{cmax:.4g} mg/L", _SZ))
+    p = _measured_predose(doses, levels, dose)
+    if p is not None:
+        cpre = p.conc * math.exp(-ke * (dose.start - p.time))
+        steps.append(WorkingStep("Pre-dose level", "Cpre = Cmeasured e^(-ke (start - t_drawn))",
+                                 f"{p.conc:g} x e^(-{ke:.4g} x {dose.start - p.time:.3g})", f"{cpre:.4g} mg/L", _SZ))
+        return _Interval(ke, cmax, cpre, 0.0, f"measured pre-dose level {p.conc:g} mg/L (levels[{p.index}])",
+                         [p.index, a.index, b.index])
+    return _predose_from_history(doses, dose, ke, cmax, tau, steady_within, [a.index, b.index], steps)
+
+
+def _measured_predose(doses: list[Dose], levels: list[Level], dose: Dose) -> Level | None:
+    """The latest usable level in the interval before ``dose`` (not during an infusion), or None."""
+    prev = [lv for lv in levels[:-2] if lv.time < dose.start and ((d := _dose_before(doses, lv.time)) is None or
+                                                                 d.end <= lv.time)]
+    earlier = _dose_before(doses, dose.start - 1e-9)
+    prev = [lv for lv in prev if earlier is None or lv.time > earlier.start]
+    return prev[-1] if prev else None
+
+
+def _predose_from_history(doses: list[Dose], dose: Dose, ke: float, cmax: float, tau: float | None,
+                          steady_within: float, used: list[int], steps: list[WorkingStep]) -> _Interval:
+    """No measured pre-dose level: steady state when the history shows it, else the history's accumulation."""
+    share, f_hist, n_before = _steady_share(doses, dose, ke, tau)
+    if share is not None and tau is not None and abs(share - 1.0) <= steady_within:
+        cpre = cmax * math.exp(-ke * (tau - dose.duration))
+        steps.append(WorkingStep("Trough (steady state)", "Cmin = Cmax e^(-ke (tau - t'))",
+                                 f"{cmax:.4g} x e^(-{ke:.4g} x {tau - dose.duration:.3g}); history at "
+                                 f"{share:.0%} of steady state", f"{cpre:.4g} mg/L", _SZ))
+        return _Interval(ke, cmax, cpre, 0.0, f"steady state on a {tau:g} h interval (the {n_before} earlier doses "
+                         f"put the pre-dose level at {share:.0%} of its steady-state value)", used)
+    state = "" if share is None else f", {share:.0%} of steady state"
+    assumption = ("first dose: no drug on board before it" if n_before == 0 else
+                  f"not at steady state{state}: pre-dose level accumulated from the {n_before} earlier "
+                  "dose(s) in the history")
+    steps.append(WorkingStep("Pre-dose level (from the history)",
+                             "Cpre = f / V, f = earlier doses superposed at the dose start with V = 1 L",
+                             f"{n_before} earlier dose(s), ke {ke:.4g} /h", f"f = {f_hist:.4g} mg/L x L", _SZ))
+    return _Interval(ke, cmax, 0.0, f_hist, assumption, used)
+
+
+def _trough_then_peak(doses: list[Dose], a: Level, b: Level, da: Dose | None, db: Dose, tau: float | None,
+                      gap: float, steady_within: float, steps: list[WorkingStep]) -> _Interval:
+    """A trough ``a`` before dose ``db`` and a peak ``b`` after it: ke by the steady-state assumption."""
+    if tau is None:
+        raise NoEstimateError(_SZ, "a trough before the dose and a peak after it need the current interval (steady state)")
+    if not (da is None or da.end <= a.time) or a.time > db.start:
+        raise NoEstimateError(_SZ, "the two levels are not a trough before one dose and a peak after it")
+    delta = db.start - a.time
+    t_equiv = db.start + tau - delta
+    if t_equiv - b.time < gap:
+        raise NoEstimateError(_SZ, "the peak is drawn where the trough would recur at steady state "
+                                   f"({tau:g} h interval): the two levels carry no elimination information")
+    ke = math.log(b.conc / a.conc) / (t_equiv - b.time)
+    if ke <= 0:
+        raise NoEstimateError(_SZ, "the peak is not above the trough")
+    share, _, n_before = _steady_share(doses, db, ke, tau)
+    if share is None or abs(share - 1.0) > steady_within:
+        raise NoEstimateError(_SZ, f"levels[{a.index}] (trough before the dose) and levels[{b.index}] (peak after it) "
+                                   "give ke only at steady state, and the history is not at steady state"
+                                   + ("" if share is None else f" ({share:.0%} of it after {n_before} doses)")
+                                   + ": use the two-level (whole-history) estimate")
+    steps.append(WorkingStep("Elimination rate (steady state)", "ke = ln(Cpeak/Ctrough) / ((tau - dt_trough) - t_peak)",
+                             f"ln({b.conc:g}/{a.conc:g}) / ({tau:g} - {delta:.3g} - {b.time - db.start:.3g})",
+                             f"{ke:.4g} /h", _SZ))
+    cmax = b.conc * math.exp(ke * (b.time - db.end))
+    steps.append(WorkingStep("Peak at end of infusion", "Cmax = Cpeak e^(ke (t_peak - t'))",
+                             f"{b.conc:g} x e^({ke:.4g} x {b.time - db.end:.3g})", f"{cmax:.4g} mg/L", _SZ))
+    cpre = a.conc * math.exp(-ke * delta)
+    steps.append(WorkingStep("Trough at dose start", "Cmin = Ctrough e^(-ke dt)",
+                             f"{a.conc:g} x e^(-{ke:.4g} x {delta:.3g})", f"{cpre:.4g} mg/L", _SZ))
+    return _Interval(ke, cmax, cpre, 0.0, f"steady state on a {tau:g} h interval (trough before the dose)",
+                     [a.index, b.index])
+
+
+def _volume(dose: Dose, iv: _Interval) -> tuple[float, str, str]:
+    """(V L, equation, numbers): the infusion equation with the pre-dose level measured, assumed or accumulated."""
+    ke, cmax, cpre, f_hist, tp = iv.ke, iv.cmax, iv.cpre, iv.f_hist, dose.duration
     k0 = dose.amount / dose.duration if dose.duration > 0 else math.inf
-    if da is db:
-        ke = math.log(a.conc / b.conc) / (b.time - a.time)
-        if ke <= 0:
-            raise NoEstimateError(m, "the later level is not lower than the earlier one after the same dose")
-        steps.append(WorkingStep("Elimination rate", "ke = ln(C1/C2) / (t2 - t1)",
-                                 f"ln({a.conc:g}/{b.conc:g}) / {b.time - a.time:.3g} h", f"{ke:.4g} /h", m))
-        cmax = a.conc * math.exp(ke * (a.time - dose.end))
-        steps.append(WorkingStep("Peak at end of infusion", "Cmax = C1 e^(ke (t1 - t'))",
-                                 f"{a.conc:g} x e^({ke:.4g} x {a.time - dose.end:.3g})", f"{cmax:.4g} mg/L", m))
-        prev = [lv for lv in levels[:-2] if lv.time < dose.start and ((d := _dose_before(doses, lv.time)) is None or
-                                                                     d.end <= lv.time)]
-        earlier = _dose_before(doses, dose.start - 1e-9)
-        prev = [lv for lv in prev if earlier is None or lv.time > earlier.start]
-        f_hist = 0.0
-        if prev:
-            p = prev[-1]
-            cpre = p.conc * math.exp(-ke * (dose.start - p.time))
-            assumption = f"measured pre-dose level {p.conc:g} mg/L (levels[{p.index}])"
-            steps.append(WorkingStep("Pre-dose level", "Cpre = Cmeasured e^(-ke (start - t_drawn))",
-                                     f"{p.conc:g} x e^(-{ke:.4g} x {dose.start - p.time:.3g})", f"{cpre:.4g} mg/L", m))
-            used = [p.index, a.index, b.index]
-        else:
-            share, f_hist, n_before = _steady_share(doses, dose, ke, tau)
-            used = [a.index, b.index]
-            if share is not None and tau is not None and abs(share - 1.0) <= steady_within:
-                cpre = cmax * math.exp(-ke * (tau - dose.duration))
-                f_hist = 0.0
-                assumption = (f"steady state on a {tau:g} h interval (the {n_before} earlier doses put the pre-dose "
-                              f"level at {share:.0%} of its steady-state value)")
-                steps.append(WorkingStep("Trough (steady state)", "Cmin = Cmax e^(-ke (tau - t'))",
-                                         f"{cmax:.4g} x e^(-{ke:.4g} x {tau - dose.duration:.3g}); history at "
-                                         f"{share:.0%} of steady state", f"{cpre:.4g} mg/L", m))
-            else:
-                cpre = 0.0
-                state = "" if share is None else f", {share:.0%} of steady state"
-                assumption = ("first dose: no drug on board before it" if n_before == 0 else
-                              f"not at steady state{state}: pre-dose level accumulated from the {n_before} earlier "
-                              "dose(s) in the history")
-                steps.append(WorkingStep("Pre-dose level (from the history)",
-                                         "Cpre = f / V, f = earlier doses superposed at the dose start with V = 1 L",
-                                         f"{n_before} earlier dose(s), ke {ke:.4g} /h", f"f = {f_hist:.4g} mg/L x L", m))
-    else:
-        # trough a before dose db, peak b after it; steady-state assumption
-        f_hist = 0.0
-        if tau is None:
-            raise NoEstimateError(m, "a trough before the dose and a peak after it need the current interval (steady state)")
-        if not (da is None or da.end <= a.time) or a.time > db.start:
-            raise NoEstimateError(m, "the two levels are not a trough before one dose and a peak after it")
-        delta = db.start - a.time
-        t_equiv = db.start + tau - delta
-        if t_equiv - b.time < gap:
-            raise NoEstimateError(m, "the peak is drawn where the trough would recur at steady state "
-                                     f"({tau:g} h interval): the two levels carry no elimination information")
-        ke = math.log(b.conc / a.conc) / (t_equiv - b.time)
-        if ke <= 0:
-            raise NoEstimateError(m, "the peak is not above the trough")
-        share, _, n_before = _steady_share(doses, db, ke, tau)
-        if share is None or abs(share - 1.0) > steady_within:
-            raise NoEstimateError(m, f"levels[{a.index}] (trough before the dose) and levels[{b.index}] (peak after it) "
-                                     "give ke only at steady state, and the history is not at steady state"
-                                     + ("" if share is None else f" ({share:.0%} of it after {n_before} doses)")
-                                     + ": use the two-level (whole-history) estimate")
-        steps.append(WorkingStep("Elimination rate (steady state)", "ke = ln(Cpeak/Ctrough) / ((tau - dt_trough) - t_peak)",
-                                 f"ln({b.conc:g}/{a.conc:g}) / ({tau:g} - {delta:.3g} - {b.time - db.start:.3g})", f"{ke:.4g} /h", m))
-        cmax = b.conc * math.exp(ke * (b.time - dose.end))
-        steps.append(WorkingStep("Peak at end of infusion", "Cmax = Cpeak e^(ke (t_peak - t'))",
-                                 f"{b.conc:g} x e^({ke:.4g} x {b.time - dose.end:.3g})", f"{cmax:.4g} mg/L", m))
-        cpre = a.conc * math.exp(-ke * delta)
-        assumption = f"steady state on a {tau:g} h interval (trough before the dose)"
-        steps.append(WorkingStep("Trough at dose start", "Cmin = Ctrough e^(-ke dt)", f"{a.conc:g} x e^(-{ke:.4g} x {delta:.3g})",
-                                 f"{cpre:.4g} mg/L", m))
-        used = [a.index, b.index]
-    tp = dose.duration
     if f_hist > 0 and tp > 0:
         v = (k0 * (1 - math.exp(-ke * tp)) + ke * f_hist * math.exp(-ke * tp)) / (ke * cmax)
-        eq = "V = [k0 (1 - e^(-ke t')) + ke f e^(-ke t')] / (ke Cmax)   (Cpre = f / V)"
-        sub = f"[{k0:.4g} x (1 - e^(-{ke:.4g} x {tp:g})) + {ke:.4g} x {f_hist:.4g} x e^(-{ke:.4g} x {tp:g})] / ({ke:.4g} x {cmax:.4g})"
-    elif f_hist > 0:
+        return (v, "V = [k0 (1 - e^(-ke t')) + ke f e^(-ke t')] / (ke Cmax)   (Cpre = f / V)",
+                f"[{k0:.4g} x (1 - e^(-{ke:.4g} x {tp:g})) + {ke:.4g} x {f_hist:.4g} x e^(-{ke:.4g} x {tp:g})] / "
+                f"({ke:.4g} x {cmax:.4g})")
+    if f_hist > 0:
         v = (dose.amount + f_hist) / cmax
-        eq, sub = "V = (D + f) / Cmax   (Cpre = f / V)", f"({dose.amount:g} + {f_hist:.4g}) / {cmax:.4g}"
-    elif tp > 0:
+        return v, "V = (D + f) / Cmax   (Cpre = f / V)", f"({dose.amount:g} + {f_hist:.4g}) / {cmax:.4g}"
+    if tp > 0:
         v = k0 * (1 - math.exp(-ke * tp)) / (ke * (cmax - cpre * math.exp(-ke * tp)))
-        eq = "V = k0 (1 - e^(-ke t')) / (ke [Cmax - Cmin e^(-ke t')])"
-        sub = f"{k0:.4g} x (1 - e^(-{ke:.4g} x {tp:g})) / ({ke:.4g} x [{cmax:.4g} - {cpre:.4g} x e^(-{ke:.4g} x {tp:g})])"
-    else:
-        v = dose.amount / (cmax - cpre)
-        eq, sub = "V = D / (Cmax - Cmin)", f"{dose.amount:g} / ({cmax:.4g} - {cpre:.4g})"
-    if not (v > 0 and math.isfinite(v)):
-        raise NoEstimateError(m, "the levels give no positive volume (the peak is not above the pre-dose level)")
-    steps.append(WorkingStep("Volume", eq, sub, f"{v:.4g} L", m))
-    steps.append(WorkingStep("Clearance", "CL = ke x V", f"{ke:.4g} x {v:.4g}", f"{ke * v:.4g} L/h", m))
-    return TwoLevelResult(m, PKParams.one_compartment(ke, v), used, steps, assumption)
+        return (v, "V = k0 (1 - e^(-ke t')) / (ke [Cmax - Cmin e^(-ke t')])",
+                f"{k0:.4g} x (1 - e^(-{ke:.4g} x {tp:g})) / ({ke:.4g} x [{cmax:.4g} - {cpre:.4g} x "
+                f"e^(-{ke:.4g} x {tp:g})])")
+    v = dose.amount / (cmax - cpre)
+    return v, "V = D / (Cmax - Cmin)", f"{dose.amount:g} / ({cmax:.4g} - {cpre:.4g})"
