@@ -24,7 +24,6 @@ of the first dose, which then moves one interval on).
 
 from __future__ import annotations
 
-import math
 from typing import Any
 
 import numpy as np
@@ -33,7 +32,6 @@ from tdmtui.core.alerts import Alert
 from tdmtui.core.models import steady_state
 from tdmtui.core.regimen import continuous, handover, loading, nomogram, practice, timing, wardclock
 from tdmtui.core.regimen.candidates import Candidate, choose, evaluate, judge, search, table_probabilities, with_draws
-from tdmtui.core.regimen.grid import infusion_time
 from tdmtui.core.regimen.extended import nomogram_plan
 from tdmtui.core.regimen.targets import Targets, resolve_targets
 from tdmtui.core.regimen.types import Plan, RegimenInput
@@ -196,13 +194,53 @@ def search_candidates(inp: RegimenInput, targets: Targets, mode: str) -> list[Ca
 def finish(inp: RegimenInput, targets: Targets, mode: str, plan: Plan, cands: list[Candidate],
            fixed: Candidate | None = None, extra: dict[str, Any] | None = None) -> Plan:
     """Choose, hand over, load and forecast; fill ``plan``."""
-    rules, params, alerts = inp.rules, inp.params, plan.alerts
-    assert params is not None
+    assert inp.params is not None
+    _candidate_table(inp, targets, mode, plan, cands)
+    current = _current(inp, targets, mode)
+    picked = _pick(inp, targets, mode, cands, fixed, current, plan.alerts)
+    if picked is None:
+        return plan
+    chosen, alts, continuing = picked
+    _standing_order_alerts(inp, current, continuing, plan.alerts)
+    _cap_alert(inp, targets, chosen, plan.alerts)
+    if inp.samples:
+        dref = _dose_ref(inp, mode)
+        chosen = with_draws(chosen, inp.samples, targets, dref)
+        alts = [with_draws(a, inp.samples, targets, dref) for a in alts]
+    reg, first, nearer = _regimen(inp, targets, mode, chosen, alts, current, continuing, extra)
+    load = loading.proposed(inp, targets, mode, chosen, continuing, reg["hold_until"] is not None, first, plan.alerts)
+    if load is not None:
+        first = _with_loading(inp, targets, mode, chosen, reg, load)
+    until = inp.as_of + handover.FORECAST_H
+    ld_tuple = (load[0], load[1].dose_mg, load[2]) if load is not None else None
+    plan.doses = handover.proposed_doses(first, chosen.dose_mg, chosen.interval_h, chosen.infusion_h, until, ld_tuple)
+    times, conc, aucs = handover.forecast(inp.params, inp.history, plan.doses, inp.as_of)
+    plan.forecast = (times, conc)
+    reg["forecast_auc"] = {"from": inp.clock.format(inp.as_of), **aucs}
+    if load is None:
+        timing.alignment_gap(inp, targets, chosen, reg, first, nearer, aucs["day1_mg_h_per_l"], plan.alerts)
+    reg["choice_rule"] = ("continue: the standing order is predicted on target" if continuing else
+                          "practical candidate on target nearest the middle of the band, at intervals the half-life "
+                          "allows, at the current interval only where a dose there lands near the middle "
+                          "(extended-interval: the shortest interval on target); ties to fewer doses a day "
+                          "(regimen/candidates.py)")
+    plan.regimen = reg
+    return plan
+
+
+def _candidate_table(inp: RegimenInput, targets: Targets, mode: str, plan: Plan, cands: list[Candidate]) -> None:
+    """The candidate table for the app, each row's probability of target where there are posterior draws."""
     plan.candidates = [c.to_dict() for c in cands]
     if inp.samples is not None and len(inp.samples):
         for row, prob in zip(plan.candidates, table_probabilities(cands, inp.samples, targets, _dose_ref(inp, mode))):
             row["probability"] = prob
-    current = _current(inp, targets, mode)
+
+
+def _pick(inp: RegimenInput, targets: Targets, mode: str, cands: list[Candidate], fixed: Candidate | None,
+          current: Candidate | None, alerts: list[Alert]) -> tuple[Candidate, list[Candidate], bool] | None:
+    """(chosen, alternatives, continuing the standing order), or None when no candidate exists (said why)."""
+    rules, params = inp.rules, inp.params
+    assert params is not None
     tie = float(rules.value("regimen.choice_tie_rel"))
     banded = bool(targets.auc24 or targets.peak)
     keep = inp.current.interval_h if inp.current and mode != "extended" else None
@@ -210,41 +248,44 @@ def finish(inp: RegimenInput, targets: Targets, mode: str, plan: Plan, cands: li
                         shortest_first=mode == "extended" and banded, interval_band=practice.interval_band(rules, params, mode),
                         shortest_tie=mode == "extended" and not banded,
                         keep_within=float(rules.value("regimen.keep_interval_within_rel")))
-    continuing = False
     if fixed is not None:
-        chosen = fixed
         continuing = current is not None and abs(current.dose_mg - fixed.dose_mg) < 1e-6 and \
             abs(current.interval_h - fixed.interval_h) < 1e-6
-        if continuing and current is not None:
-            chosen = current  # the standing order as given (its own infusion time)
-    elif current is not None and current.on_target and _within_caps(current, rules):
-        chosen, continuing = current, True
+        # continuing: the standing order as given (its own infusion time)
+        return (current if continuing and current is not None else fixed), alts, continuing
+    if current is not None and current.on_target and _within_caps(current, rules):
         alts = [c for c in ([best] if best else []) + alts
                 if not (c.dose_mg == current.dose_mg and c.interval_h == current.interval_h)][:3]
-    elif best is not None:
-        chosen = best
-    elif cands:
+        return current, alts, True
+    if best is not None:
+        return best, alts, False
+    if cands:
         chosen = min(cands, key=lambda c: c.distance)
-        alts = sorted((c for c in cands if c is not chosen), key=lambda c: c.distance)[:3]
         alerts.append(Alert("regimen-off-target", "caution", "target",
                             "no practical regimen is predicted on target under the caps and rounding; "
                             "the nearest is shown: review the targets, caps or interval set"))
-    else:
-        alerts.append(Alert("regimen-no-candidate", "caution", "target", "no candidate regimen under the caps"))
-        return plan
+        return chosen, sorted((c for c in cands if c is not chosen), key=lambda c: c.distance)[:3], False
+    alerts.append(Alert("regimen-no-candidate", "caution", "target", "no candidate regimen under the caps"))
+    return None
+
+
+def _standing_order_alerts(inp: RegimenInput, current: Candidate | None, continuing: bool,
+                           alerts: list[Alert]) -> None:
+    """``dose-overdue`` when the order continues but its next dose is past; ``current-over-cap``."""
     if continuing and len(inp.history) and inp.current is not None:
         due = float(inp.history.start[-1]) + inp.current.interval_h
         if due < inp.as_of - 1.0 / 60.0:
             alerts.append(Alert("dose-overdue", "caution", "doses",
                                 f"the next dose of the standing order was due at {inp.clock.format(due)}, before the "
                                 f"assessment time; no later dose is recorded"))
-    if current is not None and not _within_caps(current, rules):
+    if current is not None and not _within_caps(current, inp.rules):
         alerts.append(Alert("current-over-cap", "caution", "schedule", "the standing order is above the single or daily dose cap"))
-    _cap_alert(inp, targets, chosen, alerts)
-    if inp.samples:
-        dref = _dose_ref(inp, mode)
-        chosen = with_draws(chosen, inp.samples, targets, dref)
-        alts = [with_draws(a, inp.samples, targets, dref) for a in alts]
+
+
+def _regimen(inp: RegimenInput, targets: Targets, mode: str, chosen: Candidate, alts: list[Candidate],
+             current: Candidate | None, continuing: bool,
+             extra: dict[str, Any] | None) -> tuple[dict[str, Any], float, Any]:
+    """(the contract's regimen object, first maintenance dose h, the nearer grid time) before loading."""
     reg = _shape(inp, chosen, targets, mode, continuing)
     first, nearer = reg.pop("_first"), reg.pop("_nearer")
     if current is not None:
@@ -258,37 +299,27 @@ def finish(inp: RegimenInput, targets: Targets, mode: str, plan: Plan, cands: li
         reg["alternatives"].append(shaped)
     if extra:
         reg.update(extra)
-    load = _loading(inp, targets, mode, chosen, continuing, reg["hold_until"] is not None, first, alerts)
-    if load is not None:
-        t_load, ld, ld_tinf = load
-        reg["loading_dose"] = {"dose_mg": ld.dose_mg, "infusion_h": ld_tinf, "at": inp.clock.format(t_load),
-                               "exact_mg": ld.exact_mg, "capped": ld.capped, "basis": ld.basis}
-        if mode == "continuous":
-            first = t_load + ld_tinf
-        else:
-            first = handover.align(t_load + chosen.interval_h, handover.admin_times(rules, chosen.interval_h),
-                                   inp.clock)
-        reg["next_dose_at"] = inp.clock.format(first)
-        reg["next_levels"] = handover.next_levels(rules, targets, mode, inp.option or inp.method, first, chosen.interval_h,
-                                                  chosen.infusion_h, inp.clock)
-        reg["skipped_doses"] = [inp.clock.format(t) for t in wardclock.skipped(
-            float(inp.history.start[-1]) if len(inp.history) else None,
-            inp.current.interval_h if inp.current else None, inp.as_of, t_load)]
-    until = inp.as_of + handover.FORECAST_H
-    ld_tuple = (t_load, ld.dose_mg, ld_tinf) if load is not None else None
-    plan.doses = handover.proposed_doses(first, chosen.dose_mg, chosen.interval_h, chosen.infusion_h, until, ld_tuple)
-    times, conc, aucs = handover.forecast(params, inp.history, plan.doses, inp.as_of)
-    plan.forecast = (times, conc)
-    reg["forecast_auc"] = {"from": inp.clock.format(inp.as_of), **aucs}
-    if load is None:
-        timing.alignment_gap(inp, targets, chosen, reg, first, nearer, aucs["day1_mg_h_per_l"], alerts)
-    reg["choice_rule"] = ("continue: the standing order is predicted on target" if continuing else
-                          "practical candidate on target nearest the middle of the band, at intervals the half-life "
-                          "allows, at the current interval only where a dose there lands near the middle "
-                          "(extended-interval: the shortest interval on target); ties to fewer doses a day "
-                          "(regimen/candidates.py)")
-    plan.regimen = reg
-    return plan
+    return reg, first, nearer
+
+
+def _with_loading(inp: RegimenInput, targets: Targets, mode: str, chosen: Candidate, reg: dict[str, Any],
+                  load: tuple[float, loading.Loading, float]) -> float:
+    """The loading dose put into the regimen object; the first maintenance dose after it (h)."""
+    t_load, ld, ld_tinf = load
+    reg["loading_dose"] = {"dose_mg": ld.dose_mg, "infusion_h": ld_tinf, "at": inp.clock.format(t_load),
+                           "exact_mg": ld.exact_mg, "capped": ld.capped, "basis": ld.basis}
+    if mode == "continuous":
+        first = t_load + ld_tinf
+    else:
+        first = handover.align(t_load + chosen.interval_h, handover.admin_times(inp.rules, chosen.interval_h),
+                               inp.clock)
+    reg["next_dose_at"] = inp.clock.format(first)
+    reg["next_levels"] = handover.next_levels(inp.rules, targets, mode, inp.option or inp.method, first, chosen.interval_h,
+                                              chosen.infusion_h, inp.clock)
+    reg["skipped_doses"] = [inp.clock.format(t) for t in wardclock.skipped(
+        float(inp.history.start[-1]) if len(inp.history) else None,
+        inp.current.interval_h if inp.current else None, inp.as_of, t_load)]
+    return first
 
 
 def _cap_alert(inp: RegimenInput, targets: Targets, chosen: Candidate, alerts: list[Alert]) -> None:
@@ -301,43 +332,3 @@ def _cap_alert(inp: RegimenInput, targets: Targets, chosen: Candidate, alerts: l
         alerts.append(Alert("regimen-cap", "caution", "target",
                             f"the middle of the AUC24 target needs about {need:.0f} mg/day; the daily cap is "
                             f"{cap:g} mg ({inp.rules.citation('regimen.max_daily_dose_mg')})"))
-
-
-def _loading(inp: RegimenInput, targets: Targets, mode: str, chosen: Candidate, continuing: bool, held: bool,
-             first: float, alerts: list[Alert]) -> tuple[float, loading.Loading, float] | None:
-    """(time h, loading, infusion h) or None (loading.py rules)."""
-    rules, params = inp.rules, inp.params
-    assert params is not None
-    if continuing or held:
-        return None
-    step = float(rules.value("regimen.rounding_mg"))
-    new_start = len(inp.history) == 0
-    aminoglycoside = rules.get("drug.family") == "aminoglycoside"
-    if new_start and not aminoglycoside:
-        ld = loading.weight_based(rules, inp.tbw_kg, inp.bmi, continuous=mode == "continuous")
-        t0 = inp.as_of
-    else:
-        if new_start and mode != "peak-trough":
-            return None
-        if new_start:
-            goal = 0.5 * (targets.peak[0] + targets.peak[1]) if targets.peak else float(rules.value("loading.target_peak_mg_l"))
-        else:
-            goal = chosen.trough if mode == "continuous" else chosen.peak
-        t0 = inp.as_of if new_start else first
-        tinf = infusion_time(chosen.dose_mg, rules)
-        ld = None
-        for _ in range(3):  # infusion time depends on the dose
-            ld = loading.to_target(params, rules, goal, tinf, None if new_start else inp.history, t0)
-            if ld is None or infusion_time(ld.dose_mg, rules) == tinf:
-                break
-            tinf = infusion_time(ld.dose_mg, rules)
-        if ld is None:
-            return None
-    assert ld is not None  # both branches above give one or return
-    if mode != "continuous" and not (new_start and not aminoglycoside):
-        rel = float(rules.value("loading.topup_min_rel"))
-        if ld.dose_mg < max(chosen.dose_mg * (1.0 + rel), chosen.dose_mg + step) - 1e-9:
-            return None
-    if ld.capped:
-        alerts.append(Alert("loading-capped", "info", "", f"loading dose {ld.basis}"))
-    return t0, ld, infusion_time(ld.dose_mg, rules)

@@ -26,10 +26,15 @@ import math
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
+from tdmtui.core.alerts import Alert
 from tdmtui.core.models import DoseArrays, PKParams, concentration
+from tdmtui.core.regimen.grid import infusion_time
 
 if TYPE_CHECKING:
     from tdmtui.core.library import Rules
+    from tdmtui.core.regimen.candidates import Candidate
+    from tdmtui.core.regimen.targets import Targets
+    from tdmtui.core.regimen.types import RegimenInput
 
 
 @dataclass(frozen=True)
@@ -103,3 +108,47 @@ def to_target(params: PKParams, rules: Rules, target: float, tinf: float,
     if capped:
         basis += f"; capped at {dose:g} mg"
     return Loading(dose, exact, capped, basis)
+
+
+def proposed(inp: RegimenInput, targets: Targets, mode: str, chosen: Candidate, continuing: bool, held: bool,
+             first: float, alerts: list[Alert]) -> tuple[float, Loading, float] | None:
+    """The loading dose proposed with the chosen regimen: (time h, loading, infusion h) or None (module docstring).
+
+    None when the standing order continues or is held, for an aminoglycoside new start outside
+    peak-trough dosing, or when a top-up would add too little.
+    """
+    rules, params = inp.rules, inp.params
+    assert params is not None
+    if continuing or held:
+        return None
+    step = float(rules.value("regimen.rounding_mg"))
+    new_start = len(inp.history) == 0
+    aminoglycoside = rules.get("drug.family") == "aminoglycoside"
+    if new_start and not aminoglycoside:
+        ld = weight_based(rules, inp.tbw_kg, inp.bmi, continuous=mode == "continuous")
+        t0 = inp.as_of
+    else:
+        if new_start and mode != "peak-trough":
+            return None
+        if new_start:
+            goal = 0.5 * (targets.peak[0] + targets.peak[1]) if targets.peak else float(rules.value("loading.target_peak_mg_l"))
+        else:
+            goal = chosen.trough if mode == "continuous" else chosen.peak
+        t0 = inp.as_of if new_start else first
+        tinf = infusion_time(chosen.dose_mg, rules)
+        ld = None
+        for _ in range(3):  # infusion time depends on the dose
+            ld = to_target(params, rules, goal, tinf, None if new_start else inp.history, t0)
+            if ld is None or infusion_time(ld.dose_mg, rules) == tinf:
+                break
+            tinf = infusion_time(ld.dose_mg, rules)
+        if ld is None:
+            return None
+    assert ld is not None  # both branches above give one or return
+    if mode != "continuous" and not (new_start and not aminoglycoside):
+        rel = float(rules.value("loading.topup_min_rel"))
+        if ld.dose_mg < max(chosen.dose_mg * (1.0 + rel), chosen.dose_mg + step) - 1e-9:
+            return None
+    if ld.capped:
+        alerts.append(Alert("loading-capped", "info", "", f"loading dose {ld.basis}"))
+    return t0, ld, infusion_time(ld.dose_mg, rules)
