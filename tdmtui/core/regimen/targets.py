@@ -176,46 +176,74 @@ def resolve_targets(rules: Rules, case_target: Target | None, mode: str,
     mic = ct.mic if ct and ct.mic else float(rules.value("mic.default_mg_l"))
     ref = str(rules.value("targets.peak_reference"))
     indication = ct.indication if ct else None
-    kw: dict[str, Any] = {}
     if mode == "auc":
-        kw["auc24"] = pick.case("auc24", ct.auc24 if ct else None) or _band(pick.lib("auc24", "targets.auc24"))
-        trough = pick.case("trough", ct.trough if ct else None)
-        if trough is None:
-            ceiling = float(pick.lib("trough", "targets.trough_ceiling") or 0.0)
-            trough = (0.0, ceiling) if ceiling > 0 else None
-            if trough is None:
-                pick.sources.pop("trough", None)
-                pick.citations.pop("trough", None)
-        kw["trough"] = trough
+        kw = _auc_bands(pick, ct)
     elif mode == "peak-trough":
-        var = _variant(rules, indication, pick, tuple(conditions))
-        kw["peak"] = pick.case("peak", ct.peak if ct else None) or (
-            tuple(var["peak"]) if "peak" in var else _band(pick.lib("peak", "targets.peak")))
-        kw["trough"] = pick.case("trough", ct.trough if ct else None) or (
-            tuple(var["trough"]) if "trough" in var else _band(pick.lib("trough", "targets.trough")))
-        if "peak" in var and not (ct and ct.peak):
-            pick.sources["peak"] = pick.sources["variant"]
-        if "trough" in var and not (ct and ct.trough):
-            pick.sources["trough"] = pick.sources["variant"]
+        kw = _peak_trough_bands(pick, ct, _variant(rules, indication, pick, tuple(conditions)))
     elif mode == "extended":
-        kw["auc24"] = pick.case("auc24", ct.auc24 if ct else None) or _band(pick.lib("auc24", "extended.auc24"))
-        kw["peak"] = pick.case("peak", ct.peak if ct else None) or _band(pick.lib("peak", "extended.peak"))
-        trough = pick.case("trough", ct.trough if ct else None)
-        if trough is None:
-            ceiling = float(pick.lib("trough", "extended.trough_ceiling") or 0.0)
-            trough = (0.0, ceiling) if ceiling > 0 else None
-        kw["trough"] = trough
-        for name in ("auc24", "peak"):
-            if kw[name] is None:
-                pick.sources.pop(name, None)
-                pick.citations.pop(name, None)
-    else:  # continuous
-        kw["css"] = pick.case("css", ct.css if ct else None) or _band(pick.lib("css", "targets.css"))
-        if kw["css"]:
-            kw["auc24"] = (kw["css"][0] * 24.0, kw["css"][1] * 24.0)
+        kw = _extended_bands(pick, ct)
+    else:
+        kw = _continuous_bands(pick, ct)
     if kw.get("peak") is not None:
         pick.sources.setdefault("peak_reference", rules.source("targets.peak_reference")
                                 if "targets.peak_reference" in rules else "library")
     return Targets(mode=mode, peak_reference=ref, mic=float(mic), indication=indication,
                    sources=pick.sources, citations=pick.citations,
                    **{k: ((float(v[0]), float(v[1])) if v else None) for k, v in kw.items()})
+
+
+#: A mode's bands by name (``auc24``, ``peak``, ``trough``, ``css``), None where the mode has none.
+_Bands = dict[str, Any]
+
+
+def _auc_bands(pick: _Picker, ct: Target | None) -> _Bands:
+    """AUC24 band, and a trough ceiling where the case or the library gives one."""
+    kw: _Bands = {"auc24": pick.case("auc24", ct.auc24 if ct else None) or _band(pick.lib("auc24", "targets.auc24"))}
+    trough = pick.case("trough", ct.trough if ct else None)
+    if trough is None:
+        ceiling = float(pick.lib("trough", "targets.trough_ceiling") or 0.0)
+        trough = (0.0, ceiling) if ceiling > 0 else None
+        if trough is None:
+            pick.sources.pop("trough", None)
+            pick.citations.pop("trough", None)
+    kw["trough"] = trough
+    return kw
+
+
+def _peak_trough_bands(pick: _Picker, ct: Target | None, var: dict[str, Any]) -> _Bands:
+    """Peak and trough bands: the case's, else the indication variant's, else the library's."""
+    kw: _Bands = {}
+    kw["peak"] = pick.case("peak", ct.peak if ct else None) or (
+        tuple(var["peak"]) if "peak" in var else _band(pick.lib("peak", "targets.peak")))
+    kw["trough"] = pick.case("trough", ct.trough if ct else None) or (
+        tuple(var["trough"]) if "trough" in var else _band(pick.lib("trough", "targets.trough")))
+    if "peak" in var and not (ct and ct.peak):
+        pick.sources["peak"] = pick.sources["variant"]
+    if "trough" in var and not (ct and ct.trough):
+        pick.sources["trough"] = pick.sources["variant"]
+    return kw
+
+
+def _extended_bands(pick: _Picker, ct: Target | None) -> _Bands:
+    """Extended-interval AUC24 and peak bands where set, and the trough ceiling."""
+    kw: _Bands = {}
+    kw["auc24"] = pick.case("auc24", ct.auc24 if ct else None) or _band(pick.lib("auc24", "extended.auc24"))
+    kw["peak"] = pick.case("peak", ct.peak if ct else None) or _band(pick.lib("peak", "extended.peak"))
+    trough = pick.case("trough", ct.trough if ct else None)
+    if trough is None:
+        ceiling = float(pick.lib("trough", "extended.trough_ceiling") or 0.0)
+        trough = (0.0, ceiling) if ceiling > 0 else None
+    kw["trough"] = trough
+    for name in ("auc24", "peak"):
+        if kw[name] is None:
+            pick.sources.pop(name, None)
+            pick.citations.pop(name, None)
+    return kw
+
+
+def _continuous_bands(pick: _Picker, ct: Target | None) -> _Bands:
+    """The Css band, and the AUC24 band it makes (Css x 24 h)."""
+    kw: _Bands = {"css": pick.case("css", ct.css if ct else None) or _band(pick.lib("css", "targets.css"))}
+    if kw["css"]:
+        kw["auc24"] = (kw["css"][0] * 24.0, kw["css"][1] * 24.0)
+    return kw
