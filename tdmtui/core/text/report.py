@@ -43,15 +43,34 @@ TABLE_HEAD = f"{'method':<{NAME_W}}{'ke /h':>7}{'t1/2':>6}{'Vd L':>6}{'L/kg':>5}
 
 def summary_text(result: dict[str, Any]) -> str:
     """A readable summary of a ``tdmtui.result/1`` object."""
-    lines: list[str] = []
+    lines = _patient_lines(result) + _estimate_lines(result) + _regimen_lines(result)
+    if result.get("warnings"):
+        lines.append("")
+        lines.append("Warnings:")
+        for w in result["warnings"]:
+            lines += _wrap(f"{w['severity'].upper()} [{w['code']}] {w['field']}: {w['message']}", "  ")
+    lines.append("")
+    lines += _wrap(NOTE_LINE)
+    # the output boundary: every line, free text included, loses its control characters here
+    return "\n".join(neutralise(line) for line in lines) + "\n"
+
+
+def _patient_lines(result: dict[str, Any]) -> list[str]:
+    """Drug, time and status; CrCl, dosing weight and the standing order, each with its rule."""
     p = result["patient"]
-    lines.append(f"{result['drug']}  as of {result['as_of']}  status: {result['status'].upper()}")
+    lines = [f"{result['drug']}  as of {result['as_of']}  status: {result['status'].upper()}"]
     lines += _wrap(f"CrCl {num(p['crcl_ml_min'], 'crcl')} mL/min ({p['crcl_rule']})")
     lines += _wrap(f"Dosing weight {num(p['dosing_weight_kg'], 'weight')} kg ({p['dosing_weight_rule']})")
     cur = result.get("current_regimen")
     if cur:
         lines += _wrap(f"Current regimen: {num(cur['dose_mg'], 'dose')} mg every {num(cur['interval_h'], 'interval')} h "
                        f"over {num(cur['infusion_h'], 'infusion')} h ({cur['source']})")
+    return lines
+
+
+def _estimate_lines(result: dict[str, Any]) -> list[str]:
+    """The method used and why, the methods table, the 90 % intervals, the model; the methods not available."""
+    lines: list[str] = []
     est = result.get("estimate")
     if est:
         lines.append("")
@@ -75,51 +94,52 @@ def summary_text(result: dict[str, Any]) -> str:
             lines.append(estimate_line(short_name(name, result["drug"], e), e))
     for name, why in result.get("methods_unavailable", {}).items():
         lines += _wrap(f"{name} not available: {why}", "  ")
-    reg = result.get("regimen")
-    if reg:
-        lines.append("")
-        if reg.get("mode") in ("dialysis", "redose-by-level"):
-            from tdmtui.core.regimen.renalplan import plan_words
+    return lines
 
-            for text in plan_words(reg):
-                lines += _wrap(text)
-        elif reg.get("mode") == "continuous":
-            lines += _wrap(f"Regimen: {reg['action']} - continuous infusion {num(reg['rate_mg_per_h'], 'rate')} mg/h "
-                           f"({num(reg['daily_dose_mg'], 'dose')} mg/day), starting {reg['next_dose_at']}")
-        else:
-            lines += _wrap(f"Regimen: {reg['action']} - {num(reg['dose_mg'], 'dose')} mg every "
-                           f"{num(reg['interval_h'], 'interval')} h over {num(reg['infusion_h'], 'infusion')} h, "
-                           f"next dose {reg['next_dose_at']}")
-        pr = reg.get("predicted", {})
-        if reg.get("mode") not in ("dialysis", "redose-by-level"):
-            line = (f"  predicted AUC24 {num(pr.get('auc24_mg_h_per_l'), 'auc')} mg*h/L, peak "
-                    f"{num(pr.get('peak_mg_per_l'), 'conc')}, trough {num(pr.get('trough_mg_per_l'), 'conc')} mg/L")
-            if pr.get("target_probability") is not None:
-                line += f", chance of target {num(pr['target_probability'], 'probability')} %"
-            lines += _wrap(line)
-        if reg.get("skipped_doses"):
-            lines += _wrap(f"{'hold' if reg.get('hold_until') else 'do not give'} the standing order's dose(s) due "
-                           + ", ".join(reg["skipped_doses"]), "  ")
-        if reg.get("hold_until"):
-            lines.append(f"  hold until {reg['hold_until']}")
-        if reg.get("nearer_start"):
-            ns = reg["nearer_start"]
-            lines.append(f"  nearer start {ns['next_dose_at']}: AUC next 24 h {num(ns['day1_mg_h_per_l'], 'auc')} mg*h/L")
-        if reg.get("loading_dose"):
-            ld = reg["loading_dose"]
-            lines.append(f"  loading dose {num(ld['dose_mg'], 'dose')} mg over {num(ld['infusion_h'], 'infusion')} h "
-                         f"at {ld['at']}")
-        for nl in reg.get("next_levels", []):
-            lines.append(f"  next level: {nl['kind']} at {nl['at']}")
-    elif result["status"] == "stop":
-        lines.append("")
-        lines.append("No regimen: a stop-level warning stands (see below).")
-    if result.get("warnings"):
-        lines.append("")
-        lines.append("Warnings:")
-        for w in result["warnings"]:
-            lines += _wrap(f"{w['severity'].upper()} [{w['code']}] {w['field']}: {w['message']}", "  ")
-    lines.append("")
-    lines += _wrap(NOTE_LINE)
-    # the output boundary: every line, free text included, loses its control characters here
-    return "\n".join(neutralise(line) for line in lines) + "\n"
+
+def _regimen_lines(result: dict[str, Any]) -> list[str]:
+    """The proposal in words, its predicted figures, and what the ward does next; or why there is none."""
+    reg = result.get("regimen")
+    if not reg:
+        return ["", "No regimen: a stop-level warning stands (see below)."] if result["status"] == "stop" else []
+    lines = [""]
+    if reg.get("mode") in ("dialysis", "redose-by-level"):
+        from tdmtui.core.regimen.renalplan import plan_words
+
+        for text in plan_words(reg):
+            lines += _wrap(text)
+    elif reg.get("mode") == "continuous":
+        lines += _wrap(f"Regimen: {reg['action']} - continuous infusion {num(reg['rate_mg_per_h'], 'rate')} mg/h "
+                       f"({num(reg['daily_dose_mg'], 'dose')} mg/day), starting {reg['next_dose_at']}")
+    else:
+        lines += _wrap(f"Regimen: {reg['action']} - {num(reg['dose_mg'], 'dose')} mg every "
+                       f"{num(reg['interval_h'], 'interval')} h over {num(reg['infusion_h'], 'infusion')} h, "
+                       f"next dose {reg['next_dose_at']}")
+    pr = reg.get("predicted", {})
+    if reg.get("mode") not in ("dialysis", "redose-by-level"):
+        line = (f"  predicted AUC24 {num(pr.get('auc24_mg_h_per_l'), 'auc')} mg*h/L, peak "
+                f"{num(pr.get('peak_mg_per_l'), 'conc')}, trough {num(pr.get('trough_mg_per_l'), 'conc')} mg/L")
+        if pr.get("target_probability") is not None:
+            line += f", chance of target {num(pr['target_probability'], 'probability')} %"
+        lines += _wrap(line)
+    return lines + _next_steps(reg)
+
+
+def _next_steps(reg: dict[str, Any]) -> list[str]:
+    """Doses held or not given, hold until, a nearer start, the loading dose, the next levels."""
+    lines: list[str] = []
+    if reg.get("skipped_doses"):
+        lines += _wrap(f"{'hold' if reg.get('hold_until') else 'do not give'} the standing order's dose(s) due "
+                       + ", ".join(reg["skipped_doses"]), "  ")
+    if reg.get("hold_until"):
+        lines.append(f"  hold until {reg['hold_until']}")
+    if reg.get("nearer_start"):
+        ns = reg["nearer_start"]
+        lines.append(f"  nearer start {ns['next_dose_at']}: AUC next 24 h {num(ns['day1_mg_h_per_l'], 'auc')} mg*h/L")
+    if reg.get("loading_dose"):
+        ld = reg["loading_dose"]
+        lines.append(f"  loading dose {num(ld['dose_mg'], 'dose')} mg over {num(ld['infusion_h'], 'infusion')} h "
+                     f"at {ld['at']}")
+    for nl in reg.get("next_levels", []):
+        lines.append(f"  next level: {nl['kind']} at {nl['at']}")
+    return lines
