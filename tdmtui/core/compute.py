@@ -217,8 +217,7 @@ def compute(case: Case, protocol: Protocol | None = None, method: str | None = N
     n_levels = len(methods.levels_for_estimates(ctx))
     alerts += methods.compare(ctx, estimates, used)
     alerts += methods.used_alerts(ctx, estimates[used], runs)
-    holds, corrections = exposure.exposure_alerts(ctx, estimates[used], option,
-                                                  any(a.code == "scr-unstable" for a in alerts))
+    holds, corrections = exposure.exposure_alerts(ctx, estimates[used], option)
     alerts += holds
     sens_rows, sens_alerts = timing_sensitivity(ctx, estimates[used])
     alerts += sens_alerts

@@ -160,3 +160,58 @@ def test_one_ke_methods_are_withheld_when_their_levels_straddle_an_unstable_chan
     fixed = out.result["methods"]["bayesian:fixed-renal"]["cl_l_per_h"]
     assert abs(tv - truth) < abs(fixed - truth)
     assert tv == pytest.approx(truth, rel=0.20)
+
+
+@pytest.mark.parametrize("name, rises", [
+    # KDIGO 2012 AKI (pk-sources.md 6.1, from memory): a rise of >= 0.3 mg/dL within 48 h, or to >= 1.5 x the
+    # lowest value within 7 days. 0.8 -> 1.0 -> 1.4 mg/dL a day apart: 1.0 is +0.2 and 1.25 x (no), 1.4 is
+    # +0.6 over 0.8 within 48 h (yes).
+    ("vanc-rising-scr", ["2026-03-29T06:00"]),
+    # 0.8, 0.8, 1.2, 1.6 mg/dL a day apart: 1.2 and 1.6 are each +0.4 in 24 h.
+    ("vanc-aki-levels-after", ["2026-05-13T06:00", "2026-05-14T06:00"]),
+])
+def test_unstable_renal_function_is_found_once_and_exposure_and_the_renal_plan_read_the_same_flag(
+        name, rises, monkeypatch) -> None:
+    from tdmtui.core.patient import renaltrend
+    from tdmtui.core.regimen import exposure, renalplan
+
+    calls, seen = [], {}
+    real_changes, real_exposure, real_adjust = renaltrend.changes, exposure.exposure_alerts, renalplan.adjust
+
+    def changes(*args, **kw):
+        calls.append(args)
+        return real_changes(*args, **kw)
+
+    def exposure_alerts(ctx, *args, **kw):
+        seen["exposure"] = ctx.renal
+        return real_exposure(ctx, *args, **kw)
+
+    def adjust(ctx, *args, **kw):
+        seen["renal plan"] = ctx.renal
+        return real_adjust(ctx, *args, **kw)
+
+    monkeypatch.setattr(renaltrend, "changes", changes)
+    monkeypatch.setattr(exposure, "exposure_alerts", exposure_alerts)
+    monkeypatch.setattr(renalplan, "adjust", adjust)
+    case = parse_case(json.loads((SAMPLES / f"{name}.json").read_text()))
+    out = compute(case)
+    assert len(calls) == 1  # the rule runs once, in the patient stage
+    assert seen["exposure"] is seen["renal plan"] is out.renal
+    assert out.renal.unstable
+    assert [case.clock.format(t) for t in out.renal.scr_change_times] == rises
+    assert [a.field for a in out.alerts if a.code == "scr-unstable"] == \
+        [f"patient.scr[{i}].value" for i in range(len(case.patient.scr) - len(rises), len(case.patient.scr))]
+    # the renal plan acted on the latest rise: the estimate rests on levels drawn after it
+    (after,) = [a for a in out.alerts if a.code == "renal-levels-after-change"]
+    assert f"SCr at {rises[-1]}" in after.message
+
+
+def test_stable_renal_function_is_one_flag_too(monkeypatch) -> None:
+    from tdmtui.core.regimen import exposure
+
+    seen = []
+    real = exposure.exposure_alerts
+    monkeypatch.setattr(exposure, "exposure_alerts", lambda ctx, *a, **kw: seen.append(ctx.renal) or real(ctx, *a, **kw))
+    out = compute(parse_case(json.loads((SAMPLES / "vanc-steady-state.json").read_text())))
+    assert seen == [out.renal] and not out.renal.unstable and out.renal.unstable_since is None
+    assert not [a for a in out.alerts if a.code.startswith(("scr-unstable", "renal-"))]

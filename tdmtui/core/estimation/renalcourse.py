@@ -218,13 +218,11 @@ def straddle_reason(ctx: MethodContext, method: str, est: Estimate) -> str | Non
     function (an SCr that raised ``scr-unstable``), so no single ke describes them; else None."""
     if method not in _ONE_KE:
         return None
-    by_field = {s.field: s.time for s in ctx.case.patient.scr}
-    changes = [by_field.get(a.field) for a in ctx.renal.alerts if a.code == "scr-unstable"]
     times = [lv.time for lv in ctx.case.levels if lv.index in est.levels_used]
     if len(times) < 2:
         return None
-    for t in changes:
-        if t is not None and min(times) < t < max(times):
+    for t in ctx.renal.scr_change_times:
+        if min(times) < t < max(times):
             return (f"the levels lie either side of a change in renal function (SCr at "
                     f"{ctx.case.clock.format(t)}): one ke cannot describe both; the Bayesian fit follows each SCr")
     return None

@@ -94,6 +94,18 @@ class RenalSummary:
     dosing_weight_kg: float
     dosing_weight_rule: str
     alerts: list[Alert] = field(default_factory=list)
+    #: times h of the SCr values that changed by the KDIGO rule (each raised ``scr-unstable``), in time order
+    scr_change_times: tuple[float, ...] = ()
+
+    @property
+    def unstable(self) -> bool:
+        """Renal function is changing: an SCr raised ``scr-unstable``. Every later stage reads this one flag."""
+        return bool(self.scr_change_times)
+
+    @property
+    def unstable_since(self) -> float | None:
+        """Time h of the latest SCr that raised ``scr-unstable``, or None."""
+        return max(self.scr_change_times) if self.scr_change_times else None
 
     def to_dict(self) -> dict[str, float | str]:
         """The result contract's ``patient`` block."""
@@ -120,9 +132,10 @@ def _when(t: float, clock: Clock | None) -> str:
     return clock.format(t) if clock is not None else f"{t:g} h"
 
 
-def scr_alerts(series: list[tuple[float, float, int | None]], rules: Rules,
-               clock: Clock | None = None) -> list[Alert]:
-    """``scr-unstable`` cautions for a time-sorted SCr series, by the KDIGO 2012 AKI definition.
+def scr_trend(series: list[tuple[float, float, int | None]], rules: Rules,
+              clock: Clock | None = None) -> tuple[list[Alert], tuple[float, ...]]:
+    """``scr-unstable`` cautions for a time-sorted SCr series, by the KDIGO 2012 AKI definition, and the
+    times h of the values that raised them.
 
     The rule is :mod:`tdmtui.core.patient.renaltrend` (a rise of ``renal.scr_change_abs_mg_dl``
     within ``renal.scr_change_window_h``, or to (1 + ``renal.scr_change_rel``) x the
@@ -133,6 +146,7 @@ def scr_alerts(series: list[tuple[float, float, int | None]], rules: Rules,
 
     th = renaltrend.Thresholds.of(rules)
     out: list[Alert] = []
+    times: list[float] = []
     for ch in renaltrend.changes(series, th):
         ti, vi, _ = series[ch.i]
         tj, vj, ij = series[ch.j]
@@ -143,7 +157,8 @@ def scr_alerts(series: list[tuple[float, float, int | None]], rules: Rules,
             f"{vj - vi:+.2f} mg/dL ({100 * (vj - vi) / vi:+.0f} %) in {_hours(tj - ti)} h, "
             f"{renaltrend.rule_text(ch, th, vj > vi)} (KDIGO acute kidney injury definition); "
             "Cockcroft-Gault and eGFR assume stable renal function: reassess renal function and dose by levels"))
-    return out
+        times.append(tj)
+    return out, tuple(times)
 
 
 def _order_scr(scr_series: list[tuple[float | None, float, int | None]]) -> list[tuple[float, float, int | None]]:
@@ -199,7 +214,7 @@ def renal_summary(age: float, sex: str, weight: float, height: float,
     bsa = bsa_mosteller(weight, height)
     egfr = ckd_epi_2021(age, sex, scr)
     dw_kg, dw_text = dosing_weight(weight, ibw.kg, rules)
-    alerts += scr_alerts(series, rules, clock)
+    trend, changed = scr_trend(series, rules, clock)
     return RenalSummary(
         ibw=ibw.kg, ibw_variant=ibw.variant, ibw_flagged=ibw.flagged, adjbw=adjusted_weight(weight, ibw.kg, factor),
         bmi=bmi(weight, height), bsa=bsa, bsa_dubois=bsa_dubois(weight, height),
@@ -207,7 +222,7 @@ def renal_summary(age: float, sex: str, weight: float, height: float,
         crcl_weight_kg=w_kg, scr_measured_mg_dl=scr, scr_used_mg_dl=used, scr_index=idx,
         scr_time_h=t_last if dated else None,
         egfr_ckd_epi=egfr, egfr_ckd_epi_ml_min=deindex_egfr(egfr, bsa),
-        dosing_weight_kg=dw_kg, dosing_weight_rule=dw_text, alerts=alerts)
+        dosing_weight_kg=dw_kg, dosing_weight_rule=dw_text, alerts=alerts + trend, scr_change_times=changed)
 
 
 def _short_height_alerts(ibw: IbwResult, height: float, rules: Rules) -> list[Alert]:

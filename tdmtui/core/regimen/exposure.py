@@ -186,11 +186,11 @@ def _is_hold(a: Alert) -> bool:
     return a.code == "auc-toxic" or (a.code == "trough-high" and "hold the next dose" in a.message)
 
 
-def exposure_alerts(ctx: MethodContext, est: Estimate, option: str | None = None,
-                    unstable: bool = False) -> tuple[list[Alert], list[Alert]]:
+def exposure_alerts(ctx: MethodContext, est: Estimate, option: str | None = None) -> tuple[list[Alert], list[Alert]]:
     """The four checks for the estimate used: ``(holds, corrections)`` (module docstring).
 
-    ``unstable``: the unstable-SCr rule fired (a trough above its limit then calls for a hold).
+    With renal function changing (``ctx.renal.unstable``, the patient stage's flag) a trough above
+    its limit calls for a hold.
 
     Under the ``nomogram`` regimen option the interval is read from the chart, which
     judges the measured level itself: the estimate's steady-state prediction is not
@@ -202,7 +202,7 @@ def exposure_alerts(ctx: MethodContext, est: Estimate, option: str | None = None
     pred = None if option == "nomogram" else _predicted(ctx, est, targets)
     auc = _auc_alerts(ctx, targets, pred)
     hold = any(a.code == "auc-toxic" for a in auc)
-    every = auc + _trough_alerts(ctx, targets, pred, hold, unstable) + _peak_alerts(ctx, targets, pred)
+    every = auc + _trough_alerts(ctx, targets, pred, hold, ctx.renal.unstable) + _peak_alerts(ctx, targets, pred)
     return [a for a in every if _is_hold(a)], [a for a in every if not _is_hold(a)]
 
 

@@ -67,19 +67,8 @@ def adjust(ctx: MethodContext, est: Estimate, base: RegimenInput, plan: Plan) ->
     return _unstable(ctx, est, plan)
 
 
-def change_time(ctx: MethodContext) -> float | None:
-    """Time h of the latest SCr that triggered ``scr-unstable``, or None."""
-    times: list[float] = []
-    by_field = {s.field: s.time for s in ctx.case.patient.scr}
-    for a in ctx.renal.alerts:
-        t = by_field.get(a.field)
-        if a.code == "scr-unstable" and t is not None:
-            times.append(t)
-    return max(times) if times else None
-
-
 def _unstable(ctx: MethodContext, est: Estimate, plan: Plan) -> Plan:
-    changed = change_time(ctx)
+    changed = ctx.renal.unstable_since  # the patient stage's flag (patient/renal.py), as exposure reads it
     reg = plan.regimen
     if changed is None or reg is None:
         return plan
