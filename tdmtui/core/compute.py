@@ -186,6 +186,43 @@ def method_reason(requested: str, used: str, estimates: dict[str, Estimate], fai
 def compute(case: Case, protocol: Protocol | None = None, method: str | None = None) -> Outcome:
     """Compute a case. Raises InputError (exit 2) or NoEstimateError (exit 3)."""
     rules = Rules(case.drug, protocol)
+    renal, alerts = _patient_stage(case, rules)
+    ctx, base, asked, chosen = _before_estimation(case, rules, renal, method or case.method, alerts)
+    runs = methods.run_all(ctx)
+    estimates, failures = runs.estimates, runs.failures
+    try:
+        used = choose(asked, estimates, failures)
+    except NoEstimateError:
+        if asked == "auto" and has_stop(alerts):
+            return _stopped(case, protocol, rules, renal, ctx.current, alerts, failures, ctx, estimates)
+        raise
+    est = estimates[used]
+    n_levels = len(methods.levels_for_estimates(ctx))
+    alerts += methods.compare(ctx, estimates, used)
+    alerts += methods.used_alerts(ctx, est, runs)
+    holds, corrections = exposure.exposure_alerts(ctx, est, base.option)
+    alerts += holds
+    sens_rows, sens_alerts = timing_sensitivity(ctx, est)
+    alerts += sens_alerts
+    result = _header(case, protocol, renal, rules, ctx.current)
+    result.update(_estimate_fields(ctx, runs, asked, chosen, used, n_levels, sens_rows))
+    _dialysis_summary(case, rules, result)
+    plan = _regimen_stage(ctx, est, base, chosen, result, alerts)
+    plan_doses = plan.doses if plan is not None else None
+    alerts += exposure.unresolved(corrections, result.get("regimen"), ctx.targets, rules)
+    if "regimen" not in result and result["status"] == "stop":
+        plan_doses = None
+    alerts = reconcile.settle(alerts)
+    result["warnings"] = [a.to_dict() for a in alerts]
+    result["working"] = [w.to_dict() for w in est.working]
+    return Outcome(case, result, est.params, ctx.history, plan=plan_doses, working=tuple(est.working),
+                   band_source=(ctx, est) if est.samples else None,
+                   alerts=tuple(alerts), renal=renal, estimates=estimates, rules=rules, regimen_plan=plan,
+                   method_used=used)
+
+
+def _patient_stage(case: Case, rules: Rules) -> tuple[RenalSummary, list[Alert]]:
+    """Plausibility, body size and renal function, and the patient-level cautions (the case's own notices first)."""
     checks.plausibility(case, rules)
     p = case.patient
     renal = renal_summary(p.age, p.sex, p.weight, p.height, [(s.time, s.value, s.index) for s in p.scr], rules,
@@ -195,75 +232,63 @@ def compute(case: Case, protocol: Protocol | None = None, method: str | None = N
     alerts += checks.patient_alerts(case, rules, renal.bmi, renal.ibw, mic)
     alerts += checks.low_scr_alerts(case, rules, renal.crcl_ml_min, renal.scr_used_mg_dl, renal.scr_measured_mg_dl,
                                     "patient.scr" if renal.scr_index is None else f"patient.scr[{renal.scr_index}].value")
+    return renal, alerts
+
+
+def _before_estimation(case: Case, rules: Rules, renal: RenalSummary, choice: str,
+                       alerts: list[Alert]) -> tuple[MethodContext, RegimenInput, str, str | None]:
+    """The course stage and the targets: what every method is given, the design's input before any estimate,
+    and the choice split into (method or ``auto``, regimen option or None). Course alerts go to ``alerts``."""
     alerts += course.validate_course(case, rules, renal.dosing_weight_kg)
     cur, cur_alerts = course.current_regimen(case, rules)
     alerts += cur_alerts
     history = history_of(case)
     usable = course.usable_levels(case, rules)
-    asked, chosen = registry.split_choice(method or case.method)
+    asked, chosen = registry.split_choice(choice)
     base = regimen_input(case, rules, renal, history, cur, chosen)
-    option = regimen_option(asked, chosen, base)
-    base = dataclasses.replace(base, option=option)
-    targets = regimen_targets(base)
-    ctx = MethodContext(case, rules, renal, history, usable, cur, targets)
-    runs = methods.run_all(ctx)
-    estimates, failures = runs.estimates, runs.failures
-    try:
-        used = choose(asked, estimates, failures)
-    except NoEstimateError:
-        if asked == "auto" and has_stop(alerts):
-            return _stopped(case, protocol, rules, renal, cur, alerts, failures, ctx, estimates)
-        raise
-    n_levels = len(methods.levels_for_estimates(ctx))
-    alerts += methods.compare(ctx, estimates, used)
-    alerts += methods.used_alerts(ctx, estimates[used], runs)
-    holds, corrections = exposure.exposure_alerts(ctx, estimates[used], option)
-    alerts += holds
-    sens_rows, sens_alerts = timing_sensitivity(ctx, estimates[used])
-    alerts += sens_alerts
-    est = estimates[used]
-    weight = p.weight
-    result = _header(case, protocol, renal, rules, cur)
-    result.update({
+    base = dataclasses.replace(base, option=regimen_option(asked, chosen, base))
+    return MethodContext(case, rules, renal, history, usable, cur, regimen_targets(base)), base, asked, chosen
+
+
+def _estimate_fields(ctx: MethodContext, runs: methods.MethodRuns, asked: str, chosen: str | None, used: str,
+                     n_levels: int, sens_rows: list[dict[str, Any]]) -> dict[str, Any]:
+    """The result's method, its reason, the estimate used, the other methods, the levels, the timing sensitivity."""
+    cur, weight = ctx.current, ctx.case.patient.weight
+    estimates = runs.estimates
+    return {
         "method": chosen or used,
-        "method_reason": method_reason(asked, used, estimates, failures, n_levels),
-        "estimate": est.to_dict(cur, weight),
+        "method_reason": method_reason(asked, used, estimates, runs.failures, n_levels),
+        "estimate": estimates[used].to_dict(cur, weight),
         "methods": {k: v.to_dict(cur, weight) for k, v in estimates.items() if k != used},
-        "methods_unavailable": failures,
+        "methods_unavailable": runs.failures,
         "levels": methods.level_table(ctx),
         "timing_sensitivity": sens_rows,
-    })
-    _dialysis_summary(case, rules, result)
-    plan: RegimenPlan | None = None
-    plan_doses: DoseArrays | None = None
+    }
+
+
+def _regimen_stage(ctx: MethodContext, est: Estimate, base: RegimenInput, chosen: str | None,
+                   result: dict[str, Any], alerts: list[Alert]) -> RegimenPlan | None:
+    """The design, the renal plan and the never-exceed guard (the final check), unless a stop stands;
+    the result's regimen, target and sources filled, its status a stop where one stands."""
     if has_stop(alerts):
         result["status"] = "stop"
-    else:
-        if option is not None and option != chosen:
-            alerts.append(_auto_option_alert(option, est))
-        from tdmtui.core.regimen.dailycap import design_rules
+        return None
+    if base.option is not None and base.option != chosen:
+        alerts.append(_auto_option_alert(base.option, est))
+    from tdmtui.core.regimen.dailycap import design_rules
 
-        base = dataclasses.replace(base, rules=design_rules(rules, p.weight, renal.bmi, len(est.levels_used)))
-        plan = renalplan.adjust(ctx, est, base, methods.attach_regimen(ctx, est, base))
-        result["regimen"] = plan.regimen
-        result["target"] = plan.targets
-        result["sources"].update(plan.sources)
-        plan_doses = plan.doses
-        plan_alerts = list(plan.alerts) + limits.guard(case.drug, result, plan_doses, p.weight)  # the final check
-        alerts += plan_alerts
-        if has_stop(plan_alerts):
-            result["status"] = "stop"
-            result.pop("regimen", None)
-    alerts += exposure.unresolved(corrections, result.get("regimen"), targets, rules)
-    if "regimen" not in result and result["status"] == "stop":
-        plan_doses = None
-    alerts = reconcile.settle(alerts)
-    result["warnings"] = [a.to_dict() for a in alerts]
-    result["working"] = [w.to_dict() for w in est.working]
-    return Outcome(case, result, est.params, history, plan=plan_doses, working=tuple(est.working),
-                   band_source=(ctx, est) if est.samples else None,
-                   alerts=tuple(alerts), renal=renal, estimates=estimates, rules=rules, regimen_plan=plan,
-                   method_used=used)
+    weight = ctx.case.patient.weight
+    base = dataclasses.replace(base, rules=design_rules(ctx.rules, weight, ctx.renal.bmi, len(est.levels_used)))
+    plan = renalplan.adjust(ctx, est, base, methods.attach_regimen(ctx, est, base))
+    result["regimen"] = plan.regimen
+    result["target"] = plan.targets
+    result["sources"].update(plan.sources)
+    plan_alerts = list(plan.alerts) + limits.guard(ctx.case.drug, result, plan.doses, weight)  # the final check
+    alerts += plan_alerts
+    if has_stop(plan_alerts):
+        result["status"] = "stop"
+        result.pop("regimen", None)
+    return plan
 
 
 def _dialysis_summary(case: Case, rules: Rules, result: dict[str, Any]) -> None:
