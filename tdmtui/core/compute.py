@@ -48,6 +48,7 @@ from tdmtui.core.estimation.estimates import Estimate
 from tdmtui.core.library import LIBRARY_VERSION, Protocol, Rules, library_digest
 from tdmtui.core.models import DoseArrays, PKParams
 from tdmtui.core.patient.renal import RenalSummary, renal_summary
+from tdmtui.core.estimation.runs import MethodRuns
 from tdmtui.core.estimation.sensitivity import timing_sensitivity
 from tdmtui.core.estimation.working import WorkingStep
 
@@ -250,7 +251,7 @@ def _before_estimation(case: Case, rules: Rules, renal: RenalSummary, choice: st
     return MethodContext(case, rules, renal, history, usable, cur, regimen_targets(base)), base, asked, chosen
 
 
-def _estimate_fields(ctx: MethodContext, runs: methods.MethodRuns, asked: str, chosen: str | None, used: str,
+def _estimate_fields(ctx: MethodContext, runs: MethodRuns, asked: str, chosen: str | None, used: str,
                      n_levels: int, sens_rows: list[dict[str, Any]]) -> dict[str, Any]:
     """The result's method, its reason, the estimate used, the other methods, the levels, the timing sensitivity."""
     cur, weight = ctx.current, ctx.case.patient.weight

@@ -8,7 +8,9 @@ to the method used).
 
 A record names its functions as ``"module:function"`` entry points, imported
 only when the method runs: case loading reads this module, so it stays at the
-bottom of the core and pulls in no estimation code (nor scipy).
+bottom of the core and pulls in no estimation code (nor scipy), and names no
+type of the estimation stage either (not even for annotations): the stage calls
+the entry points with its own types (:mod:`tdmtui.core.estimation.runs`).
 
 Estimation methods and regimen options are different things. A method turns
 levels and doses into the patient's parameters (:class:`Method`); a regimen
@@ -26,26 +28,27 @@ from __future__ import annotations
 
 import importlib
 from dataclasses import dataclass, field
-from typing import TYPE_CHECKING, Any, Callable
+from typing import Any, Callable, Generic, TypeVar
 
-if TYPE_CHECKING:
-    from tdmtui.core.alerts import Alert
-    from tdmtui.core.estimation.context import MethodContext
-    from tdmtui.core.estimation.estimates import Estimate
+from tdmtui.core.alerts import Alert
 
 #: Why a method that needs no renal function is refused with renal replacement therapy.
 RRT_REFUSAL = "not valid with renal replacement therapy (Cockcroft-Gault and two-level methods do not apply)"
 
+#: The estimate type of a run: :class:`tdmtui.core.estimation.estimates.Estimate`. The table sits below the
+#: estimation stage, so it names no type of that stage; the stage fills it in (``MethodRun[Estimate]``).
+E = TypeVar("E")
 
-def _entry(name: str) -> Callable[..., Any]:
-    """The function an entry point ``"module:function"`` names."""
+
+def entry(name: str) -> Callable[..., Any]:
+    """The function an entry point ``"module:function"`` names (imported when first called)."""
     module, func = name.split(":")
     fn: Callable[..., Any] = getattr(importlib.import_module(module), func)
     return fn
 
 
 @dataclass(frozen=True)
-class MethodRun:
+class MethodRun(Generic[E]):
     """What one method's run gave.
 
     Attributes:
@@ -55,7 +58,7 @@ class MethodRun:
         flags: alerts that belong to the method when it is the one used.
     """
 
-    estimates: dict[str, Estimate] = field(default_factory=dict)
+    estimates: dict[str, E] = field(default_factory=dict)
     failures: dict[str, str] = field(default_factory=dict)
     flags: tuple[Alert, ...] = ()
 
@@ -94,50 +97,14 @@ class Method:
     explain: str | None = None
     with_renal_replacement: bool = False
 
-    def concerns(self, ctx: MethodContext) -> bool:
-        """Whether the method concerns this case at all (``when``)."""
-        return self.when is None or bool(_entry(self.when)(ctx))
-
-    def notes(self, ctx: MethodContext) -> list[str]:
-        """Notes for the reason it gave no estimate (``explain``)."""
-        out: list[str] = _entry(self.explain)(ctx) if self.explain else []
-        return out
-
-    def refusal(self, ctx: MethodContext) -> str | None:
-        """Why the method does not apply to this case, or None when it may run."""
-        if len(ctx.usable) < self.min_levels:
-            return f"needs {_count(self.min_levels)} or more usable levels; {len(ctx.usable)} available"
-        if not self.with_renal_replacement and ctx.case.patient.renal_replacement != "none":
+    def refusal(self, usable: int, renal_replacement: str) -> str | None:
+        """Why the method does not apply, given the usable levels and the renal replacement therapy
+        (``patient.renal_replacement``), or None when it may run."""
+        if usable < self.min_levels:
+            return f"needs {_count(self.min_levels)} or more usable levels; {usable} available"
+        if not self.with_renal_replacement and renal_replacement != "none":
             return RRT_REFUSAL
         return None
-
-    def run(self, ctx: MethodContext) -> MethodRun:
-        """Estimate with this method (raises NoEstimateError or ConvergenceError when it gives none)."""
-        run: MethodRun = _entry(self.estimate)(ctx)
-        return run
-
-    def refit_on(self, ctx: MethodContext, est: Estimate) -> Estimate | None:
-        """The same method on a changed case, or None when it is not refitted or gives none."""
-        if self.refit is None:
-            return None
-        out: Estimate | None = _entry(self.refit)(ctx, est)
-        return out
-
-    def used_alerts(self, ctx: MethodContext, est: Estimate, runs: MethodRuns) -> list[Alert]:
-        """Alerts that belong to this method as the one used."""
-        if self.alerts is None:
-            return []
-        out: list[Alert] = _entry(self.alerts)(ctx, est, runs)
-        return out
-
-
-@dataclass(frozen=True)
-class MethodRuns:
-    """Every method's run, merged: estimates and failures by result key, flags by method id."""
-
-    estimates: dict[str, Estimate]
-    failures: dict[str, str]
-    flags: dict[str, tuple[Alert, ...]]
 
 
 @dataclass(frozen=True)

@@ -30,7 +30,7 @@ def test_every_entry_point_resolves_to_a_function():
     for m in registry.METHODS:
         for name in (m.estimate, m.refit, m.alerts):
             if name is not None:
-                assert callable(registry._entry(name)), f"{m.id}: {name}"
+                assert callable(registry.entry(name)), f"{m.id}: {name}"
 
 
 def test_every_list_of_methods_is_the_registry():

@@ -21,11 +21,12 @@ from tdmtui.core.course.history import level_exclusion
 from tdmtui.core.estimation.context import MethodContext
 from tdmtui.core.errors import ConvergenceError, NoEstimateError
 from tdmtui.core.estimation.estimates import Estimate, textbook_population
-from tdmtui.core.registry import MethodRun, MethodRuns
+from tdmtui.core.registry import MethodRun
+from tdmtui.core.estimation.runs import MethodRuns
 from tdmtui.core.estimation.working import WorkingStep
 
 
-def _one(est: Estimate) -> MethodRun:
+def _one(est: Estimate) -> MethodRun[Estimate]:
     return MethodRun({est.method: est})
 
 
@@ -37,13 +38,13 @@ def _doses_before(ctx: MethodContext) -> list[Dose]:
     return [d for d in ctx.case.doses if d.start <= ctx.case.as_of]
 
 
-def two_level(ctx: MethodContext) -> MethodRun:
+def two_level(ctx: MethodContext) -> MethodRun[Estimate]:
     """Two-level: ke and V exactly through the two latest usable levels, all doses superposed."""
     return _one(_from_twolevel(twolevel.two_level(ctx.history, ctx.usable, ctx.case.clock.format,
                                                   min_gap_h=float(ctx.rules.value("levels.min_gap_h")))))
 
 
-def sawchuk_zaske(ctx: MethodContext) -> MethodRun:
+def sawchuk_zaske(ctx: MethodContext) -> MethodRun[Estimate]:
     """Sawchuk-Zaske over one dosing interval."""
     tau = ctx.current.interval_h if ctx.current else None
     within = float(ctx.rules.value("monitoring.steady_state_within_rel"))
@@ -51,7 +52,7 @@ def sawchuk_zaske(ctx: MethodContext) -> MethodRun:
                                                       min_gap_h=float(ctx.rules.value("levels.min_gap_h")))))
 
 
-def least_squares(ctx: MethodContext) -> MethodRun:
+def least_squares(ctx: MethodContext) -> MethodRun[Estimate]:
     """Proportionally weighted least squares through every usable level, no prior."""
     from tdmtui.core.estimation import lsq
     from tdmtui.core.estimation.bayes import Observations
@@ -69,7 +70,7 @@ def least_squares(ctx: MethodContext) -> MethodRun:
                          f"proportionally weighted least squares through {len(obs)} levels, no prior"))
 
 
-def population(ctx: MethodContext) -> MethodRun:
+def population(ctx: MethodContext) -> MethodRun[Estimate]:
     """The library's hand-calculation population relations from CrCl and weight."""
     return _one(textbook_population(ctx.rules, ctx.renal.crcl_ml_min, ctx.case.patient.weight,
                                     ctx.renal.dosing_weight_kg))
@@ -152,17 +153,17 @@ def set_aside(ctx: MethodContext) -> list[str]:
     return out
 
 
-def one_level(ctx: MethodContext) -> MethodRun:
+def one_level(ctx: MethodContext) -> MethodRun[Estimate]:
     """One level, population volume, every dose superposed."""
     return _one(_one_level(ctx, "one-level"))
 
 
-def one_level_steady_state(ctx: MethodContext) -> MethodRun:
+def one_level_steady_state(ctx: MethodContext) -> MethodRun[Estimate]:
     """The classic single-level steady-state method."""
     return _one(_one_level(ctx, "one-level-steady-state"))
 
 
-def continuous_steady_state(ctx: MethodContext) -> MethodRun:
+def continuous_steady_state(ctx: MethodContext) -> MethodRun[Estimate]:
     """CL = rate / level at steady state during a continuous infusion."""
     return _one(_one_level(ctx, "continuous-steady-state"))
 

@@ -22,7 +22,8 @@ from tdmtui.core.errors import ConvergenceError, NoEstimateError
 from tdmtui.core.estimation.estimates import Estimate
 from tdmtui.core.estimation.estimators import ONE_LEVEL
 from tdmtui.core.models import DoseArrays
-from tdmtui.core.registry import MethodRuns
+from tdmtui.core.estimation import runs as entries
+from tdmtui.core.estimation.runs import MethodRuns
 from tdmtui.core.estimation.renalcourse import classic_note, straddle_reason
 
 if TYPE_CHECKING:
@@ -42,16 +43,16 @@ def run_all(ctx: MethodContext) -> MethodRuns:
     why: dict[str, str] = {}
     flags: dict[str, tuple[Alert, ...]] = {}
     for m in registry.METHODS:
-        if not m.concerns(ctx):
+        if not entries.concerns(m, ctx):
             continue
-        refusal = m.refusal(ctx)
+        refusal = entries.refusal(m, ctx)
         if refusal is not None:
             why[m.id] = refusal
             continue
         try:
-            run = m.run(ctx)
+            run = entries.run(m, ctx)
         except (NoEstimateError, ConvergenceError) as exc:
-            why[m.id] = getattr(exc, "why", str(exc)) + "".join(f"; {n}" for n in m.notes(ctx))
+            why[m.id] = getattr(exc, "why", str(exc)) + "".join(f"; {n}" for n in entries.notes(m, ctx))
             continue
         est.update(run.estimates)
         for key, e in run.estimates.items():
@@ -121,7 +122,7 @@ def compare(ctx: MethodContext, est: dict[str, Estimate], used: str) -> list[Ale
 def used_alerts(ctx: MethodContext, est: Estimate, runs: MethodRuns) -> list[Alert]:
     """Alerts that belong to the method actually used (model cautions, poor fit, levels left unused)."""
     rec = registry.get(est.method)
-    return rec.used_alerts(ctx, est, runs) if rec else []
+    return entries.used_alerts(rec, ctx, est, runs) if rec else []
 
 
 def levels_for_estimates(ctx: MethodContext) -> list[Level]:

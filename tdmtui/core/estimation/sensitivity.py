@@ -20,6 +20,7 @@ from typing import Any
 import numpy as np
 
 from tdmtui.core import registry
+from tdmtui.core.estimation import runs as entries
 from tdmtui.core.course import history as course
 from tdmtui.core.alerts import Alert
 from tdmtui.core.input.casetypes import Case
@@ -53,7 +54,7 @@ def _rerun(ctx: MethodContext, est: Estimate, case: Case) -> Estimate | None:
         return None
     sub = dataclasses.replace(ctx, case=case, history=_history(ctx, case), usable=course.usable_levels(case, ctx.rules))
     try:
-        return rec.refit_on(sub, est)
+        return entries.refit(rec, sub, est)
     except (NoEstimateError, ConvergenceError):
         return None
 
