@@ -43,10 +43,9 @@ from tdmtui.core.alerts import Alert
 
 if TYPE_CHECKING:
     from tdmtui.core.input.casetypes import Level
-    from tdmtui.core.estimation.context import MethodContext
-    from tdmtui.core.estimation.estimates import Estimate
     from tdmtui.core.library import Rules
     from tdmtui.core.regimen.targets import Targets
+    from tdmtui.core.regimen.types import Assessed, EstimateUsed
 
 #: Stable warning codes raised here, with their meaning.
 CODES = {
@@ -67,7 +66,7 @@ class Predicted:
     method: str
 
 
-def _predicted(ctx: MethodContext, est: Estimate, targets: Targets) -> Predicted | None:
+def _predicted(ctx: Assessed, est: EstimateUsed, targets: Targets) -> Predicted | None:
     cur = ctx.current
     if cur is None or cur.dose_mg <= 0 or cur.interval_h <= 0:
         return None
@@ -77,7 +76,7 @@ def _predicted(ctx: MethodContext, est: Estimate, targets: Targets) -> Predicted
     return Predicted(c.auc24, c.peak_ref, c.trough, est.method)
 
 
-def _due_after(ctx: MethodContext, t: float) -> float | None:
+def _due_after(ctx: Assessed, t: float) -> float | None:
     """Start of the first dose after ``t`` (recorded, else the standing order's next one)."""
     later = [d.start for d in ctx.case.doses if d.start > t]
     if later:
@@ -88,7 +87,7 @@ def _due_after(ctx: MethodContext, t: float) -> float | None:
     return max(earlier) + ctx.current.interval_h if earlier and ctx.current is not None else None
 
 
-def _troughs(ctx: MethodContext) -> list[tuple[Level, float]]:
+def _troughs(ctx: Assessed) -> list[tuple[Level, float]]:
     """Usable quantified levels in the trough position, with hours before the dose."""
     window = float(ctx.rules.value("exposure.trough_window_h"))
     out = []
@@ -99,7 +98,7 @@ def _troughs(ctx: MethodContext) -> list[tuple[Level, float]]:
     return out
 
 
-def _peaks(ctx: MethodContext) -> list[tuple[Level, float]]:
+def _peaks(ctx: Assessed) -> list[tuple[Level, float]]:
     """Usable quantified levels in the peak position, with hours after the end of the infusion."""
     from tdmtui.core.course.history import is_continuous
 
@@ -116,7 +115,7 @@ def _what(measured: str, predicted: str) -> str:
     return " and ".join(x for x in (measured, predicted) if x)
 
 
-def _auc_alerts(ctx: MethodContext, targets: Targets, pred: Predicted | None) -> list[Alert]:
+def _auc_alerts(ctx: Assessed, targets: Targets, pred: Predicted | None) -> list[Alert]:
     if targets.auc24 is None or pred is None:
         return []
     hi = targets.auc24[1]
@@ -140,7 +139,7 @@ def _trough_limit(rules: Rules, targets: Targets) -> float | None:
     return limit if limit > 0 else None
 
 
-def _trough_alerts(ctx: MethodContext, targets: Targets, pred: Predicted | None, hold: bool,
+def _trough_alerts(ctx: Assessed, targets: Targets, pred: Predicted | None, hold: bool,
                    unstable: bool) -> list[Alert]:
     limit = _trough_limit(ctx.rules, targets)
     if limit is None:
@@ -163,7 +162,7 @@ def _trough_alerts(ctx: MethodContext, targets: Targets, pred: Predicted | None,
     return [Alert("trough-high", "caution", fld, f"{_what(measured, predicted)} above the {limit:g} mg/L limit: {todo}")]
 
 
-def _peak_alerts(ctx: MethodContext, targets: Targets, pred: Predicted | None) -> list[Alert]:
+def _peak_alerts(ctx: Assessed, targets: Targets, pred: Predicted | None) -> list[Alert]:
     if targets.peak is None:
         return []
     rel = float(ctx.rules.value("exposure.peak_high_rel"))
@@ -186,7 +185,7 @@ def _is_hold(a: Alert) -> bool:
     return a.code == "auc-toxic" or (a.code == "trough-high" and "hold the next dose" in a.message)
 
 
-def exposure_alerts(ctx: MethodContext, est: Estimate, option: str | None = None) -> tuple[list[Alert], list[Alert]]:
+def exposure_alerts(ctx: Assessed, est: EstimateUsed, option: str | None = None) -> tuple[list[Alert], list[Alert]]:
     """The four checks for the estimate used: ``(holds, corrections)`` (module docstring).
 
     With renal function changing (``ctx.renal.unstable``, the patient stage's flag) a trough above

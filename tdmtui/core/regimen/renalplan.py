@@ -22,10 +22,8 @@ from typing import TYPE_CHECKING, Any
 from tdmtui.core.alerts import Alert
 
 if TYPE_CHECKING:
-    from tdmtui.core.estimation.context import MethodContext
-    from tdmtui.core.estimation.estimates import Estimate
     from tdmtui.core.regimen.dialysis import SessionPlan
-    from tdmtui.core.regimen.types import Plan, RegimenInput
+    from tdmtui.core.regimen.types import Assessed, EstimateUsed, Plan, RegimenInput
 
 CODES = {
     "renal-redose-by-level": "renal function is changing and no level was drawn since: hold and redraw, then redose",
@@ -36,7 +34,7 @@ CODES = {
 }
 
 
-def session_plan(ctx: MethodContext) -> SessionPlan | None:
+def session_plan(ctx: Assessed) -> SessionPlan | None:
     """The dialysis design's input, or None when the dose-after-session plan does not apply."""
     from tdmtui.core.input import dialysis
     from tdmtui.core.regimen.dialysis import SessionPlan
@@ -50,7 +48,7 @@ def session_plan(ctx: MethodContext) -> SessionPlan | None:
     return SessionPlan(tuple(spans), tuple(upcoming), projected, cl)
 
 
-def adjust(ctx: MethodContext, est: Estimate, base: RegimenInput, plan: Plan) -> Plan:
+def adjust(ctx: Assessed, est: EstimateUsed, base: RegimenInput, plan: Plan) -> Plan:
     """The plan after the renal rules (module docstring)."""
     sp = session_plan(ctx)
     if sp is not None:
@@ -67,7 +65,7 @@ def adjust(ctx: MethodContext, est: Estimate, base: RegimenInput, plan: Plan) ->
     return _unstable(ctx, est, plan)
 
 
-def _unstable(ctx: MethodContext, est: Estimate, plan: Plan) -> Plan:
+def _unstable(ctx: Assessed, est: EstimateUsed, plan: Plan) -> Plan:
     changed = ctx.renal.unstable_since  # the patient stage's flag (patient/renal.py), as exposure reads it
     reg = plan.regimen
     if changed is None or reg is None:

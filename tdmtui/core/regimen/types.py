@@ -8,7 +8,7 @@ mg*h/L, weight kg, CrCl mL/min.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING, Any, Protocol
 
 from tdmtui.core.course.history import CurrentRegimen  # the one standing-order type (re-exported here)
 
@@ -16,10 +16,12 @@ if TYPE_CHECKING:
     import numpy as np
 
     from tdmtui.core.alerts import Alert
-    from tdmtui.core.input.casetypes import Dose, Level, Target
+    from tdmtui.core.input.casetypes import Case, Dose, Level, Target
     from tdmtui.core.input.clock import Clock
     from tdmtui.core.library import Rules
     from tdmtui.core.models import DoseArrays, PKParams
+    from tdmtui.core.patient.renal import RenalSummary
+    from tdmtui.core.regimen.targets import Targets
 
 
 @dataclass(frozen=True)
@@ -73,7 +75,43 @@ class RegimenInput:
     doses: tuple[Dose, ...] = ()
 
 
-__all__ = ["CurrentRegimen", "Plan", "RegimenInput"]
+__all__ = ["Assessed", "CurrentRegimen", "EstimateUsed", "Plan", "RegimenInput"]
+
+
+class Assessed(Protocol):
+    """What the rules after the design (exposure, the renal plan) read of the facts found before estimation.
+
+    :class:`tdmtui.core.estimation.context.MethodContext` is one. The estimation stage calls the regimen
+    design, so the regimen package names none of that stage's types, not even for annotations.
+    """
+
+    @property
+    def case(self) -> Case: ...
+    @property
+    def rules(self) -> Rules: ...
+    @property
+    def renal(self) -> RenalSummary: ...
+    @property
+    def history(self) -> DoseArrays: ...
+    @property
+    def usable(self) -> list[Level]: ...
+    @property
+    def current(self) -> CurrentRegimen | None: ...
+    @property
+    def targets(self) -> Targets | None: ...
+
+
+class EstimateUsed(Protocol):
+    """What they read of the estimate used (:class:`tdmtui.core.estimation.estimates.Estimate` is one)."""
+
+    @property
+    def method(self) -> str: ...
+    @property
+    def params(self) -> PKParams: ...
+    @property
+    def samples(self) -> object: ...  # posterior draws or None, handed on as RegimenInput.samples
+    @property
+    def levels_used(self) -> list[int]: ...
 
 
 @dataclass
