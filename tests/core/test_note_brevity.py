@@ -203,3 +203,26 @@ def test_warnings_a_merge_does_not_recognise_are_given_as_raised():
               _warning("nephrotoxin", "contrast with vancomycin: a different wording")]
     shown = [text for _, text in note_cautions({"warnings": raised}, raised)]
     assert shown == [w["message"] for w in raised]
+
+
+@pytest.mark.parametrize("name", ["amikacin", "gent-extended", "vanc-obese", "vanc-late-dose"])
+def test_a_continued_regimen_is_predicted_once_and_keeps_its_reference_level_and_chance(name):
+    res = outcome_of(name).result
+    reg, cur = res["regimen"], res["estimate"]["current"]
+    assert reg["action"] == "continue"
+    for key, digits in (("peak_mg_per_l", 1), ("trough_mg_per_l", 1), ("auc24_mg_h_per_l", 0)):
+        assert round(reg["predicted"][key], digits) == round(cur[key], digits), key  # so "as the current" holds
+    text = flat(render_note(outcome_of(name)))
+    m = re.search(r"Proposed: continue [^(]+\(predicted as the current([^)]*)\)", text)
+    assert m, text
+    extra = m.group(1)
+    ref = reg["predicted"].get("peak_at_reference_mg_per_l")
+    if ref is None:
+        assert "after the start" not in extra
+    else:
+        assert f"{ref:.1f} mg/L at 1 h after the start" in extra
+    prob = reg["predicted"].get("target_probability")
+    if prob is not None:
+        shown = re.search(r"chance of meeting the target (<?\d+) %", extra).group(1)
+        assert shown == ("<1" if prob < 0.005 else str(round(100 * prob)))
+    assert text.count("predicted at steady state") == 1  # the current regimen's, once

@@ -124,13 +124,24 @@ def working_block(outcome: Outcome, regimen: dict[str, Any] | None) -> list[str]
     return lines
 
 
-def _predicted(r: dict[str, Any], same_as_current: bool = False) -> str:
+_LEVELS = ("peak_mg_per_l", "trough_mg_per_l", "auc24_mg_h_per_l")
+
+
+def _predicted(r: dict[str, Any], current: dict[str, Any] | None) -> str:
+    """What follows the regimen's words: its daily dose for an infusion rate (the working gives it for doses:
+    AUC24 = daily dose / CL), its prediction at steady state (``predicted as the current`` when it continues
+    the current regimen with the same figures), the level at the target's reference time, its chance of target."""
     p = r.get("predicted") or {}
-    text = "; predicted as the current" if same_as_current else ": predicted at steady state " + f.predicted(p)
     prob = r.get("target_probability", p.get("target_probability"))
-    if prob is not None:
-        text += f"; chance of meeting the target {f.chance(float(prob))}"
-    return text
+    chance = [f"chance of meeting the target {f.chance(float(prob))}"] if prob is not None else []
+    continuous = r.get("mode") == "continuous" or r.get("infusion_h", 0) >= r.get("interval_h", 1)
+    daily = [f"{f.mg(r['daily_dose_mg'])} mg a day"] if r.get("daily_dose_mg") and continuous else []
+    if r.get("action") == "continue" and current and \
+            f.predicted({k: current.get(k) for k in _LEVELS}) == f.predicted({k: p.get(k) for k in _LEVELS}):
+        at_reference = f.predicted(p).split("; ", 1)[1:]  # ``22.0 mg/L at 1 h after the start``
+        return " (" + "; ".join(daily + ["predicted as the current"] + at_reference + chance) + ")"
+    return (f" ({daily[0]})" if daily else "") + ": predicted at steady state " + f.predicted(p) + \
+        "".join(f"; {c}" for c in chance)
 
 
 def _dose_times(times: list[str]) -> str:
@@ -197,26 +208,17 @@ def regimen_lines(outcome: Outcome, reg: dict[str, Any] | None, picked: bool,
         return lines + [x for text in plan_words(reg) for x in f.wrap(text)]
     verb = {"continue": "continue", "change": "change to", "hold-then-change": "hold, then change to"}
     act = verb.get(reg.get("action", ""), reg.get("action", ""))
-    # the daily dose in words for an infusion rate only (the working gives it for doses: AUC24 = daily dose / CL)
-    continuous = reg.get("mode") == "continuous" or reg.get("infusion_h", 0) >= reg.get("interval_h", 1)
-    daily = f" ({f.mg(reg['daily_dose_mg'])} mg a day" if reg.get("daily_dose_mg") and continuous else ""
     ld = reg.get("loading_dose")
     load = (f"loading dose {f.mg(ld['dose_mg'])} mg over {f.duration(ld['infusion_h'])} at {f.when(ld['at'])}"
             + (f": {f.outer(f.plain_source(ld['basis']))}" if ld.get("basis") else "") if ld else "no loading dose")
     timing = f" {hold_words(reg)}; {load}."
-    same = (reg.get("action") == "continue" and est.get("current")
-            and f.predicted(est["current"]) == f.predicted(reg.get("predicted") or {}))
-    predicted = _predicted(reg, same_as_current=bool(same))
-    if daily:  # the daily dose's parenthesis holds "predicted as the current" when it is so
-        daily, predicted = (daily + predicted + ")", "") if same else (daily + ")", predicted)
-    elif same:
-        predicted = " (predicted as the current)"
+    predicted = _predicted(reg, est.get("current"))
     if picked:
-        lines += f.wrap(f"Chosen in review: {act} {f.regimen_words(reg)}{daily}{predicted}.{timing}")
+        lines += f.wrap(f"Chosen in review: {act} {f.regimen_words(reg)}{predicted}.{timing}")
         if proposal and not ch.same(reg, proposal):
             lines += f.wrap(f"(The tool proposed {f.regimen_words(proposal)}.)", "  ")
     else:
-        lines += f.wrap(f"Proposed: {act} {f.regimen_words(reg)}{daily}{predicted}.{timing}")
+        lines += f.wrap(f"Proposed: {act} {f.regimen_words(reg)}{predicted}.{timing}")
         if wanted:
             lines += f.wrap(f"The regimen chosen in review ({f.regimen_words(wanted)}) is no longer offered "
                             "for this case: choose again.", "  ")

@@ -119,8 +119,7 @@ def _model_working(outcome: Outcome) -> list[str]:
         out.append(f"ke = CL/Vss = {f.clearance(est['cl_l_per_h'])}/{f.litres(est['vd_l'])} = {f.ke(est['ke_per_h'])} /h")
     else:
         out.append(f"From the model: CL {f.clearance(est['cl_l_per_h'])} L/h, Vd {f.litres(est['vd_l'])} L; "
-                   f"ke = CL / Vd = {f.clearance(est['cl_l_per_h'])} / {f.litres(est['vd_l'])} = "
-                   f"{f.ke(est['ke_per_h'])} /h")
+                   f"ke = CL/Vd = {f.clearance(est['cl_l_per_h'])}/{f.litres(est['vd_l'])} = {f.ke(est['ke_per_h'])} /h")
     return out
 
 
