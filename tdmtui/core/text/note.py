@@ -1,7 +1,8 @@
 """The chart note: a plain-text kinetics consult to paste into a progress note.
 
 :func:`render_note` takes an :class:`~tdmtui.core.compute.Outcome` and writes,
-in order: drug, indication and target; patient and renal function; the doses
+in order: drug and status; case, indication, assessment time and the clock
+its times are on; target; patient and renal function; the doses
 given; the levels and their timing; the method and estimate with the working
 a reviewer can check by hand; the regimen (the one chosen in review, else
 the proposal); monitoring; warnings; the standing caution; blank lines for
@@ -9,7 +10,10 @@ the pharmacist to sign; and the record of what produced the note. Plain
 text, at most 80 columns, no colour codes, written for clinicians: how a
 source was checked stays in the drug library and the audit record.
 
-The standard note of a one- or two-level case fits in 60 lines. ``full``
+The standard note of a one- or two-level case fits in 60 lines, each fact said
+once: the UTC offset all its times share is given in the header only, and
+warnings raised together for one cause are one caution
+(:mod:`tdmtui.core.text.notewarn`; the result keeps every code). ``full``
 adds the table of every method, every model with its inputs, each dose on
 its own line, and the references (each once). The elements follow
 pk-sources.md 6.2 (documentation of a kinetics consult). Every figure is
