@@ -245,6 +245,7 @@ def render_note(outcome: Outcome, chosen: dict[str, Any] | None = None, full: bo
     """
     with f.shared_offset(_shared_offset(outcome.case)):
         lines = _lines(outcome, chosen, full)
+    lines += imported_note_lines(outcome.case.raw)  # each value as imported, its time with its own offset
     # the output boundary: every line, free text included, loses its control characters here
     return "\n".join(f.fit([neutralise(line) for line in lines])) + "\n"
 
@@ -259,4 +260,4 @@ def _lines(outcome: Outcome, chosen: dict[str, Any] | None, full: bool) -> list[
     if full:
         lines += full_section(outcome) + references(outcome)
     lines += [""] + f.wrap(NOTE_LINE, "", "") + list(SIGNATURE) + _record(outcome)  # signed under the caution
-    return lines + imported_note_lines(outcome.case.raw)
+    return lines
