@@ -186,29 +186,6 @@ def classic_note(ctx: MethodContext, method: str, est: Estimate) -> None:
     est.extra["renal_note"] = f"{_CLASSIC[method]}, one ke for the whole history{when}"
 
 
-def note_lines(result: dict[str, Any]) -> list[str]:
-    """Sentences for the chart note: CrCl per interval, what the fit did with it, the fixed fit beside."""
-    est = result.get("estimate") or {}
-    rows = est.get("renal_course")
-    unstable = any(w.get("code") == "scr-unstable" for w in result.get("warnings") or [])
-    if not rows or not (unstable or str(est.get("method", "")).startswith(("bayesian", "population"))):
-        return []  # a classic method's estimate with stable renal function: nothing for the chart
-    parts = []
-    for r in rows:
-        span = (f"until {r['until']}" if r["from"] is None else
-                f"from {r['from']}" if r["until"] is None else f"{r['from']} to {r['until']}")
-        parts.append(f"{r['crcl_ml_min']:.0f} {span.replace('T', ' ')} (SCr {r['scr_mg_dl']:.2f})")
-    how = est.get("renal_note") or ("clearance followed each value, held from its draw until the next; "
-                                    "the forecast and the regimen use the latest")
-    out = [f"Renal function over the course, CrCl mL/min: {'; '.join(parts)}. {how[0].upper() + how[1:]}."]
-    fixed = (result.get("methods") or {}).get("bayesian:fixed-renal")
-    if fixed and str(est.get("method", "")).startswith("bayesian"):
-        auc = (fixed.get("current") or {}).get("auc24_mg_h_per_l")
-        out.append(f"Fitted as if the latest CrCl had held throughout: CL {fixed['cl_l_per_h']:.2f} L/h"
-                   + (f", AUC24 now {auc:.0f} mg*h/L" if auc else "") + " (the estimate above follows each SCr).")
-    return out
-
-
 #: Methods that fit one ke to several levels.
 _ONE_KE = ("two-level", "sawchuk-zaske", "least-squares")
 

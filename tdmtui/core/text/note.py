@@ -1,7 +1,8 @@
 """The chart note: a plain-text kinetics consult to paste into a progress note.
 
 :func:`render_note` takes an :class:`~tdmtui.core.compute.Outcome` and writes,
-in order: drug, indication and target; patient and renal function; the doses
+in order: drug and status; case, indication, assessment time and the clock
+its times are on; target; patient and renal function; the doses
 given; the levels and their timing; the method and estimate with the working
 a reviewer can check by hand; the regimen (the one chosen in review, else
 the proposal); monitoring; warnings; the standing caution; blank lines for
@@ -9,7 +10,10 @@ the pharmacist to sign; and the record of what produced the note. Plain
 text, at most 80 columns, no colour codes, written for clinicians: how a
 source was checked stays in the drug library and the audit record.
 
-The standard note of a one- or two-level case fits in 60 lines. ``full``
+The standard note of a one- or two-level case fits in 60 lines, each fact said
+once: the UTC offset all its times share is given in the header only, and
+warnings raised together for one cause are one caution
+(:mod:`tdmtui.core.text.notewarn`; the result keeps every code). ``full``
 adds the table of every method, every model with its inputs, each dose on
 its own line, and the references (each once). The elements follow
 pk-sources.md 6.2 (documentation of a kinetics consult). Every figure is
@@ -18,6 +22,7 @@ rounded by :mod:`tdmtui.core.text.notefmt`.
 
 from __future__ import annotations
 
+import re
 from typing import TYPE_CHECKING, Any
 
 from tdmtui.core.input import chosen as ch
@@ -64,24 +69,35 @@ def _patient(outcome: Outcome) -> list[str]:
     lines += f.wrap(_scr_history(case))
     rrt = {"none": "none", "ihd": "intermittent haemodialysis", "crrt": "continuous renal replacement",
            "pd": "peritoneal dialysis"}.get(p.renal_replacement, p.renal_replacement)
-    conditions = ", ".join(c.replace("-", " ") for c in p.conditions) or "none recorded"
-    lines += f.wrap(f"Renal replacement: {rrt}. Conditions: {conditions}. "
-                    f"Co-medications: {', '.join(p.comedications) or 'none'}.")
+    lines += f.wrap(_recorded([("Renal replacement", "" if rrt == "none" else rrt),
+                               ("Conditions", ", ".join(c.replace("-", " ") for c in p.conditions)),
+                               ("Co-medications", ", ".join(p.comedications))]))
     return lines
+
+
+def _recorded(items: list[tuple[str, str]]) -> str:
+    """``Conditions: frailty. No renal replacement or co-medications.`` (what is recorded, then what is not)."""
+    given = [f"{name}: {value}." for name, value in items if value]
+    empty = [name.lower() for name, value in items if not value]
+    if empty:
+        given.append("No " + (empty[0] if len(empty) == 1 else ", ".join(empty[:-1]) + " or " + empty[-1]) + ".")
+    return " ".join(given)
 
 
 def _scr_history(case: Any) -> str:
     series = sorted(case.patient.scr, key=lambda s: (s.time if s.time is not None else -1e18, s.index or 0))
-    entries = [f"{f.scr(s.value)}{f.raw_scr(case, s.index)}"
-               + (f" on {f.when(case.clock.format(s.time))}" if s.time is not None else " (undated)")
-               for s in series]
+    entries, year = [], None
+    for s in series:
+        when = f.when(case.clock.format(s.time)) if s.time is not None else ""
+        shown = when[5:] if year is not None and when[:4] == year else when  # the year once, as the doses give it
+        year = when[:4] if when else year
+        entries.append(f"{f.scr(s.value)}{f.raw_scr(case, s.index)}" + (f" on {shown}" if when else " (undated)"))
     text = "SCr (mg/dL): " + ", ".join(entries)
     if len(series) > 1 and series[0].time is not None:
         a, b = series[0], series[-1]
         change, span = b.value - a.value, f.duration(b.time - a.time)
         text += (", unchanged" if abs(change) < 0.005 else
-                 f" ({'up' if change > 0 else 'down'} {f.scr(abs(change))}, {100.0 * change / a.value:+.0f} %, "
-                 f"in {span})")
+                 f"; {'+' if change > 0 else '-'}{f.scr(abs(change))} ({100.0 * change / a.value:+.0f} %) in {span}")
     return text + "."
 
 
@@ -118,6 +134,7 @@ def _levels(outcome: Outcome, full: bool) -> list[str]:
         return ["Levels: none measured."]
     lines = ["Levels:"]
     table = {row["field"]: row for row in res.get("levels", [])}
+    used = set((res.get("estimate") or {}).get("levels_used") or [])
     key = "monitoring.steady_state_within_rel"
     within = float(outcome.rules.value(key)) if outcome.rules else common_number(key)
     last_share = None
@@ -129,8 +146,10 @@ def _levels(outcome: Outcome, full: bool) -> list[str]:
                    else f.level_when(lv.time, list(case.doses))))
         if lv.timing != "actual":
             text += f"; {lv.timing} time"
-        if not lv.use or row.get("usable") is False:
-            why = lv.reason if not lv.use else row.get("excluded_because") or "not usable"
+        if lv.use and row.get("usable") is False and f"levels[{lv.index}]" in used and mark:
+            pass  # beyond an assay limit, taken by the estimate as a bound (its Method line says so)
+        elif not lv.use or row.get("usable") is False:
+            why = lv.reason if not lv.use else f.local_times(row.get("excluded_because") or "not usable")
             text += f". SET ASIDE: {f.plain_paths(why)}"
         elif outcome.params is not None and cur:
             last_share = f.steady_state_share(outcome.params, list(case.doses), lv.time, cur) or last_share
@@ -152,16 +171,47 @@ def _record(outcome: Outcome) -> list[str]:
     return lines
 
 
+def _shared_offset(case: Any) -> str | None:
+    """The UTC offset every time of the note carries (each is written in it), for a case with offsets."""
+    return (case.clock.out_offset or "Z") if case.clock.style == "offset" else None
+
+
+def _entered_offsets(node: Any) -> set[str]:
+    """The UTC offsets written on the case's times, as entered."""
+    if isinstance(node, dict):
+        return set().union(*(_entered_offsets(v) for v in node.values())) if node else set()
+    if isinstance(node, list):
+        return set().union(*(_entered_offsets(v) for v in node)) if node else set()
+    m = _ENTERED.fullmatch(node) if isinstance(node, str) else None
+    return {m.group(1)} if m else set()
+
+
+_ENTERED = re.compile(r"\d{4}-\d{2}-\d{2}T\d{2}:\d{2}(?::\d{2}(?:\.\d+)?)?(Z|[+-]\d{2}:\d{2})")
+
+
+def _clock_words(case: Any) -> str:
+    """The clock the note's times are on, said once: a time zone, or the UTC offset they all carry."""
+    if case.clock.style == "zone":
+        return f" (times {case.clock.zone_name})"
+    off = _shared_offset(case)
+    if off is None:
+        return ""
+    label = "UTC" if off in ("Z", "+00:00") else f"UTC{off}"
+    if _entered_offsets(case.raw) - {off}:
+        return f" (times {label}; those entered at another offset converted to it)"
+    return f" (times {label})"
+
+
 def _header(outcome: Outcome) -> list[str]:
     res, case = outcome.result, outcome.case
     status = "STOP: a stop-level warning stands" if res.get("status") == "stop" else "ok"
-    lines = [f"{res['drug'].upper()} PHARMACOKINETIC CONSULT"]
-    lines += f.wrap(f"Case: {case.label or '(no label)'}")
+    lines = [f"{res['drug'].upper()} PHARMACOKINETIC CONSULT - status: {status}"]
     when = f.when(res.get("as_of")) + ("" if case.as_of_given else " (latest event; none given)")
-    if case.clock.style == "zone":
-        when += f" {case.clock.zone_name}"
-    lines += f.wrap(f"Assessed as of {when}. Status: {status}. "
-                    f"Indication: {case.target.indication or 'not given'}.")
+    label, assessed = f"Case: {case.label or '(no label)'}", f"Assessed as of {when}{_clock_words(case)}."
+    indication = f"Indication: {case.target.indication or 'not given'}."
+    after_time = f.wrap(label) + f.wrap(f"{assessed} {indication}")
+    after_label = f.wrap(f"{label.rstrip('.')}. {indication}") + f.wrap(assessed)
+    lines += after_label if len(after_label) < len(after_time) else after_time  # the layout in fewer lines
     return lines + f.target_lines(res, case, outcome.rules.get("mic.default_mg_l") if outcome.rules else None)
 
 
@@ -193,6 +243,14 @@ def render_note(outcome: Outcome, chosen: dict[str, Any] | None = None, full: bo
     Returns:
         The note, lines joined with newlines, ending with a newline.
     """
+    with f.shared_offset(_shared_offset(outcome.case)):
+        lines = _lines(outcome, chosen, full)
+    lines += imported_note_lines(outcome.case.raw)  # each value as imported, its time with its own offset
+    # the output boundary: every line, free text included, loses its control characters here
+    return "\n".join(f.fit([neutralise(line) for line in lines])) + "\n"
+
+
+def _lines(outcome: Outcome, chosen: dict[str, Any] | None, full: bool) -> list[str]:
     wanted = chosen if chosen is not None else ch.parse_chosen(outcome.case.raw)
     regimen, picked = chosen_of(outcome, chosen)
     lines = _header(outcome) + _patient(outcome) + _doses(outcome, full) + _levels(outcome, full)
@@ -201,7 +259,5 @@ def render_note(outcome: Outcome, chosen: dict[str, Any] | None = None, full: bo
     lines += warning_lines(outcome.result, full)
     if full:
         lines += full_section(outcome) + references(outcome)
-    lines += [""] + f.wrap(NOTE_LINE, "", "") + [""] + list(SIGNATURE) + _record(outcome)
-    lines += imported_note_lines(outcome.case.raw)
-    # the output boundary: every line, free text included, loses its control characters here
-    return "\n".join(f.fit([neutralise(line) for line in lines])) + "\n"
+    lines += [""] + f.wrap(NOTE_LINE, "", "") + list(SIGNATURE) + _record(outcome)  # signed under the caution
+    return lines

@@ -25,13 +25,14 @@ steady-state equations of pk-sources.md 2.2-2.3 through :mod:`tdmtui.core.models
 from __future__ import annotations
 
 import math
-import re
 import textwrap
-from typing import TYPE_CHECKING, Any, Callable
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
 from tdmtui.core.text import numfmt
+from tdmtui.core.text.notewords import (  # noqa: F401 - the note's sections call them through this module
+    local_times, nested, outer, plain_paths, plain_source, shared_offset, short_source, when)
 from tdmtui.core.models import DoseArrays, PKParams, concentration
 
 if TYPE_CHECKING:
@@ -118,11 +119,6 @@ def duration(h: float) -> str:
 def every(tau: float) -> str:
     """A dosing interval: ``every 12 h``, ``every 36 h``."""
     return f"every {duration(tau)}"
-
-
-def when(text: str | None) -> str:
-    """A contract time (``YYYY-MM-DDTHH:MM[offset]``) written for people."""
-    return "-" if not text else str(text).replace("T", " ", 1)
 
 
 # --- text layout ----------------------------------------------------------------
@@ -279,7 +275,7 @@ def target_lines(result: dict[str, Any], case: Case, default_mic: float | None) 
                 origin = (tg.get("sources") or {}).get(src, "")
                 why = short_source((tg.get("citations") or {}).get(src) or "")
                 if origin == "case" or not why:
-                    why = {"case": "written in the case", "protocol": "local protocol"}.get(origin, "drug library")
+                    why = {"case": "from the case", "protocol": "local protocol"}.get(origin, "drug library")
                 groups.setdefault(why, []).append(f"{label} {fmt(lo)}-{fmt(hi)} {unit}")
         bands = [f"{', '.join(items)} ({why})" for why, items in groups.items()]
         ref = str(tg.get("peak_reference") or "")
@@ -293,7 +289,7 @@ def target_lines(result: dict[str, Any], case: Case, default_mic: float | None) 
     given = case.target.mic is not None
     if mic is None and default_mic is not None:
         mic = default_mic
-    text += (f". MIC {mic:g} mg/L" + ("." if given else " (default; none given).")
+    text += (f". MIC {mic:g} mg/L" + ("." if given else " (default).")
              if mic is not None else ". MIC not given.")
     return wrap(text)
 
@@ -306,9 +302,10 @@ def estimate_cells(e: dict[str, Any]) -> tuple[str, ...]:
 
 
 def predicted(p: dict[str, Any]) -> str:
-    """Predicted steady-state peak, trough and AUC24 in words."""
-    text = (f"peak {conc(p.get('peak_mg_per_l'))} mg/L, trough {conc(p.get('trough_mg_per_l'))} mg/L, "
-            f"AUC24 {auc(p.get('auc24_mg_h_per_l'))} mg*h/L")
+    """Predicted steady-state peak, trough and AUC24 in words (``peak 32.7, trough 16.3 mg/L, AUC24 568 mg*h/L``)."""
+    peak, trough = conc(p.get("peak_mg_per_l")), conc(p.get("trough_mg_per_l"))
+    levels = f"Css {peak} mg/L" if peak == trough else f"peak {peak}, trough {trough} mg/L"  # a continuous infusion
+    text = f"{levels}, AUC24 {auc(p.get('auc24_mg_h_per_l'))} mg*h/L"
     if p.get("peak_at_reference_mg_per_l") is not None:
         text += (f"; {conc(p['peak_at_reference_mg_per_l'])} mg/L at "
                  f"{duration(p.get('peak_reference_h_after_start', 0))} after the start")
@@ -321,48 +318,6 @@ def regimen_words(r: dict[str, Any]) -> str:
         rate = r.get("rate_mg_per_h") or r["dose_mg"] / r["infusion_h"]
         return f"a continuous infusion of {rate:.1f} mg/h"
     return f"{mg(r['dose_mg'])} mg {every(r['interval_h'])} over {duration(r['infusion_h'])}"
-
-
-# --- words for clinicians ---------------------------------------------------------------
-
-#: Remarks about how a fact was checked: they belong to the library and the audit record, not the chart.
-_CHECK_REMARKS = re.compile(
-    r"\s*\[(?:library|protocol|confirmed[^\]]*|from memory[^\]]*)\]"
-    r"|,?\s*(?:citation(?: details)? )?from memory"
-    r"|,\s*confirmed(?:-secondary)?(?: text)?(?=[);,.]|$)"
-    r"|,?\s*year not confirmed", re.IGNORECASE)
-_PATHS = (
-    (re.compile(r"\bdoses\[(\d+)\](?:\.\w+)?"), "dose"),
-    (re.compile(r"\blevels\[(\d+)\](?:\.\w+)?"), "level"),
-    (re.compile(r"\bpatient\.scr\[(\d+)\](?:\.\w+)?"), "SCr value"),
-)
-
-
-def plain_source(text: str) -> str:
-    """A source as a clinician reads it: remarks on how it was checked removed."""
-    out = _CHECK_REMARKS.sub("", str(text or ""))
-    return re.sub(r"\(\s*\)|\s+(?=[),.;])", "", out).strip(" ;,")
-
-
-def short_source(text: str) -> str:
-    """The name of a source, e.g. ``2020 vancomycin consensus guideline`` or ``KDIGO 2012``."""
-    text = plain_source(text)
-    head, colon, _ = text.partition(":")
-    if colon and "(" not in head:
-        return head.strip()
-    inner = text[text.find("(") + 1:].split(")")[0] if "(" in text else text
-    return re.split(r"[;,]", inner)[0].strip()
-
-
-def _numbered(word: str) -> Callable[[re.Match[str]], str]:
-    return lambda m: f"{word} {int(m.group(1)) + 1}"
-
-
-def plain_paths(text: str) -> str:
-    """Case paths in words: ``doses[2]`` -> ``dose 3``, ``levels[0].time`` -> ``level 1``."""
-    for pattern, word in _PATHS:
-        text = pattern.sub(_numbered(word), text)
-    return re.sub(r"\bpatient\.(\w+)", lambda m: m.group(1).replace("_", " "), text)
 
 
 def dose_runs(doses: list[Any]) -> list[list[int]]:

@@ -10,6 +10,7 @@ differs from the patient's headline CrCl. :func:`full_section` adds, for
 
 from __future__ import annotations
 
+import re
 from typing import TYPE_CHECKING, Any
 
 from tdmtui.core.text import notefmt as f
@@ -48,24 +49,28 @@ def _used_covariates(model_id: str) -> list[str]:
 
 
 def _crcl_words(outcome: Outcome, model_id: str, value: float) -> str:
+    """The model's CrCl; when it differs from the patient's CrCl above, how the model computes it and why."""
     rules = _rules_of(model_id)
     weight = _WEIGHTS.get(str(rules.get("crcl_weight", "tbw")), str(rules.get("crcl_weight")))
-    text = f"CrCl {value:.0f} mL/min (Cockcroft-Gault, {weight}, as the model defines it"
     headline = outcome.result["patient"]["crcl_ml_min"]
-    if abs(value - headline) >= 0.5:
-        why = []
-        renal = outcome.renal
-        if renal is not None and abs(renal.crcl_weight_kg - outcome.case.patient.weight) >= 0.05:
-            why.append("it uses " + f.weight_words(outcome.result["patient"], outcome.case.patient.weight,
-                                                           renal.crcl_weight_kg))
-        if float(rules.get("crcl_cap_ml_min", 0) or 0) and value >= float(rules["crcl_cap_ml_min"]) - 0.5:
-            why.append(f"the model caps CrCl at {float(rules['crcl_cap_ml_min']):.0f} mL/min")
-        floor = float(rules.get("scr_floor_mg_dl", 0) or 0)
-        if floor > 0 and renal is not None and renal.scr_measured_mg_dl < floor:
-            why.append(f"the model raises SCr to {f.scr(floor)} mg/dL")
-        if renal is not None and renal.scr_used_mg_dl > renal.scr_measured_mg_dl:
-            why.append("it uses the SCr floor")
-        text += f"; the headline CrCl is {headline:.0f} mL/min" + (": " + ", ".join(why) if why else "")
+    if abs(value - headline) < 0.5:  # the patient's CrCl above, however the model defines it
+        return f"CrCl {value:.0f} mL/min"
+    how = [f"the model's Cockcroft-Gault on {weight}"]
+    renal = outcome.renal
+    floor = float(rules.get("scr_floor_mg_dl", 0) or 0)
+    if floor > 0 and renal is not None and renal.scr_measured_mg_dl < floor:
+        how.append(f"SCr raised to {f.scr(floor)} mg/dL")
+    if renal is not None and renal.scr_used_mg_dl > renal.scr_measured_mg_dl:
+        how.append("the SCr floor")
+    if float(rules.get("crcl_cap_ml_min", 0) or 0) and value >= float(rules["crcl_cap_ml_min"]) - 0.5:
+        how.append(f"capped at {float(rules['crcl_cap_ml_min']):.0f} mL/min")
+    text = f"CrCl {value:.0f} mL/min ({', '.join(how)}"
+    rp = outcome.result["patient"]
+    model_weight = {"tbw": outcome.case.patient.weight, "ibw": rp.get("ibw_kg"),
+                    "adjbw": rp.get("adjbw_kg")}.get(str(rules.get("crcl_weight", "tbw")))
+    if renal is not None and model_weight and abs(headline * model_weight / renal.crcl_weight_kg - headline) >= 0.5:
+        # the weights differ enough to change CrCl (Cockcroft-Gault is proportional to weight)
+        text += "; the CrCl above uses " + f.weight_words(rp, outcome.case.patient.weight, renal.crcl_weight_kg)
     return text + ")"
 
 
@@ -169,6 +174,15 @@ def full_section(outcome: Outcome) -> list[str]:
     return lines
 
 
+_JOURNAL = re.compile(r"\b\d{4};\d+(?:\(\d+\))?:\d+-\d+")
+
+
+def _same_work(text: str, listed: list[str]) -> bool:
+    """True when ``text`` cites a paper (year;volume:pages) that a listed reference already cites."""
+    m = _JOURNAL.search(text)
+    return m is not None and any(m.group(0) in other for other in listed)
+
+
 def references(outcome: Outcome) -> list[str]:
     """Each source the note rests on, once, as a clinician would cite it."""
     res, rules = outcome.result, outcome.rules
@@ -181,9 +195,12 @@ def references(outcome: Outcome) -> list[str]:
     found += [str(v) for v in (tg.get("citations") or {}).values() if v != "target written in the case"]
     if rules is not None and float(rules.value("renal.scr_floor_mg_dl")) > 0:
         found.append(str(rules.citation("renal.scr_floor_mg_dl")))
+    reg = res.get("regimen") or {}
+    for r in [reg, *(reg.get("alternatives") or [])]:  # the sources the loading dose's basis names in the Plan
+        found += f.nested(str((r.get("loading_dose") or {}).get("basis") or ""))
     seen: list[str] = []
     for text in (f.plain_source(x).rstrip(".") for x in found):
-        if text and text not in seen:
+        if text and text not in seen and not _same_work(text, seen):
             seen.append(text)
     if not seen:
         return []

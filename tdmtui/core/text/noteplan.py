@@ -9,12 +9,14 @@ put into words.
 
 from __future__ import annotations
 
+import re
 from typing import TYPE_CHECKING, Any
 
 from tdmtui.core.input import chosen as ch
 from tdmtui.core.text import notefmt as f
 from tdmtui.core import registry
 from tdmtui.core.text.notework import working_lines
+from tdmtui.core.text.notewarn import warning_lines  # noqa: F401 - the note's sections, from one module
 
 if TYPE_CHECKING:
     from tdmtui.core.compute import Outcome
@@ -68,26 +70,50 @@ def estimate_lines(outcome: Outcome, regimen: dict[str, Any] | None, model_words
     on = f" on level{'s' if ' ' in nums else ''} {nums}" if nums else ""
     option = registry.option(method)
     if option is not None:  # the regimen rests on the option (a nomogram); the estimate is given beside it
-        lines += f.wrap(f"Method: {method} ({option.description}){on}: {method_label(used, est)}.")
+        lines += f.wrap(f"Method: {method}{on} ({option.description}): {method_label(used, est)}, "
+                        f"{METHOD_TEXT.get(used, used)}.")
     elif why:  # the engine's one sentence says why this method and what it rests on
-        lines += f.wrap(f"Method: {method_label(used, est)}{on}: {f.plain_paths(why)}")
+        lines += f.wrap(f"Method: {method_label(used, est)}{on}: {f.local_times(f.plain_paths(why))}")
     else:
         lines += f.wrap(f"Method: {method_label(used, est)} ({METHOD_TEXT.get(used, used)}){on}.")
-    if registry.option(method) is not None:
-        lines += f.wrap(f"Estimate beside it: {method_label(used, est)}: {METHOD_TEXT.get(used, '')}.")
     vkg = f" ({f.numfmt.qty(est['vd_l_per_kg'], 'volume_kg')})" if est.get("vd_l_per_kg") else ""
     lines += f.wrap(f"Estimate: ke {f.ke(est['ke_per_h'])} /h, t1/2 {f.hours(est['half_life_h'])} h, "
                     f"Vd {f.litres(est['vd_l'])} L{vkg}, CL {f.clearance(est['cl_l_per_h'])} L/h.")
     lines += model_words
-    from tdmtui.core.estimation.renalcourse import note_lines
-
-    lines += [x for text in note_lines(res) for x in f.wrap(text)]
+    lines += [x for text in renal_course_words(res) for x in f.wrap(text)]
     iv = est.get("interval90") or {}
     if iv.get("cl_l_per_h") and iv.get("auc24_mg_h_per_l"):
         lines += f.wrap(f"90 % interval: CL {f.clearance(iv['cl_l_per_h'][0])}-{f.clearance(iv['cl_l_per_h'][1])} "
                         f"L/h, AUC24 now {f.auc(iv['auc24_mg_h_per_l'][0])}-{f.auc(iv['auc24_mg_h_per_l'][1])} "
                         "mg*h/L.")
     return lines + working_block(outcome, regimen) + ([] if full else _others(res))
+
+
+def renal_course_words(result: dict[str, Any]) -> list[str]:
+    """CrCl over the course and what the estimate did with it, when renal function changed (or a model
+    followed it): each boundary time once, the levels' times with their date once."""
+    est = result.get("estimate") or {}
+    rows = est.get("renal_course")
+    unstable = any(w.get("code") == "scr-unstable" for w in result.get("warnings") or [])
+    if not rows or not (unstable or str(est.get("method", "")).startswith(("bayesian", "population"))):
+        return []  # a classic method's estimate with stable renal function: nothing for the chart
+    parts = [f"{r['crcl_ml_min']:.0f} (SCr {f.scr(r['scr_mg_dl'])})" + (f" until {f.when(r['until'])}" if r["until"] else "")
+             for r in rows]
+    course = parts[0] if len(parts) == 1 else ", ".join(parts[:-1]) + ", then " + parts[-1]
+    how = est.get("renal_note") or ("clearance followed each value, held from its draw until the next; "
+                                    "the forecast and the regimen use the latest")
+    how = re.sub(r"(\d{4}-\d{2}-\d{2}) (\d{2}:\d{2}) to \1 ", r"\1 \2 to ", f.local_times(how))  # the date once
+    classic = re.fullmatch(r"(?P<src>.+?) gives? (?P<q>ke|CL) \(CrCl does not enter\), one ke for the whole history"
+                           r"; the levels were drawn (?P<span>.+): the estimate describes renal function then", how)
+    if classic:  # one ke (or CL) from the levels for the whole history: renal function when they were drawn
+        how = f"one {classic['q']} from {classic['src']}, for renal function when drawn ({classic['span']})"
+    text = f"CrCl (mL/min): {course}. {how[0].upper() + how[1:]}."
+    fixed = (result.get("methods") or {}).get("bayesian:fixed-renal")
+    if fixed and str(est.get("method", "")).startswith("bayesian"):  # beside the estimate that follows each SCr
+        auc = (fixed.get("current") or {}).get("auc24_mg_h_per_l")
+        text += (f" Fitted as if the latest CrCl had held throughout: CL {fixed['cl_l_per_h']:.2f} L/h"
+                 + (f", AUC24 now {auc:.0f} mg*h/L" if auc else "") + ".")
+    return [text]
 
 
 def working_block(outcome: Outcome, regimen: dict[str, Any] | None) -> list[str]:
@@ -98,23 +124,44 @@ def working_block(outcome: Outcome, regimen: dict[str, Any] | None) -> list[str]
     return lines
 
 
-def _predicted(r: dict[str, Any]) -> str:
+_LEVELS = ("peak_mg_per_l", "trough_mg_per_l", "auc24_mg_h_per_l")
+
+
+def _predicted(r: dict[str, Any], current: dict[str, Any] | None) -> str:
+    """What follows the regimen's words: its daily dose for an infusion rate (the working gives it for doses:
+    AUC24 = daily dose / CL), its prediction at steady state (``predicted as the current`` when it continues
+    the current regimen with the same figures), the level at the target's reference time, its chance of target."""
     p = r.get("predicted") or {}
-    text = ": predicted at steady state " + f.predicted(p)
     prob = r.get("target_probability", p.get("target_probability"))
-    if prob is not None:
-        text += f"; chance of meeting the target {f.chance(float(prob))}"
-    return text
+    chance = [f"chance of meeting the target {f.chance(float(prob))}"] if prob is not None else []
+    continuous = r.get("mode") == "continuous" or r.get("infusion_h", 0) >= r.get("interval_h", 1)
+    daily = [f"{f.mg(r['daily_dose_mg'])} mg a day"] if r.get("daily_dose_mg") and continuous else []
+    if r.get("action") == "continue" and current and \
+            f.predicted({k: current.get(k) for k in _LEVELS}) == f.predicted({k: p.get(k) for k in _LEVELS}):
+        at_reference = f.predicted(p).split("; ", 1)[1:]  # ``22.0 mg/L at 1 h after the start``
+        return " (" + "; ".join(daily + ["predicted as the current"] + at_reference + chance) + ")"
+    return (f" ({daily[0]})" if daily else "") + ": predicted at steady state " + f.predicted(p) + \
+        "".join(f"; {c}" for c in chance)
 
 
 def _dose_times(times: list[str]) -> str:
-    """``06:00 and 14:00 doses on 2026-02-10`` (each with its date when the dates differ)."""
-    parts = [f.when(t).split(" ") for t in times]
-    dates = {p[0] for p in parts}
-    clocks = [p[-1] for p in parts] if len(dates) == 1 else [f"{p[-1]} on {p[0]}" for p in parts]
-    text = clocks[0] if len(clocks) == 1 else ", ".join(clocks[:-1]) + " and " + clocks[-1]
-    noun = "dose" if len(clocks) == 1 else "doses"
-    return f"{text} {noun}" + (f" on {parts[0][0]}" if len(dates) == 1 else "")
+    """``06:00 and 14:00 doses on 2026-02-10``; over several dates ``doses at 06:00 and 14:00 on 2026-02-10
+    and 06:00 on 2026-02-11`` (each date once)."""
+    groups: list[tuple[str, list[str]]] = []
+    for t in times:
+        day, _, clock = f.when(t).partition(" ")
+        if groups and groups[-1][0] == day:
+            groups[-1][1].append(clock)
+        else:
+            groups.append((day, [clock]))
+    if len(groups) == 1:
+        day, clocks = groups[0]
+        return f"{_and(clocks)} {'dose' if len(clocks) == 1 else 'doses'} on {day}"
+    return "doses at " + _and([f"{_and(clocks)} on {day}" for day, clocks in groups])
+
+
+def _and(items: list[str]) -> str:
+    return items[0] if len(items) == 1 else ", ".join(items[:-1]) + " and " + items[-1]
 
 
 def hold_words(reg: dict[str, Any]) -> str:
@@ -124,6 +171,10 @@ def hold_words(reg: dict[str, Any]) -> str:
     until = reg.get("hold_until")
     if until and gone:
         level = reg.get("hold_level_mg_l")
+        if level and until == reg.get("next_dose_at"):
+            held = _dose_times(gone)
+            at = nxt.split(" ")[-1] if held.endswith(" on " + nxt.split(" ")[0]) else nxt  # the date once
+            return f"Hold the {held} (level predicted above {level:.3g} mg/L until {at}, the next dose)"
         why = f" (level predicted above {level:.3g} mg/L until {f.when(until)})" if level else ""
         return f"Hold the {_dose_times(gone)}{why}; next dose {nxt}"
     if until:
@@ -149,23 +200,25 @@ def regimen_lines(outcome: Outcome, reg: dict[str, Any] | None, picked: bool,
         why = ("a stop-level warning stands" if res.get("status") == "stop"
                else "the regimen designer gave none for this case")
         return lines + f.wrap(f"No regimen proposed: {why} (see Warnings).")
-    if reg.get("mode") in ("dialysis", "redose-by-level"):
+    if reg.get("mode") == "dialysis":
+        return lines + dialysis_lines(reg)
+    if reg.get("mode") == "redose-by-level":
         from tdmtui.core.regimen.renalplan import plan_words
 
         return lines + [x for text in plan_words(reg) for x in f.wrap(text)]
     verb = {"continue": "continue", "change": "change to", "hold-then-change": "hold, then change to"}
     act = verb.get(reg.get("action", ""), reg.get("action", ""))
-    daily = f" ({f.mg(reg['daily_dose_mg'])} mg a day)" if reg.get("daily_dose_mg") else ""
     ld = reg.get("loading_dose")
     load = (f"loading dose {f.mg(ld['dose_mg'])} mg over {f.duration(ld['infusion_h'])} at {f.when(ld['at'])}"
-            + (f" ({f.plain_source(ld['basis'])})" if ld.get("basis") else "") if ld else "no loading dose")
+            + (f": {f.outer(f.plain_source(ld['basis']))}" if ld.get("basis") else "") if ld else "no loading dose")
     timing = f" {hold_words(reg)}; {load}."
+    predicted = _predicted(reg, est.get("current"))
     if picked:
-        lines += f.wrap(f"Chosen in review: {act} {f.regimen_words(reg)}{daily}{_predicted(reg)}.{timing}")
+        lines += f.wrap(f"Chosen in review: {act} {f.regimen_words(reg)}{predicted}.{timing}")
         if proposal and not ch.same(reg, proposal):
             lines += f.wrap(f"(The tool proposed {f.regimen_words(proposal)}.)", "  ")
     else:
-        lines += f.wrap(f"Proposed: {act} {f.regimen_words(reg)}{daily}{_predicted(reg)}.{timing}")
+        lines += f.wrap(f"Proposed: {act} {f.regimen_words(reg)}{predicted}.{timing}")
         if wanted:
             lines += f.wrap(f"The regimen chosen in review ({f.regimen_words(wanted)}) is no longer offered "
                             "for this case: choose again.", "  ")
@@ -177,6 +230,27 @@ def regimen_lines(outcome: Outcome, reg: dict[str, Any] | None, picked: bool,
     return lines
 
 
+def dialysis_lines(reg: dict[str, Any]) -> list[str]:
+    """A dose after each haemodialysis session: the aim, then one line a session (its end, the dose and when,
+    the pre-dialysis level predicted before the next session), each date once."""
+    band = reg.get("pre_dialysis_target_mg_per_l") or ["-", "-"]
+    pre = (reg.get("predicted") or {}).get("pre_dialysis_next_session_mg_per_l")
+    lines = f.wrap(f"Proposed: a dose after each haemodialysis session, aimed at a pre-dialysis level of "
+                   f"{band[0]:g}-{band[1]:g} mg/L" + (f" ({pre:.1f} mg/L predicted before the next session with "
+                                                       "no further dose)" if pre is not None else "")
+                   + ". After the session ending: dose; pre-dialysis level predicted:")
+    for r in reg.get("after_sessions", []):
+        end = f.when(r["session_end"])
+        at = f.when(r["dose_at"])
+        at = at.split(" ")[-1] if at.split(" ")[0] == end.split(" ")[0] else at[5:]  # the date once
+        what = f"{f.mg(r['dose_mg'])} mg over {f.duration(r['infusion_h'])} at {at}" if r["dose_mg"] > 0 else "no dose"
+        nxt = f.when(r["next_session_start"])
+        lines += f.wrap(f"{end}: {what}; {r['pre_dialysis_next_mg_per_l']:.1f} mg/L before {nxt[5:]}", "  ", "  ")
+    if reg.get("sessions_projected"):
+        lines.append("Sessions to come taken as last week's repeated; check the unit's schedule.")
+    return lines + ["Measure a pre-dialysis level before sessions and redose by it."]
+
+
 def monitoring_lines(outcome: Outcome, reg: dict[str, Any] | None) -> list[str]:
     """When to draw the next levels (of the regimen given) and what else to watch."""
     rules = outcome.rules
@@ -186,35 +260,8 @@ def monitoring_lines(outcome: Outcome, reg: dict[str, Any] | None) -> list[str]:
     for nl in levels:
         why = str(nl.get("dose", "")).split(": ", 1)[-1].removesuffix(" of the new regimen")
         parts.append(f"{nl['kind']} at {f.when(nl['at'])}" + (f" ({why})" if why else ""))
-    text = ("Next levels: " + "; ".join(parts) + ".") if parts else "Next levels: none planned by the tool."
-    if rules is not None:
-        text += f" Renal: {rules.value('monitoring.scr')}."
+    text = "Next levels: " + ("; ".join(parts) if parts else "none planned by the tool")
+    if rules is not None:  # the renal watch beside the drug levels, in the note's word for it
+        text += f"; {str(rules.value('monitoring.scr')).replace('serum creatinine', 'SCr')}"
+    text += "."
     return lines + f.wrap(text)
-
-
-def _warning_text(w: dict[str, Any]) -> str:
-    if w.get("code") == "model-secondary-only":
-        name = str(w.get("message", "")).split(":", 1)[0] or "This model"
-        whose = "these models' values have" if " and " in name else "this model's values have"
-        return (f"{name}: {whose} not been checked against the published paper; "
-                "weigh the estimate against the measured levels.")
-    text = str(w.get("message", ""))
-    text = text.replace("verified from a secondary source only, so auto does not choose it",
-                        "not checked against its published paper, so it is not chosen unless asked for")
-    text = text.replace("is verified from a secondary source only", "has not been checked against its published paper")
-    text = text.replace("was checked against a secondary copy only", "has not been checked against its published paper")
-    text = text.replace(" is not confirmed", " is uncertain").replace(" not confirmed", " uncertain")
-    return f.plain_paths(f.plain_source(text))
-
-
-def warning_lines(result: dict[str, Any], full: bool = False) -> list[str]:
-    """Every stop and caution (information-only warnings with ``full``), case paths in words."""
-    lines = f.heading("Warnings")
-    ws = result.get("warnings") or []
-    shown = [w for w in ws if full or w.get("severity") != "info"]
-    for w in shown:
-        lines += f.wrap(f"- {w['severity'].upper()}: {_warning_text(w)}", "", "    ")
-    if len(shown) < len(ws):
-        n = len(ws) - len(shown)
-        lines.append(f"- and {n} for information only (tdmtui note --full gives {'it' if n == 1 else 'them'}).")
-    return lines + ([] if ws else ["None raised."])

@@ -76,8 +76,9 @@ def _levels_working(outcome: Outcome) -> list[str]:
     doses = [d for d in outcome.case.doses if d.start <= outcome.case.as_of]
     dose = next((d for d in reversed(doses) if d.start <= a.time), None)
     if dose is None or a.time < dose.end or any(a.time < d.start < b.time for d in doses):
-        return ["ke: a dose falls between the two levels (or before the first ends), so ke cannot be read "
-                f"from their ratio by hand; the estimate superposes every dose: ke {f.ke(est['ke_per_h'])} /h"]
+        where = ("the first level is drawn before its dose's infusion ends" if dose is not None and a.time < dose.end
+                 else "no dose comes before the first level" if dose is None else "a dose falls between the levels")
+        return [f"ke {f.ke(est['ke_per_h'])} /h with every dose superposed ({where})"]  # no log ratio by hand
     dt = b.time - a.time
     ke = math.log(a.conc / b.conc) / dt
     out = [f"ke = ln(C1/C2) / (t2 - t1) = ln({f.conc(a.conc)}/{f.conc(b.conc)}) / {_h(dt)} h = {f.ke(ke)} /h"]
@@ -86,8 +87,8 @@ def _levels_working(outcome: Outcome) -> list[str]:
     cmax = a.conc * math.exp(ke * after)
     params = outcome.params if outcome.params is not None else PKParams.one_compartment(ke, est["vd_l"])
     c0 = _remaining(params, doses, dose.start)
-    out.append(f"Cmax = C1 x e^(ke x {_h(after)} h) = {f.conc(a.conc)} x e^({f.ke(ke)} x {_h(after)}) = "
-               f"{f.conc(cmax)} mg/L (end of infusion)")
+    out.append(f"Cmax (end of infusion) = C1 e^(ke t) = {f.conc(a.conc)} x e^({f.ke(ke)} x {_h(after)} h) = "
+               f"{f.conc(cmax)} mg/L")
     out.append(f"C0 (before the dose, left from the earlier doses by the estimate) = {f.conc(c0)} mg/L" if c0 > 0
                else "C0 (before the first dose) = 0 mg/L")
     if tinf <= 0:
@@ -114,14 +115,11 @@ def _model_working(outcome: Outcome) -> list[str]:
     out = []
     if two.get("v1_l") is not None and two.get("v2_l") is not None:
         out.append(f"From the model: CL {f.clearance(est['cl_l_per_h'])} L/h, V1 {f.litres(two['v1_l'])} L, "
-                   f"V2 {f.litres(two['v2_l'])} L.")
-        out.append(f"Vss = V1 + V2 = {f.litres(two['v1_l'])} + {f.litres(two['v2_l'])} = {f.litres(est['vd_l'])} L")
-        out.append(f"ke (one-compartment equivalent) = CL / Vss = {f.clearance(est['cl_l_per_h'])} / "
-                   f"{f.litres(est['vd_l'])} = {f.ke(est['ke_per_h'])} /h")
+                   f"V2 {f.litres(two['v2_l'])} L; Vss = V1 + V2 = {f.litres(est['vd_l'])} L")
+        out.append(f"ke = CL/Vss = {f.clearance(est['cl_l_per_h'])}/{f.litres(est['vd_l'])} = {f.ke(est['ke_per_h'])} /h")
     else:
-        out.append(f"From the model: CL {f.clearance(est['cl_l_per_h'])} L/h, Vd {f.litres(est['vd_l'])} L.")
-        out.append(f"ke = CL / Vd = {f.clearance(est['cl_l_per_h'])} / {f.litres(est['vd_l'])} = "
-                   f"{f.ke(est['ke_per_h'])} /h")
+        out.append(f"From the model: CL {f.clearance(est['cl_l_per_h'])} L/h, Vd {f.litres(est['vd_l'])} L; "
+                   f"ke = CL/Vd = {f.clearance(est['cl_l_per_h'])}/{f.litres(est['vd_l'])} = {f.ke(est['ke_per_h'])} /h")
     return out
 
 
@@ -180,6 +178,9 @@ def working_lines(outcome: Outcome, regimen: dict[str, Any] | None = None) -> li
     if not lines:
         lines = _model_working(outcome) if used not in LEVEL_METHODS else lines
     more = _exposure(outcome, regimen if regimen is not None else outcome.result.get("regimen"))
-    if lines and more and lines[-1].startswith("CL = ") and more[0].startswith("AUC24 now"):
-        lines[-1] += "; " + more.pop(0).replace(" = daily dose / CL", "")  # one line when both fit
+    if lines and more and more[0].startswith("AUC24 now"):  # one line when both fit the note's width
+        joined = lines[-1] + "; " + more[0].replace(" = daily dose / CL", "")
+        if len(joined) <= f.WIDTH - 2:  # the working is indented two columns
+            lines[-1] = joined
+            more.pop(0)
     return lines + more
