@@ -183,17 +183,23 @@ def _warning(code: str, message: str) -> dict[str, str]:
 
 
 def test_advice_to_follow_the_bayesian_estimate_says_how_to_get_a_proposal_on_it():
+    from types import SimpleNamespace
+
+    from tdmtui.core.estimation.shapecheck import disagreement_advice
     from tdmtui.core.text.notewarn import cautions as note_cautions
 
-    # the wording of methods-disagree-bayesian when a level's time is not exact (estimation/shapecheck.py)
-    raised = [_warning("methods-disagree-bayesian", "two-level and Bayesian (Thomson 2009) differ on AUC24 by 15% "
-                       "(over 10%): the two-level estimate rests on levels[1] whose time is not exact: follow the "
-                       "Bayesian estimate, which weighs every level against the model, and confirm with the next "
-                       "level")]
-    [(_, text)] = note_cautions({"estimate": {"method": "two-level"}, "warnings": raised}, raised)
-    assert "rests on level 2 whose time" in text and text.endswith("; for a proposal on it choose method bayesian")
-    [(_, text)] = note_cautions({"estimate": {"method": "bayesian"}, "warnings": raised}, raised)
-    assert "choose method bayesian" not in text
+    # the engine's methods-disagree-bayesian when a level's time is not exact (estimation/shapecheck.py)
+    ctx = SimpleNamespace(case=SimpleNamespace(levels=[SimpleNamespace(index=0, timing="actual"),
+                                                       SimpleNamespace(index=1, timing="estimated")]))
+    two_level = SimpleNamespace(levels_used=[0, 1])
+    for used, tail in (("two-level", "; for a proposal on it choose method bayesian"),
+                       ("bayesian", "; the proposal shown rests on it")):
+        advice = disagreement_advice(ctx, two_level, used, shape=False)  # type: ignore[arg-type]
+        raised = [_warning("methods-disagree-bayesian", "two-level and Bayesian (Thomson 2009) differ on AUC24 by "
+                           f"15% (over 10%): {advice}")]
+        [(_, text)] = note_cautions({"estimate": {"method": used}, "warnings": raised}, raised)
+        assert "rests on level 2 whose time is not exact: follow the Bayesian estimate" in text
+        assert text.endswith(tail) and text.count("choose method bayesian") <= 1
 
 
 def test_warnings_a_merge_does_not_recognise_are_given_as_raised():

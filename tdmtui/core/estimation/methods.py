@@ -107,7 +107,7 @@ def compare(ctx: MethodContext, est: dict[str, Estimate], used: str) -> list[Ale
     if a and bay:
         from tdmtui.core.estimation.shapecheck import disagreement_advice, terminal_rate_alert
 
-        shape = terminal_rate_alert(ctx, a, bay)
+        shape = terminal_rate_alert(ctx, a, bay, used)
         gap, what = _gap(a, bay, ctx.current)
         if gap > limit:
             model = (bay.model or {}).get("name", "the population model")

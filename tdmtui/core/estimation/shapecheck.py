@@ -76,7 +76,16 @@ def shape_bias(ctx: MethodContext, two_level: Estimate, bayesian: Estimate) -> S
     return ShapeBias(ss_model.trough, ss_one.trough, ss_model.auc24, ss_one.auc24, rel)
 
 
-def terminal_rate_alert(ctx: MethodContext, two_level: Estimate, bayesian: Estimate) -> Alert | None:
+#: How a caution points to a proposal on the Bayesian estimate when the one shown rests on another method
+#: (the caution informs; the method the proposal rests on is the user's choice or auto's order).
+CHOOSE_BAYESIAN = "for a proposal on it choose method bayesian"
+
+
+def _proposal_on_bayesian(used: str) -> str:
+    return "the proposal shown rests on it" if used == "bayesian" else f"the proposal shown uses {used}; {CHOOSE_BAYESIAN}"
+
+
+def terminal_rate_alert(ctx: MethodContext, two_level: Estimate, bayesian: Estimate, used: str) -> Alert | None:
     """``ke-vs-terminal-rate`` when the shape bias exceeds ``methods.shape_bias_rel`` (module docstring)."""
     bias = shape_bias(ctx, two_level, bayesian)
     limit = float(ctx.rules.value("methods.shape_bias_rel"))
@@ -90,21 +99,22 @@ def terminal_rate_alert(ctx: MethodContext, two_level: Estimate, bayesian: Estim
                  f"{two_level.params.ke:.4f} /h, model terminal rate {beta:.4f} /h): through them a one-compartment "
                  f"fit puts the current regimen's steady-state trough at {bias.implied_trough:.3g} mg/L and AUC24 at "
                  f"{bias.implied_auc24:.0f} where the model gives {bias.model_trough:.3g} and {bias.model_auc24:.0f} "
-                 f"({bias.rel:.1%}, over {limit:.0%}): base the regimen on the Bayesian estimate (method "
-                 "bayesian)")
+                 f"({bias.rel:.1%}, over {limit:.0%}): the Bayesian estimate follows that curve; "
+                 f"{_proposal_on_bayesian(used)}")
 
 
 def disagreement_advice(ctx: MethodContext, two_level: Estimate, used: str, shape: bool) -> str:
     """Which of two-level and Bayesian to follow when they disagree: one answer, with its reason."""
+    on_it = _proposal_on_bayesian(used)
     if shape:
-        now = "" if used == "bayesian" else f" (the proposal shown uses {used})"
-        return ("the difference is the one-compartment shape for these draw times (ke-vs-terminal-rate): base the "
-                f"regimen on the Bayesian estimate{now}")
+        return ("the difference is the one-compartment shape for these draw times (ke-vs-terminal-rate): the "
+                f"Bayesian estimate follows the two-compartment curve; {on_it}")
     used_levels = [lv for lv in ctx.case.levels if lv.index in set(two_level.levels_used)]
     doubtful = [f"levels[{lv.index}]" for lv in used_levels if lv.timing != "actual"]
     if doubtful:
         return (f"the two-level estimate rests on {', '.join(doubtful)} whose time is not exact: follow the "
-                "Bayesian estimate, which weighs every level against the model, and confirm with the next level")
+                "Bayesian estimate, which weighs every level against the model, and confirm with the next level; "
+                f"{on_it}")
     proposal = "" if used == "two-level" else f" (the proposal shown uses {used})"
     return (f"follow the two-level estimate{proposal}: it rests on these correctly timed levels alone, the "
             "Bayesian one also on its population model")

@@ -35,7 +35,8 @@ from tdmtui.core.text import notefmt as f
 
 Raised = dict[str, Any]  # one warning of the result: code, severity, field, message
 
-#: How the note points to a proposal on the Bayesian estimate when the regimen shown rests on another method.
+#: How the note points to a proposal on the Bayesian estimate when the regimen shown rests on another method
+#: (the engine's cautions already end so; the merged caution says it once).
 CHOOSE_BAYESIAN = "for a proposal on it choose method bayesian"
 
 _DISAGREE = re.compile(r"^two-level and Bayesian \((?P<model>.+)\) differ on (?P<what>\w+) by (?P<gap>\d+%) "
@@ -55,9 +56,6 @@ _TROUGH_HIGH = re.compile(r"measured trough (?P<meas>[\d.]+) mg/L \((?P<level>le
                           r"steady-state trough (?P<pred>[\d.]+) mg/L above the (?P<limit>[\d.]+) mg/L limit")
 _NEPHRO = re.compile(r"^(?P<names>.+?) with (?P<drug>[\w-]+): (?P<rest>added nephrotoxic risk.*)$")
 _SETTING = re.compile(r"\b(?:renal|regimen|loading|monitoring|methods)\.[a-z0-9]+_[a-z0-9_]+(?:, | )?")
-_FOLLOW_BAYESIAN = re.compile(r": base the regimen on the Bayesian estimate(?: \(method bayesian\)| \(the proposal "
-                              r"shown uses [\w-]+\))?$")
-
 
 def _plain(w: Raised, full: bool = False) -> str:
     """One warning's text for clinicians: its paths in words, its times as the note writes them (the
@@ -193,10 +191,6 @@ def cautions(result: dict[str, Any], shown: list[Raised], full: bool = False) ->
         text = merged.get(k) or _plain(w, full)
         if w.get("code") == "trough-high":  # the level's timing is in the note's list of levels
             text = re.sub(r"\((level \d+), [^)]*\)", r"(\1)", text, count=1)
-        if k not in merged and not bayesian_used:  # advice to follow an estimate the Plan does not rest on
-            text = _FOLLOW_BAYESIAN.sub(f": the Bayesian estimate is the one to follow; {CHOOSE_BAYESIAN}", text)
-            if w.get("code") == "methods-disagree-bayesian" and "follow the Bayesian estimate" in text:
-                text += f"; {CHOOSE_BAYESIAN}"
         out.append((str(w["severity"]), f.local_times(f.plain_paths(text))))
     return out
 
