@@ -190,7 +190,7 @@ def test_advice_to_follow_the_bayesian_estimate_says_how_to_get_a_proposal_on_it
 
     # the engine's methods-disagree-bayesian when a level's time is not exact (estimation/shapecheck.py)
     ctx = SimpleNamespace(case=SimpleNamespace(levels=[SimpleNamespace(index=0, timing="actual"),
-                                                       SimpleNamespace(index=1, timing="estimated")]))
+                                                       SimpleNamespace(index=1, timing="uncertain")]))
     two_level = SimpleNamespace(levels_used=[0, 1])
     for used, tail in (("two-level", "; for a proposal on it choose method bayesian"),
                        ("bayesian", "; the proposal shown rests on it")):
