@@ -32,3 +32,45 @@ async def test_only_the_table_names_its_page(state, sample_copy):
         await pilot.press("t")
         await pilot.pause()
         assert "Page 2/" in title(app)
+
+
+async def test_a_dialysis_plan_has_no_empty_candidates_table(state, sample_copy):
+    app = TdmApp(str(sample_copy("vanc-haemodialysis.json")), None, state=state)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        await pilot.press("f6")
+        await pilot.pause()
+        assert app.outcome.result["regimen"]["mode"] == "dialysis"
+        lines = screen_lines(app)
+        text = "\n".join(lines)
+        assert not app.screen.query_one("#plan-table", DataTable).display
+        assert not any("Action" in line and "Dose" in line for line in lines)  # no header of an empty table
+        assert "Candidates (Enter" not in text
+        assert sum("No candidates to choose" in line for line in lines) == 1
+        # the proposal and the whole caution are on screen together
+        assert "After the session ending 2026-09-09 12:00: 750 mg" in text
+        assert "Decision support only" in text and "licensed clinical judgement decide." in text
+
+
+async def test_a_stop_shows_neither_candidates_nor_their_header(state, sample_copy):
+    app = TdmApp(str(sample_copy("vanc-stop-dialysis.json")), None, state=state)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        await pilot.press("f6")
+        await pilot.pause()
+        text = "\n".join(screen_lines(app))
+        assert "No regimen: a STOP warning stands" in text
+        assert "Candidates" not in text and "No candidates" not in text
+        assert "licensed clinical judgement decide." in text
+
+
+async def test_candidates_still_shown_with_their_header(state, sample_copy):
+    app = TdmApp(str(sample_copy("vanc-obese.json")), None, state=state)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        await pilot.press("f6")
+        await pilot.pause()
+        table = app.screen.query_one("#plan-table", DataTable)
+        assert table.display and table.row_count == len(app.query_one("PlanSection").options) >= 2
+        text = "\n".join(screen_lines(app))
+        assert "Candidates (Enter chooses" in text and "proposed  continue  1750 mg" in text
