@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from textual.widgets import DataTable, Label
+from textual.widgets import DataTable, Input, Label
 
 from tdmtui.ui.app import TdmApp
 from uihelpers import screen_lines, settle
@@ -74,3 +74,30 @@ async def test_candidates_still_shown_with_their_header(state, sample_copy):
         assert table.display and table.row_count == len(app.query_one("PlanSection").options) >= 2
         text = "\n".join(screen_lines(app))
         assert "Candidates (Enter chooses" in text and "proposed  continue  1750 mg" in text
+
+
+async def test_the_indication_is_readable_whole_at_80_columns(state, sample_copy):
+    path = sample_copy("vanc-haemodialysis.json")
+    app = TdmApp(str(path), None, state=state)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        field = app.screen.query_one("#pt-indication-input", Input)
+        field.focus()
+        await pilot.pause()
+        given = "demo: tunnelled line infection; doses after each session"
+        assert any(line.startswith("Indication") and given in line for line in screen_lines(app))
+        longer = given + "; line removed 2026-09-01, blood cultures pending, echo booked for Friday"
+        field.value = longer
+        await pilot.pause()
+        await pilot.press("tab")  # on to the next field: the whole text stays readable under the field
+        await pilot.pause()
+        lines = screen_lines(app)
+        row = next(i for i, line in enumerate(lines) if line.startswith("Indication"))
+        under = " ".join(line.strip() for line in lines[row + 1:row + 3])
+        assert under == longer
+        assert all(line.startswith(" " * 12) for line in lines[row + 1:row + 3])  # lined up with the field
+        assert app.doc.raw["target"]["indication"] == longer
+        field.value = given  # short again: nothing under the field
+        await pilot.pause()
+        await pilot.pause()
+        assert not app.screen.query_one("#pt-indication-whole").display

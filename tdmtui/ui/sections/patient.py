@@ -48,6 +48,8 @@ _KINDS = {"age": ("age", "yr"), "weight": ("weight", "kg"), "height": ("height",
 _LISTS = ("conditions", "comeds")
 #: The SCr history (a table of its own) comes after this field.
 _SCR_AFTER = "height"
+#: Free-text fields that take the whole line; a text longer than the field is also shown whole under it.
+_LONG_TEXT = ("label", "indication")
 
 
 def scr_entries(raw: dict[str, Any]) -> list[dict[str, str]]:
@@ -143,6 +145,8 @@ class PatientSection(VerticalScroll):
     def compose(self) -> ComposeResult:
         for spec in FIELDS:
             yield FieldRow(spec, prefix="pt")
+            if spec.key in _LONG_TEXT:
+                yield Label("", id=f"pt-{spec.key}-whole", classes="field-whole", markup=False)
             if spec.key == _SCR_AFTER:
                 yield Label("SCr history (a add, x delete, u undo, Enter edit, Esc table):", classes="form-title")
                 yield ScrRows(self.doc, id="scr")
@@ -173,6 +177,21 @@ class PatientSection(VerticalScroll):
             self.query_one(f"#pt-{spec.key}", FieldRow).load(value)
         self.query_one(ScrRows).reload()
         self.update_derived()
+        self.call_after_refresh(self.show_whole)
+
+    def on_resize(self) -> None:
+        self.call_after_refresh(self.show_whole)
+
+    def show_whole(self) -> None:
+        """Under a long free-text field, its whole text (wrapped) when the field cannot show it at once."""
+        from rich.cells import cell_len
+
+        for key in _LONG_TEXT:
+            text = self.query_one(f"#pt-{key}", FieldRow).text
+            room = self.query_one(f"#pt-{key}-input", Input).content_region.width
+            whole = self.query_one(f"#pt-{key}-whole", Label)
+            whole.display = bool(room) and cell_len(text) > room
+            whole.update(text if whole.display else "")
 
     def update_derived(self) -> float | None:
         """Recompute IBW, AdjBW, BMI, CrCl, eGFR from what reads now."""
@@ -235,4 +254,6 @@ class PatientSection(VerticalScroll):
             self.doc.set(_PATHS[key], e.stored)
         self.query_one(f"#pt-{key}", FieldRow).show(e.note, e.error)
         self.update_derived()
+        if key in _LONG_TEXT:
+            self.call_after_refresh(self.show_whole)
         self.post_message(CaseEdited(f"patient.{key}"))
