@@ -34,7 +34,9 @@ Estimate
   m model average: each model's weight, estimate and why it has none
   ] / [ next / previous page of methods (the one used, *, stays)
   The plot draws in braille; TDMTUI_PLOT=ascii (or a locale that is
-  not UTF-8) draws it in plain characters: * fitted, + plan, . band.
+  not UTF-8, or tdmtui --ascii) draws it in plain characters: * fitted,
+  + plan, . band; a locale that is not UTF-8 or --ascii also makes every
+  border and scrollbar ASCII.
 Plan
   arrows move, Enter chooses the regimen named in the note
 Note
