@@ -6,7 +6,7 @@ from typing import Any
 
 from textual import on
 from textual.app import ComposeResult
-from textual.containers import VerticalScroll
+from textual.containers import Vertical, VerticalScroll
 from textual.widgets import Input, Label
 
 from tdmtui.core.input.case import METHODS, RENAL_REPLACEMENT, SEXES
@@ -17,6 +17,7 @@ from tdmtui.ui.entry import (Entry, case_clock, parsed_time, quantity_entry, tar
                              time_entry)
 from tdmtui.ui.messages import CaseEdited
 from tdmtui.ui.sections.scr import ScrRows
+from tdmtui.ui.sections.sessions import PlannedRows, SessionRows
 from tdmtui.ui.widgets.cycler import Cycler
 from tdmtui.ui.widgets.form import FieldRow, FieldSpec
 
@@ -48,6 +49,8 @@ _KINDS = {"age": ("age", "yr"), "weight": ("weight", "kg"), "height": ("height",
 _LISTS = ("conditions", "comeds")
 #: The SCr history (a table of its own) comes after this field.
 _SCR_AFTER = "height"
+#: The dialysis sessions (tables of their own) come after this field.
+_SESSIONS_AFTER = "rrt"
 #: Free-text fields that take the whole line; a text longer than the field is also shown whole under it.
 _LONG_TEXT = ("label", "indication")
 
@@ -150,6 +153,13 @@ class PatientSection(VerticalScroll):
             if spec.key == _SCR_AFTER:
                 yield Label("SCr history (a add, x delete, u undo, Enter edit, Esc table):", classes="form-title")
                 yield ScrRows(self.doc, id="scr")
+            if spec.key == _SESSIONS_AFTER:
+                with Vertical(id="pt-dialysis"):
+                    yield Label("Dialysis sessions done (a add, x delete, u undo, Enter edit, Esc table):",
+                                classes="form-title")
+                    yield SessionRows(self.doc, id="sessions")
+                    yield Label("Dialysis sessions planned (the proposal doses after them):", classes="form-title")
+                    yield PlannedRows(self.doc, id="planned")
         yield Label("", id="derived-1", classes="derived", markup=False)
         yield Label("", id="derived-2", classes="derived", markup=False)
 
@@ -176,8 +186,16 @@ class PatientSection(VerticalScroll):
                 value = "auto"
             self.query_one(f"#pt-{spec.key}", FieldRow).load(value)
         self.query_one(ScrRows).reload()
+        self.query_one(SessionRows).reload()
+        self.query_one(PlannedRows).reload()
+        self.show_sessions()
         self.update_derived()
         self.call_after_refresh(self.show_whole)
+
+    def show_sessions(self) -> None:
+        """The session tables on intermittent haemodialysis, and whenever the case holds sessions."""
+        held = bool(self.query_one(SessionRows).rows() or self.query_one(PlannedRows).rows())
+        self.query_one("#pt-dialysis").display = held or self.doc.get(_PATHS["rrt"], "") == "ihd"
 
     def on_resize(self) -> None:
         self.call_after_refresh(self.show_whole)
@@ -256,4 +274,6 @@ class PatientSection(VerticalScroll):
         self.update_derived()
         if key in _LONG_TEXT:
             self.call_after_refresh(self.show_whole)
+        if key == "rrt":
+            self.show_sessions()
         self.post_message(CaseEdited(f"patient.{key}"))

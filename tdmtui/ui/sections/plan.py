@@ -73,7 +73,7 @@ def summary_lines(result: dict[str, Any]) -> str:
 
 
 def session_lines(result: dict[str, Any]) -> list[str]:
-    """The dialysis sessions recorded and planned, one line each kind (edited in the case file)."""
+    """The dialysis sessions recorded and planned, one line each kind (edited in the patient section)."""
     d = result.get("dialysis")
     if not d:
         return []

@@ -27,6 +27,7 @@ class RowsSection(Vertical):
 
     NAME = ""
     TITLE = ""
+    NOUN = ""  # what the rows are, in "No ... yet" (default: NAME)
     FIELDS: tuple[FieldSpec, ...] = ()
     COLUMNS: tuple[str, ...] = ()
     # priority: run before the next key is routed (so keys typed right after "a" reach the new row);
@@ -94,7 +95,7 @@ class RowsSection(Vertical):
         title = self.query_one(f"#{self.NAME}-form-title", Label)
         form = self.query_one(f"#{self.NAME}-form")
         if not rows:
-            title.update(f"No {self.NAME} yet: press a (or just type below) to add one.")
+            title.update(f"No {self.NOUN or self.NAME} yet: press a (or just type below) to add one.")
             form.set_class(True, "-empty")
             for spec in self.FIELDS:
                 self.query_one(f"#{self.NAME}-{spec.key}", FieldRow).load(self.form_value(spec.key, {}))
