@@ -101,3 +101,23 @@ async def test_the_indication_is_readable_whole_at_80_columns(state, sample_copy
         await pilot.pause()
         await pilot.pause()
         assert not app.screen.query_one("#pt-indication-whole").display
+
+
+async def test_an_undo_shows_in_the_table_it_changed(state, sample_copy):
+    app = TdmApp(str(sample_copy("vanc-obese.json")), None, state=state)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        await pilot.press("f3")
+        await pilot.pause()
+        doses = app.screen.query_one("#doses-table", DataTable)
+        assert doses.row_count == 3
+        await pilot.press("x")  # a dose deleted ...
+        await settle(pilot)
+        assert doses.row_count == 2 == len(app.doc.raw["doses"])
+        await pilot.press("f4", "u")  # ... and undone from the levels table
+        await settle(pilot)
+        assert len(app.doc.raw["doses"]) == 3
+        await pilot.press("f3")
+        await pilot.pause()
+        assert doses.row_count == 3  # the doses table shows the dose back, not the case before the undo
+        assert any(line.startswith(" 1  08-03 10:00  3000 mg") for line in screen_lines(app))

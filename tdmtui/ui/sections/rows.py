@@ -227,12 +227,16 @@ class RowsSection(Vertical):
         self.app.notify("Row deleted: press u to undo.", timeout=4)
 
     def action_undo(self) -> None:
-        """Undo the last row change."""
+        """Undo the last row change, wherever it was made: every table shows the case again."""
         what = self.doc.undo()
         if not what:
             self.app.notify("Nothing to undo.", timeout=3)
             return
-        self.reload()
+        reload_all = getattr(self.app, "reload_sections", None)
+        if callable(reload_all):  # the change undone may lie in another table (one undo list per case)
+            reload_all()
+        else:
+            self.reload()
         self.post_message(CaseEdited("undo"))
         self.app.notify(f"Undone: {what}", timeout=4)
 
