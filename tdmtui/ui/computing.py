@@ -160,7 +160,7 @@ class ComputeMixin:
         from tdmtui.ui.fieldmap import widget_id_for
 
         if self._marked is not None:
-            self._marked.show("", "")
+            self._marked.unmark()
             self._marked = None
         from tdmtui.ui.sections.scr import ScrRows
 

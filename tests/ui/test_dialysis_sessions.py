@@ -48,6 +48,7 @@ async def test_a_planned_session_added_in_the_app_is_saved(state, sample_copy):
         await pilot.press("a")  # a new row after the last, its times to type
         await pilot.press(*"2026-09-18T08:00", "tab", *"12:00")
         await settle(pilot)
+        # the reading beside the end, also after a recompute that had named the end while it was empty
         assert "a 4 h session" in note(app, "planned-end")
         assert status(app).startswith("Computed"), status(app)
         assert len(app.outcome.result["dialysis"]["plan_sessions"]) >= 3
@@ -117,3 +118,14 @@ async def test_sessions_start_on_haemodialysis_and_typing_into_the_empty_form_ke
     saved = json.loads(path.read_text(encoding="utf-8"))
     assert saved["dialysis"] == {"sessions": [{"start": "2026-03-02T08:00", "end": "2026-03-02T12:00"}]}
     assert "planned" not in saved["dialysis"]
+
+
+async def test_a_field_gets_its_reading_back_when_the_engine_no_longer_names_it(state, sample_copy):
+    app = TdmApp(str(sample_copy("vanc-haemodialysis.json")), None, state=state)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        await retype(pilot, app, "sessions-end", "+13h")
+        assert "outside 1-12 h" in note(app, "sessions-end")  # the engine's reason on the field
+        await retype(pilot, app, "sessions-end", "+4h")
+        assert status(app).startswith("Computed")
+        assert note(app, "sessions-end") == "ends 09-02 12:00, a 4 h session"

@@ -88,6 +88,12 @@ class FieldRow(Horizontal):
             widget.cursor_position = len(text)
         self.show(self.reading(text), "")
 
+    _last_note = ""
+
+    def unmark(self) -> None:
+        """Take the engine's reason off the field: its own reading comes back (e.g. "a 4 h session")."""
+        self.show(self._last_note, "")
+
     def reading(self, text: str) -> str:
         """A quantity stored in another unit than the field's reads in the field's unit (``154 lb``: ``= 69.85 kg``)."""
         if not (text and self.spec.kind.startswith("quantity:") and self.spec.unit):
@@ -99,6 +105,8 @@ class FieldRow(Horizontal):
 
     def show(self, note: str, error: str) -> None:
         """Show the reading (note) or the reason it fails (error); marks the field."""
+        if not error:
+            self._last_note = note
         self.set_class(bool(error), "-bad")
         widget = self.query_one(f"#{self.id}-input")
         widget.set_class(bool(error), "-invalid")
