@@ -59,7 +59,9 @@ class FieldRow(Horizontal):
         if self.spec.kind == "choice":
             yield Cycler(self.spec.options, self._value, id=f"{self.id}-input")
         else:
-            yield Input(self._value, placeholder=self.spec.unit, compact=True, id=f"{self.id}-input",
+            # no placeholder: the unit stands in the note beside the field (a dimmed "mg/L" inside an empty
+            # field reads as a value where there is no colour)
+            yield Input(self._value, compact=True, id=f"{self.id}-input",
                         select_on_focus=True)
         yield Label(self._idle_note(), classes="field-note", markup=False)
 
