@@ -121,3 +121,12 @@ async def test_an_undo_shows_in_the_table_it_changed(state, sample_copy):
         await pilot.pause()
         assert doses.row_count == 3  # the doses table shows the dose back, not the case before the undo
         assert any(line.startswith(" 1  08-03 10:00  3000 mg") for line in screen_lines(app))
+
+
+async def test_an_empty_field_named_by_the_engine_still_gives_its_unit(state):
+    app = TdmApp(None, None, state=state)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        lines = screen_lines(app)
+        assert any(line.startswith("Age") and line.rstrip().endswith("! still to fill in (yr)") for line in lines)
+        assert any("No SCr values yet: press a" in line for line in lines)

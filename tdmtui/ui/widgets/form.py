@@ -113,4 +113,6 @@ class FieldRow(Horizontal):
         widget = self.query_one(f"#{self.id}-input")
         widget.set_class(bool(error), "-invalid")
         text = f"! {error}" if error else (note or self._idle_note())
+        if error and self.spec.unit and not self.text.strip():
+            text += f" ({self.spec.unit})"  # an empty field still says its unit
         self.query_one(".field-note", Label).update(text)
