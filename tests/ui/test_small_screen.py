@@ -130,3 +130,24 @@ async def test_an_empty_field_named_by_the_engine_still_gives_its_unit(state):
         lines = screen_lines(app)
         assert any(line.startswith("Age") and line.rstrip().endswith("! still to fill in (yr)") for line in lines)
         assert any("No SCr values yet: press a" in line for line in lines)
+
+
+async def test_help_and_warnings_say_how_to_close_them_and_scroll(state, sample_copy):
+    from tdmtui.ui.dialogs import HelpScreen
+
+    app = TdmApp(str(sample_copy("vanc-obese.json")), None, state=state)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        for key in ("f1", "f8"):
+            await pilot.press(key)
+            await pilot.pause()
+            assert isinstance(app.screen, HelpScreen)
+            assert any("[Esc] close" in line for line in screen_lines(app)), key
+            scroll = app.screen.query_one("VerticalScroll")
+            if key == "f1":  # the help is longer than the frame: the keys scroll it
+                await pilot.press("pagedown")
+                await pilot.pause()
+                assert scroll.scroll_y > 0
+            await pilot.press("escape")
+            await pilot.pause()
+            assert not isinstance(app.screen, HelpScreen)
