@@ -131,6 +131,9 @@ def _app_parser() -> argparse.ArgumentParser:
     ap.add_argument("case", nargs="?", help="case file to open (omit for a new case)")
     ap.add_argument("--protocol", metavar="FILE", help="local protocol TOML")
     ap.add_argument("--mouse", action="store_true", help="enable mouse support (off by default for SSH)")
+    ap.add_argument("--ascii", action="store_true",
+                    help="draw borders, scrollbars, separators and the plot in ASCII (the default under a "
+                         "locale that is not UTF-8, e.g. LANG=C; TDMTUI_PLOT=ascii|braille sets the plot alone)")
     ap.add_argument("--version", action="version", version=f"tdmtui {__version__}")
     return ap
 
@@ -157,7 +160,7 @@ def main(argv: list[str] | None = None) -> int:
         args = _app_parser().parse_args(argv)
         from tdmtui.ui.app import run_app
 
-        return run_app(args.case, args.protocol, mouse=args.mouse)
+        return run_app(args.case, args.protocol, mouse=args.mouse, ascii_only=args.ascii)
     except InputError as exc:
         _say(f"{exc.field}: {exc.message}" if exc.field else exc.message)
         return 2

@@ -22,6 +22,7 @@ from textual.screen import ModalScreen
 from textual.widgets import ContentSwitcher, DataTable, Footer, Input, Static
 
 from tdmtui.ui import formatting as fm
+from tdmtui.ui.charset import ascii_frames, css_variables, restore_scrollbars, use_scrollbars
 from tdmtui.ui.dialogs import HelpScreen
 from tdmtui.ui.computing import ComputeMixin
 from tdmtui.ui.document import CaseDocument, new_case_raw
@@ -72,7 +73,9 @@ class TdmApp(ComputeMixin, FilingMixin, App[int]):
     ]
 
     def __init__(self, path: str | None = None, protocol_path: str | None = None, *,
-                 state: Path | None = None, first_run_notice: bool = False) -> None:
+                 state: Path | None = None, first_run_notice: bool = False, ascii_only: bool | None = None) -> None:
+        # before the stylesheet is built (App.__init__): the frames' border styles are CSS variables
+        self.ascii_only = ascii_frames() if ascii_only is None else ascii_only
         super().__init__()
         guard_terminal()  # no control character in any free text reaches the terminal
         self.first_run_notice = first_run_notice
@@ -107,6 +110,11 @@ class TdmApp(ComputeMixin, FilingMixin, App[int]):
         self._spinner: Any = None
         self._small = False
         self._marked: Any = None
+        self._scrollbars: Any = None
+
+    def get_css_variables(self) -> dict[str, str]:
+        """The theme's variables and the border style of each frame (ASCII under a non-UTF-8 locale)."""
+        return {**super().get_css_variables(), **css_variables(self.ascii_only)}
 
     # ---------------------------------------------------------------- layout
     def compose(self) -> ComposeResult:
@@ -138,6 +146,7 @@ class TdmApp(ComputeMixin, FilingMixin, App[int]):
             self.protocol_note = f"Local protocol {path} NOT used ({why}): library values apply."
 
     def on_mount(self) -> None:
+        self._scrollbars = use_scrollbars(self.ascii_only)
         if self.protocol_note:
             self.notify(self.protocol_note, severity="error", markup=False, timeout=10)
         self.update_header()
@@ -153,6 +162,10 @@ class TdmApp(ComputeMixin, FilingMixin, App[int]):
         self.offer_recovery()  # over the notice: a case's unsaved edits are answered first
         self.request_compute(now=True)
         self.call_after_refresh(self.focus_section)
+
+    def on_unmount(self) -> None:
+        if self._scrollbars is not None:
+            restore_scrollbars(self._scrollbars)
 
     def on_resize(self, event: events.Resize) -> None:
         """Say so when the window is below 80x24 (text is cut, nothing is lost)."""
@@ -327,9 +340,10 @@ class TdmApp(ComputeMixin, FilingMixin, App[int]):
                     timeout=3)
 
 
-def run_app(path: str | None, protocol_path: str | None, mouse: bool = False) -> int:
-    """Run the workspace; returns the exit status for the command line."""
-    app = TdmApp(path, protocol_path, first_run_notice=True)
+def run_app(path: str | None, protocol_path: str | None, mouse: bool = False, ascii_only: bool = False) -> int:
+    """Run the workspace; returns the exit status for the command line (``ascii_only``: ASCII frames even
+    in a UTF-8 locale)."""
+    app = TdmApp(path, protocol_path, first_run_notice=True, ascii_only=ascii_frames(ascii_only))
     result = app.run(mouse=mouse)
     return int(result or 0)
 

@@ -144,7 +144,9 @@ class ComputeMixin:
         self.query_one(PlanSection).show(None)
         from tdmtui.ui.fieldmap import rows_in_words
 
-        where = f"{rows_in_words(event.field)}: " if event.field else ""
+        from tdmtui.ui.fieldmap import session_row_words
+
+        where = f"{rows_in_words(event.field)}{session_row_words(event.field)}: " if event.field else ""
         if event.kind == "input" and self.field_is_empty(event.field):
             event.message = "still to fill in"
         label = {"input": "INPUT", "no-estimate": "NO ESTIMATE", "error": "ERROR"}[event.kind]
@@ -158,12 +160,15 @@ class ComputeMixin:
         from tdmtui.ui.fieldmap import widget_id_for
 
         if self._marked is not None:
-            self._marked.show("", "")
+            self._marked.unmark()
             self._marked = None
         from tdmtui.ui.sections.scr import ScrRows
 
+        from tdmtui.ui.sections.sessions import PlannedRows, SessionRows
+
+        sessions = {"sessions": self.query_one(SessionRows).current, "planned": self.query_one(PlannedRows).current}
         target = widget_id_for(field, self.query_one(DosesSection).current, self.query_one(LevelsSection).current,
-                               self.query_one(ScrRows).current)
+                               self.query_one(ScrRows).current, sessions)
         if target and field and message:
             try:
                 row = self.query_one(f"#{target}", FieldRow)

@@ -102,8 +102,11 @@ class HelpScreen(OnceModal[None]):
 
     DEFAULT_CSS = """
     HelpScreen { align: center middle; }
-    HelpScreen > VerticalScroll { width: 78; height: 22; border: heavy $accent; padding: 0 1; background: $surface; }
+    HelpScreen > Vertical { width: 78; height: 22; border: heavy $accent; padding: 0 1; background: $surface; }
+    HelpScreen VerticalScroll { height: 1fr; }
+    HelpScreen .help-keys { height: 1; text-style: bold; }
     """
+    KEYS = "[Esc] close   (arrows, PgUp/PgDn scroll)"
     BINDINGS = [Binding("escape,f1,question_mark,q", "close", "Close", id="help.close")]
     """Any of these closes the help."""
 
@@ -112,8 +115,10 @@ class HelpScreen(OnceModal[None]):
         self.text = text
 
     def compose(self) -> ComposeResult:
-        with VerticalScroll():
-            yield Static(self.text, markup=False)
+        with Vertical():
+            with VerticalScroll():
+                yield Static(self.text, markup=False)
+            yield Label(self.KEYS, classes="help-keys", markup=False)
 
     def action_close(self) -> None:
         """Close the help."""

@@ -36,6 +36,10 @@ class ChangedOnDisk(Exception):
     """The case file changed since it was opened (another session saved it)."""
 
 
+class FileGone(ChangedOnDisk):
+    """The case file opened or last saved no longer exists (deleted or moved)."""
+
+
 @dataclass
 class FileStamp:
     """What the case file looked like when opened or last saved."""
@@ -166,14 +170,17 @@ class CaseDocument:
         now = stamp(self.path)
         return now is None or now.sha256 != self.opened.sha256
 
-    def save(self, path: str | None = None, force: bool = False) -> str:
+    def save(self, path: str | None = None, force: bool = False, recreate: bool = False) -> str:
         """Write the case (atomic, mode 0600) and return its sha256.
 
         Args:
             path: save-as target; None saves to the current path.
             force: overwrite even when the file changed on disk.
+            recreate: write our file again where it was deleted (still refused when, by the time of
+                writing, a file is there again).
 
         Raises:
+            FileGone: the target is our file and it no longer exists (``recreate`` writes it).
             ChangedOnDisk: the target is our file and someone else changed it.
             FileExistsError: save-as onto an existing different file without force.
             ValueError: no path at all.
@@ -186,7 +193,10 @@ class CaseDocument:
         # save cannot land between them (both would otherwise be told they saved)
         with folder_lock(target):
             if not force:
-                if same and self.changed_on_disk():
+                gone = same and self.opened is not None and not Path(target).exists()
+                if gone and not recreate:
+                    raise FileGone(target)
+                if same and not gone and self.changed_on_disk():
                     raise ChangedOnDisk(target)
                 if not same and Path(target).exists():
                     raise FileExistsError(target)

@@ -12,6 +12,7 @@ from dataclasses import dataclass
 from typing import Any
 
 from tdmtui.core.input.clock import Clock, clock_for
+from tdmtui.core.input.dialysis import times_of as dialysis_times
 from tdmtui.core.errors import InputError
 from tdmtui.core.input.timeentry import resolve_time
 from tdmtui.core.input.units import parse_quantity
@@ -91,6 +92,7 @@ def case_clock(raw: dict[str, Any]) -> Clock:
         for i, row in enumerate(raw.get(name) or []):
             if isinstance(row, dict):
                 times += [(f"{name}[{i}].{k}", row[k]) for k in keys if isinstance(row.get(k), str)]
+    times += [(f, t) for f, t in dialysis_times(raw) if isinstance(t, str)]
     if isinstance(raw.get("as_of"), str):
         times.append(("as_of", raw["as_of"]))
     try:

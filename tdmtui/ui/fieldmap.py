@@ -15,15 +15,19 @@ _LEVEL_KEYS = {"time": "time", "conc": "conc", "below_loq": "limit", "above_uloq
                "reason": "reason", "timing": "timing", "": "time"}
 _ROW = re.compile(r"(doses|levels)\[(\d+)\](?:\.(\w+))?")
 _SCR = re.compile(r"patient\.scr\[(\d+)\](?:\.(\w+))?")
+_SESSION = re.compile(r"dialysis\.(sessions|planned)\[(\d+)\](?:\.(\w+))?")
+_SESSION_KEYS = ("start", "end", "dialyser")
 
 
-def widget_id_for(field: str, dose_row: int, level_row: int, scr_row: int = 0) -> str:
+def widget_id_for(field: str, dose_row: int, level_row: int, scr_row: int = 0,
+                  session_rows: dict[str, int] | None = None) -> str:
     """The FieldRow id for a case path, or "" when no form shows it now.
 
     Args:
         field: e.g. ``doses[2].amount``, ``patient.weight``, ``target.auc24[1]``.
         dose_row, level_row: the rows the doses and levels forms show now.
         scr_row: the SCr row the patient form shows now.
+        session_rows: the rows the dialysis session forms show now (``{"sessions": 1, "planned": 0}``).
     """
     if field in _PATIENT:
         return _PATIENT[field]
@@ -39,6 +43,12 @@ def widget_id_for(field: str, dose_row: int, level_row: int, scr_row: int = 0) -
     if m:
         index, key = int(m.group(1)), m.group(2) or "value"
         return ("scr-time" if key == "time" else "scr-value") if index == scr_row else ""
+    m = _SESSION.fullmatch(field)
+    if m:
+        part, index, key = m.group(1), int(m.group(2)), m.group(3) or "start"
+        if index == (session_rows or {}).get(part) and key in _SESSION_KEYS:
+            return f"{part}-{key}"
+        return ""
     m = _ROW.fullmatch(field)
     if m:
         name, index, key = m.group(1), int(m.group(2)), m.group(3) or ""
@@ -60,3 +70,13 @@ def rows_in_words(text: str) -> str:
         return f"{_ROW_WORD[m.group(1)]} {int(m.group(2)) + 1}{key}"
 
     return _ANY_ROW.sub(word, text)
+
+
+_SESSION_WORD = {"sessions": "session done", "planned": "session planned"}
+
+
+def session_row_words(field: str) -> str:
+    """The table row of a dialysis session the engine names: ``dialysis.sessions[1].end`` ->
+    `` (session done 2)``; "" for any other field (the engine's own name is kept beside it)."""
+    m = _SESSION.fullmatch(field)
+    return f" ({_SESSION_WORD[m.group(1)]} {int(m.group(2)) + 1})" if m else ""

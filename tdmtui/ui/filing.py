@@ -13,7 +13,7 @@ from typing import Any
 
 from tdmtui.core.input.casefile import SaveLockTimeout
 from tdmtui.ui.dialogs import AskDialog, TextDialog
-from tdmtui.ui.document import ChangedOnDisk, new_case_raw
+from tdmtui.ui.document import ChangedOnDisk, FileGone, new_case_raw
 from tdmtui.ui.recovery import RecoveryRefused, find_recovery, recovery_path, remove_recovery
 
 
@@ -84,23 +84,42 @@ class FilingMixin:
             [("r", "restore"), ("d", "discard")], escape="later"), answer)
 
 
-    def action_save(self) -> None:
-        """Save to the case file, refusing one changed by someone else (save-as offered)."""
+    def action_save(self, recreate: bool = False, then_quit: bool = False) -> None:
+        """Save to the case file, refusing one changed by someone else (save-as offered); a file deleted
+        since is said so, and written again only when asked. The case on screen is kept whatever the answer."""
         if not self.doc.path:
-            self.save_as()
+            self.save_as(then_quit)
             return
         try:
-            self.doc.save()
+            self.doc.save(recreate=recreate)
+        except FileGone:
+            self.push_screen(AskDialog(
+                f"{self.doc.path} no longer exists (deleted or moved since you opened it).\n"
+                "Your case is still here, unsaved. Write it there again, or save it under another name?",
+                [("w", "write it again"), ("a", "save as")]), lambda w: self.after_gone(w, then_quit))
+            return
         except ChangedOnDisk:
             self.push_screen(AskDialog(
                 f"{self.doc.path} was changed by someone else since you opened it (another session?).\n"
                 "It is NOT overwritten. Save your version under another name?",
-                [("a", "save as")]), lambda w: self.save_as() if w == "save as" else None)
+                [("a", "save as")]), lambda w: self.save_as(then_quit) if w == "save as" else None)
             return
         except (OSError, SaveLockTimeout) as exc:
             self.notify(f"Not saved: {exc}", severity="error", markup=False)
             return
         self.saved()
+        if then_quit and self.matches_file():
+            self.exit(0)
+
+    def after_gone(self, word: str | None, then_quit: bool) -> None:
+        """The answer to "the file no longer exists": write it again, save as, or keep editing (Esc)."""
+        if word == "write it again":
+            self.action_save(recreate=True, then_quit=then_quit)
+        elif word == "save as":
+            self.save_as(then_quit)
+        else:
+            self.notify("Not saved: the case stays on screen, unsaved (its recovery file is kept).",
+                        severity="warning", timeout=5)
 
     def save_as(self, then_quit: bool = False) -> None:
         """Ask for a new file name and save there (never over an existing file)."""
@@ -115,8 +134,12 @@ class FilingMixin:
             if not text:
                 return
             old = recovery_path(self.doc.path, self.state)
-            try:
-                self.doc.save(str(Path(text).expanduser()))
+            try:  # typed back to the case's own deleted file: written there again
+                self.doc.save(str(Path(text).expanduser()), recreate=True)
+            except (ChangedOnDisk, FileExistsError):
+                self.notify(f"Not saved: {text} appeared meanwhile and is not overwritten; choose another name.",
+                            severity="error", markup=False)
+                return
             except (OSError, SaveLockTimeout) as exc:
                 self.notify(f"Not saved: {exc}", severity="error", markup=False)
                 return
@@ -158,12 +181,7 @@ class FilingMixin:
 
         def answer(word: str | None) -> None:
             if word == "save":
-                if self.doc.path:
-                    self.action_save()
-                    if not self.doc.dirty:
-                        self.exit(0)
-                else:
-                    self.save_as(then_quit=True)
+                self.action_save(then_quit=True)
             elif word == "keep for later":
                 self.exit(0)
             elif word == "discard":

@@ -20,6 +20,8 @@ Patient
   "180 lb", "97 umol/L", "1.25 g". Choices: left/right, space, or the
   first letter. Target: "auc24 400-600" or "peak 8-10; trough 0.5-1"
   (empty: the library's or your protocol's targets).
+  Dialysis ihd: the sessions done and planned are tables like the
+  doses (a, x, u, Enter); an end "12:00" or "+4h" from its start.
 Doses and levels
   a add a row (the last one, one interval later)   x delete   u undo
   Enter edit the row   r repeat a dose: "12h x 3" (doses only)
@@ -34,7 +36,9 @@ Estimate
   m model average: each model's weight, estimate and why it has none
   ] / [ next / previous page of methods (the one used, *, stays)
   The plot draws in braille; TDMTUI_PLOT=ascii (or a locale that is
-  not UTF-8) draws it in plain characters: * fitted, + plan, . band.
+  not UTF-8, or tdmtui --ascii) draws it in plain characters: * fitted,
+  + plan, . band; a locale that is not UTF-8 or --ascii also makes every
+  border and scrollbar ASCII.
 Plan
   arrows move, Enter chooses the regimen named in the note
 Note

@@ -8,7 +8,7 @@ import stat
 
 import pytest
 
-from tdmtui.ui.document import CaseDocument, ChangedOnDisk, new_case_raw
+from tdmtui.ui.document import CaseDocument, ChangedOnDisk, FileGone, new_case_raw
 from tdmtui.ui.fields import check_quantity, complete_quantity
 from tdmtui.ui.recovery import find_recovery, read_recovery, recovery_path, remove_recovery, write_recovery
 
@@ -46,6 +46,26 @@ def test_save_is_0600_and_refuses_a_file_changed_by_someone_else(tmp_path):
     target = tmp_path / "mine.json"
     doc.save(str(target))
     assert json.loads(target.read_text())["label"] == "mine" and doc.path == str(target)
+
+
+def test_a_deleted_file_is_written_again_only_when_asked(tmp_path):
+    path = tmp_path / "case.json"
+    path.write_text(json.dumps(new_case_raw()), encoding="utf-8")
+    doc = CaseDocument.open(str(path))
+    doc.set(("patient", "age"), "70 yr")
+    path.unlink()
+    with pytest.raises(FileGone):
+        doc.save()
+    assert not path.exists() and doc.dirty
+    doc.save(recreate=True)
+    assert json.loads(path.read_text(encoding="utf-8"))["patient"]["age"] == "70 yr" and not doc.dirty
+    # recreate writes only where nothing is: a file put back by someone else is still refused
+    path.unlink()
+    path.write_text("{}", encoding="utf-8")
+    doc.set(("patient", "age"), "71 yr")
+    with pytest.raises(ChangedOnDisk) as caught:
+        doc.save(recreate=True)
+    assert not isinstance(caught.value, FileGone) and path.read_text(encoding="utf-8") == "{}"
 
 
 def test_save_as_onto_an_existing_file_needs_force(tmp_path):

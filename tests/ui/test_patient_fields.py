@@ -54,7 +54,8 @@ async def test_an_unknown_condition_is_named_and_kept(state, sample_copy):
         await put(pilot, "#pt-timezone-input", "Mars/Olympus")
         await pilot.pause()
         note = str(app.screen.query_one("#pt-conditions", FieldRow).query_one(".field-note").content)
-        assert "sepsis: not in the list" in note
+        # the field's own reading, or the engine's once a recompute has run meanwhile: both name it
+        assert "sepsis" in note and ("not in the list" in note or "not in the documented list" in note), note
         zone = str(app.screen.query_one("#pt-timezone", FieldRow).query_one(".field-note").content)
         assert "is not a time zone name" in zone
         await settle(pilot)

@@ -56,12 +56,92 @@ async def test_saved_only_while_the_file_holds_the_case(state, sample_copy):
         assert "[UNSAVED]" in header(app)
         await pilot.press("ctrl+s")
         await pilot.pause()
-        # the file it opened is gone: the app does not write blindly, it offers to save under a name
-        assert isinstance(app.screen, AskDialog) and "NOT overwritten" in app.screen.question
+        # the file it opened is gone: the app says so and does not write blindly
+        assert isinstance(app.screen, AskDialog)
+        assert "no longer exists" in app.screen.question and "someone else" not in app.screen.question
         await pilot.press("escape")
         await pilot.pause()
         assert "[UNSAVED]" in header(app)
     assert not path.exists()
+
+
+async def type_weight(pilot, app, text: str) -> None:  # noqa: ANN001
+    field = app.screen.query_one("#pt-weight-input", Input)
+    field.focus()
+    field.value = ""
+    await pilot.press(*text)
+    await settle(pilot)
+
+
+async def test_a_deleted_file_is_written_again_with_what_was_typed(state, sample_copy):
+    path = sample_copy("vanc-steady-state.json")
+    app = TdmApp(str(path), None, state=state)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        await type_weight(pilot, app, "95 kg")
+        path.unlink()
+        await pilot.press("ctrl+s")
+        await pilot.pause()
+        assert isinstance(app.screen, AskDialog) and "[w] write it again" in " ".join(
+            str(w.render()) for w in app.screen.query(Static))
+        await pilot.press("w")
+        await settle(pilot)
+        assert not isinstance(app.screen, AskDialog)
+        assert "[saved]" in header(app)
+        assert any(n.message == f"Saved {path}" for n in app._notifications)
+    saved = json.loads(path.read_text(encoding="utf-8"))
+    assert saved["patient"]["weight"] == "95 kg"
+    assert saved == app.doc.raw
+    assert path.stat().st_mode & 0o777 == 0o600
+    assert read_recovery(recovery_path(str(path), state)) is None  # saved: the recovery file is gone
+
+
+async def test_a_deleted_file_keeps_the_typing_whatever_the_answer(state, sample_copy, tmp_path):
+    path = sample_copy("vanc-steady-state.json")
+    app = TdmApp(str(path), None, state=state)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        await type_weight(pilot, app, "96 kg")
+        path.unlink()
+        await pilot.press("ctrl+s")
+        await pilot.pause()
+        await pilot.press("escape")  # not now: nothing written, nothing dropped
+        await pilot.pause()
+        assert not path.exists() and "[UNSAVED]" in header(app)
+        assert app.doc.raw["patient"]["weight"] == "96 kg"
+        assert read_recovery(recovery_path(str(path), state)).raw["patient"]["weight"] == "96 kg"
+        await pilot.press("ctrl+s")
+        await pilot.pause()
+        await pilot.press("a")  # under another name
+        await pilot.pause()
+        other = tmp_path / "kept.json"
+        dialog_input = app.screen.query_one("#dlg-input", Input)
+        dialog_input.value = str(other)
+        await pilot.press("enter")
+        await settle(pilot)
+        assert "[saved]" in header(app) and app.doc.path == str(other)
+    assert json.loads(other.read_text(encoding="utf-8"))["patient"]["weight"] == "96 kg"
+    assert not path.exists()
+
+
+async def test_a_file_back_before_the_answer_is_not_overwritten(state, sample_copy):
+    path = sample_copy("vanc-steady-state.json")
+    app = TdmApp(str(path), None, state=state)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        await type_weight(pilot, app, "97 kg")
+        theirs = path.read_bytes().replace(b'"weight": "', b'"weight": "1')
+        path.unlink()
+        await pilot.press("ctrl+s")
+        await pilot.pause()
+        path.write_bytes(theirs)  # another session writes the file while the question is open
+        await pilot.press("w")
+        await pilot.pause()
+        assert isinstance(app.screen, AskDialog) and "changed by someone else" in app.screen.question
+        await pilot.press("escape")
+        await pilot.pause()
+        assert app.doc.raw["patient"]["weight"] == "97 kg" and "[UNSAVED]" in header(app)
+    assert path.read_bytes() == theirs
 
 
 async def test_a_save_with_an_input_error_keeps_the_text_and_says_so(state, sample_copy):

@@ -24,3 +24,8 @@ async def settle(pilot, limit_s: float = 30.0) -> None:
         await pilot.pause(0.1)
         waited += 0.1
     await pilot.pause()
+
+
+def screen_lines(app) -> list[str]:  # noqa: ANN001
+    """The characters on the top screen, one string per terminal line (no styles)."""
+    return [strip.text for strip in app.screen._compositor.render_strips()]

@@ -55,6 +55,7 @@ class EstimateSection(Vertical):
 
     cols: list[tuple[str, dict[str, Any]]] = []
     page = 0
+    n_pages = 1
     used_marked = False
 
     def compose(self) -> ComposeResult:
@@ -69,9 +70,10 @@ class EstimateSection(Vertical):
         yield Label(caution_line(), classes="caution", markup=False)
 
     def action_view(self, view: str) -> None:
-        """Switch between table, working and graph."""
+        """Switch between table, working and graph (the title names a page only over the table)."""
         self.query_one(ContentSwitcher).current = view
         self.query_one(f"#{view}").focus()
+        self.query_one("#est-title", Label).update(self.title_text(self.n_pages))
 
     def show(self, outcome: Any) -> None:
         """Fill the views from an Outcome (None: clear them); the graph builds its curves when it is drawn."""
@@ -85,7 +87,9 @@ class EstimateSection(Vertical):
         self.query_one("#est-models-text", Static).update(weights_text(result) if self.cols else "No estimate yet.")
 
     def action_page(self, step: int) -> None:
-        """The next or previous page of methods (the row labels and the method used stay)."""
+        """The next or previous page of methods (the row labels and the method used stay); the table's keys."""
+        if self.query_one("#est-views", ContentSwitcher).current != "est-table":
+            return
         self.page += step
         self.fill_table()
 
@@ -111,6 +115,7 @@ class EstimateSection(Vertical):
         table.clear(columns=True)
         texts, pages = self.table_pages()
         self.page = max(0, min(self.page, len(pages) - 1))
+        self.n_pages = len(pages)
         shown = ([0] if self.used_marked else []) + [i for i in pages[self.page] if i < len(self.cols)]
         table.add_column("\n", key="label")
         for i in shown:
@@ -124,7 +129,8 @@ class EstimateSection(Vertical):
         """What the table shows: the method used, its chance of target, which page of the others."""
         if not self.cols:
             return "No estimate: see the message below and the warnings."
-        more = f"  Page {self.page + 1}/{n_pages}: ] next, [ back" if n_pages > 1 else ""
+        on_table = self.query_one("#est-views", ContentSwitcher).current == "est-table"
+        more = f"  Page {self.page + 1}/{n_pages}: ] next, [ back" if n_pages > 1 and on_table else ""
         if not self.used_marked:
             return "No estimate used (a STOP stands); for reference only." + more
         name, used = self.cols[0]

@@ -6,7 +6,7 @@ from typing import Any
 
 from textual import on
 from textual.app import ComposeResult
-from textual.containers import VerticalScroll
+from textual.containers import Vertical, VerticalScroll
 from textual.widgets import Input, Label
 
 from tdmtui.core.input.casetypes import METHODS, RENAL_REPLACEMENT, SEXES
@@ -17,6 +17,7 @@ from tdmtui.ui.entry import (Entry, case_clock, parsed_time, quantity_entry, tar
                              time_entry)
 from tdmtui.ui.messages import CaseEdited
 from tdmtui.ui.sections.scr import ScrRows
+from tdmtui.ui.sections.sessions import PlannedRows, SessionRows
 from tdmtui.ui.widgets.cycler import Cycler
 from tdmtui.ui.widgets.form import FieldRow, FieldSpec
 
@@ -48,6 +49,10 @@ _KINDS = {"age": ("age", "yr"), "weight": ("weight", "kg"), "height": ("height",
 _LISTS = ("conditions", "comeds")
 #: The SCr history (a table of its own) comes after this field.
 _SCR_AFTER = "height"
+#: The dialysis sessions (tables of their own) come after this field.
+_SESSIONS_AFTER = "rrt"
+#: Free-text fields that take the whole line; a text longer than the field is also shown whole under it.
+_LONG_TEXT = ("label", "indication")
 
 
 def scr_entries(raw: dict[str, Any]) -> list[dict[str, str]]:
@@ -143,9 +148,18 @@ class PatientSection(VerticalScroll):
     def compose(self) -> ComposeResult:
         for spec in FIELDS:
             yield FieldRow(spec, prefix="pt")
+            if spec.key in _LONG_TEXT:
+                yield Label("", id=f"pt-{spec.key}-whole", classes="field-whole", markup=False)
             if spec.key == _SCR_AFTER:
                 yield Label("SCr history (a add, x delete, u undo, Enter edit, Esc table):", classes="form-title")
                 yield ScrRows(self.doc, id="scr")
+            if spec.key == _SESSIONS_AFTER:
+                with Vertical(id="pt-dialysis"):
+                    yield Label("Dialysis sessions done (a add, x delete, u undo, Enter edit, Esc table):",
+                                classes="form-title")
+                    yield SessionRows(self.doc, id="sessions")
+                    yield Label("Dialysis sessions planned (the proposal doses after them):", classes="form-title")
+                    yield PlannedRows(self.doc, id="planned")
         yield Label("", id="derived-1", classes="derived", markup=False)
         yield Label("", id="derived-2", classes="derived", markup=False)
 
@@ -172,7 +186,30 @@ class PatientSection(VerticalScroll):
                 value = "auto"
             self.query_one(f"#pt-{spec.key}", FieldRow).load(value)
         self.query_one(ScrRows).reload()
+        self.query_one(SessionRows).reload()
+        self.query_one(PlannedRows).reload()
+        self.show_sessions()
         self.update_derived()
+        self.call_after_refresh(self.show_whole)
+
+    def show_sessions(self) -> None:
+        """The session tables on intermittent haemodialysis, and whenever the case holds sessions."""
+        held = bool(self.query_one(SessionRows).rows() or self.query_one(PlannedRows).rows())
+        self.query_one("#pt-dialysis").display = held or self.doc.get(_PATHS["rrt"], "") == "ihd"
+
+    def on_resize(self) -> None:
+        self.call_after_refresh(self.show_whole)
+
+    def show_whole(self) -> None:
+        """Under a long free-text field, its whole text (wrapped) when the field cannot show it at once."""
+        from rich.cells import cell_len
+
+        for key in _LONG_TEXT:
+            text = self.query_one(f"#pt-{key}", FieldRow).text
+            room = self.query_one(f"#pt-{key}-input", Input).content_region.width
+            whole = self.query_one(f"#pt-{key}-whole", Label)
+            whole.display = bool(room) and cell_len(text) > room
+            whole.update(text if whole.display else "")
 
     def update_derived(self) -> float | None:
         """Recompute IBW, AdjBW, BMI, CrCl, eGFR from what reads now."""
@@ -235,4 +272,8 @@ class PatientSection(VerticalScroll):
             self.doc.set(_PATHS[key], e.stored)
         self.query_one(f"#pt-{key}", FieldRow).show(e.note, e.error)
         self.update_derived()
+        if key in _LONG_TEXT:
+            self.call_after_refresh(self.show_whole)
+        if key == "rrt":
+            self.show_sessions()
         self.post_message(CaseEdited(f"patient.{key}"))

@@ -7,7 +7,7 @@ from typing import Any
 from rich.text import Text
 from textual import on
 from textual.app import ComposeResult
-from textual.containers import Vertical
+from textual.containers import Vertical, VerticalScroll
 from textual.message import Message
 from textual.widgets import DataTable, Label, Static
 
@@ -73,7 +73,7 @@ def summary_lines(result: dict[str, Any]) -> str:
 
 
 def session_lines(result: dict[str, Any]) -> list[str]:
-    """The dialysis sessions recorded and planned, one line each kind (edited in the case file)."""
+    """The dialysis sessions recorded and planned, one line each kind (edited in the patient section)."""
     d = result.get("dialysis")
     if not d:
         return []
@@ -81,6 +81,22 @@ def session_lines(result: dict[str, Any]) -> list[str]:
     done = ", ".join(span(s) for s in d.get("sessions", [])) or "none"
     plan = ", ".join(span(s) for s in d.get("plan_sessions", [])) or "none"
     return [f"Sessions done: {done}.", f"Sessions to come{' (repeated from last week)' if d.get('plan_sessions_projected') else ''}: {plan}."]
+
+
+CANDIDATES_TITLE = "Candidates (Enter chooses the one for the note; Prob = chance of target):"
+
+
+def no_candidates_reason(result: dict[str, Any]) -> str:
+    """One line saying why there is no table of candidates ("" when there are candidates, or when the
+    proposal above already says why: a STOP, nothing computed yet)."""
+    if candidates(result) or not result.get("regimen"):
+        return ""
+    mode = (result.get("regimen") or {}).get("mode")
+    if mode == "dialysis":
+        return "No candidates to choose: the proposal is the dose after each session, above."
+    if mode == "redose-by-level":
+        return "No candidates to choose: hold, draw a level and redose by it, as above."
+    return "No candidates offered."
 
 
 class PlanSection(Vertical):
@@ -99,8 +115,10 @@ class PlanSection(Vertical):
         self.chosen: int | None = None
 
     def compose(self) -> ComposeResult:
-        yield Static("No regimen proposed yet.", id="plan-summary", markup=False)
-        yield Label("Candidates (Enter chooses the one for the note; Prob = chance of target):", classes="section-title")
+        # the proposal scrolls when it is long (a dialysis plan), so the caution under it is never pushed off
+        with VerticalScroll(id="plan-summary-box"):
+            yield Static("No regimen proposed yet.", id="plan-summary", markup=False)
+        yield Label(CANDIDATES_TITLE, id="plan-candidates", classes="section-title", markup=False)
         yield DataTable(cursor_type="row", zebra_stripes=True, id="plan-table")
         yield Label(caution_line(), classes="caution", markup=False)
 
@@ -114,6 +132,11 @@ class PlanSection(Vertical):
         result = outcome.result if outcome is not None else {}
         self.query_one("#plan-summary", Static).update(summary_lines(result))
         self.options = candidates(result)
+        reason = no_candidates_reason(result)
+        heading = self.query_one("#plan-candidates", Label)
+        heading.update(reason or CANDIDATES_TITLE)
+        heading.display = bool(self.options or reason)
+        self.set_class(not self.options, "-no-candidates")
         self.chosen = None
         wanted = chosen_in(outcome.case.raw) if outcome is not None else None
         if wanted is not None:  # the case's choice, when it is still offered

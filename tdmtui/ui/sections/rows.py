@@ -27,6 +27,7 @@ class RowsSection(Vertical):
 
     NAME = ""
     TITLE = ""
+    NOUN = ""  # what the rows are, in "No ... yet" (default: NAME)
     FIELDS: tuple[FieldSpec, ...] = ()
     COLUMNS: tuple[str, ...] = ()
     # priority: run before the next key is routed (so keys typed right after "a" reach the new row);
@@ -94,7 +95,7 @@ class RowsSection(Vertical):
         title = self.query_one(f"#{self.NAME}-form-title", Label)
         form = self.query_one(f"#{self.NAME}-form")
         if not rows:
-            title.update(f"No {self.NAME} yet: press a (or just type below) to add one.")
+            title.update(f"No {self.NOUN or self.NAME} yet: press a (or just type below) to add one.")
             form.set_class(True, "-empty")
             for spec in self.FIELDS:
                 self.query_one(f"#{self.NAME}-{spec.key}", FieldRow).load(self.form_value(spec.key, {}))
@@ -226,12 +227,16 @@ class RowsSection(Vertical):
         self.app.notify("Row deleted: press u to undo.", timeout=4)
 
     def action_undo(self) -> None:
-        """Undo the last row change."""
+        """Undo the last row change, wherever it was made: every table shows the case again."""
         what = self.doc.undo()
         if not what:
             self.app.notify("Nothing to undo.", timeout=3)
             return
-        self.reload()
+        reload_all = getattr(self.app, "reload_sections", None)
+        if callable(reload_all):  # the change undone may lie in another table (one undo list per case)
+            reload_all()
+        else:
+            self.reload()
         self.post_message(CaseEdited("undo"))
         self.app.notify(f"Undone: {what}", timeout=4)
 

@@ -22,6 +22,7 @@ class ScrRows(RowsSection):
 
     NAME = "scr"
     TITLE = "SCr"
+    NOUN = "SCr values"
     COLUMNS = ("#", "Drawn", "SCr")
     FIELDS = (
         FieldSpec("value", "SCr", "quantity:scr", "mg/dL"),

@@ -59,7 +59,9 @@ class FieldRow(Horizontal):
         if self.spec.kind == "choice":
             yield Cycler(self.spec.options, self._value, id=f"{self.id}-input")
         else:
-            yield Input(self._value, placeholder=self.spec.unit, compact=True, id=f"{self.id}-input",
+            # no placeholder: the unit stands in the note beside the field (a dimmed "mg/L" inside an empty
+            # field reads as a value where there is no colour)
+            yield Input(self._value, compact=True, id=f"{self.id}-input",
                         select_on_focus=True)
         yield Label(self._idle_note(), classes="field-note", markup=False)
 
@@ -88,6 +90,12 @@ class FieldRow(Horizontal):
             widget.cursor_position = len(text)
         self.show(self.reading(text), "")
 
+    _last_note = ""
+
+    def unmark(self) -> None:
+        """Take the engine's reason off the field: its own reading comes back (e.g. "a 4 h session")."""
+        self.show(self._last_note, "")
+
     def reading(self, text: str) -> str:
         """A quantity stored in another unit than the field's reads in the field's unit (``154 lb``: ``= 69.85 kg``)."""
         if not (text and self.spec.kind.startswith("quantity:") and self.spec.unit):
@@ -99,8 +107,12 @@ class FieldRow(Horizontal):
 
     def show(self, note: str, error: str) -> None:
         """Show the reading (note) or the reason it fails (error); marks the field."""
+        if not error:
+            self._last_note = note
         self.set_class(bool(error), "-bad")
         widget = self.query_one(f"#{self.id}-input")
         widget.set_class(bool(error), "-invalid")
         text = f"! {error}" if error else (note or self._idle_note())
+        if error and self.spec.unit and not self.text.strip():
+            text += f" ({self.spec.unit})"  # an empty field still says its unit
         self.query_one(".field-note", Label).update(text)

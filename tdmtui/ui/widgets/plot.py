@@ -26,29 +26,19 @@ Y_LABEL_W = 6
 ASCII = {"fit": "*", "plan": "+", "band": "."}
 #: The line of each target band (a second band, e.g. the peak beside the trough, gets its own).
 BAND_CHARS = ("-", "=")
-#: The LC_CTYPE values Python's C-locale coercion writes into the environment (PEP 538).
-COERCED = ("C.UTF-8", "C.utf8", "UTF-8")
-
-
 def braille_ok(env: dict[str, str] | None = None) -> bool:
-    """Whether to draw in braille: ``TDMTUI_PLOT=ascii`` or ``braille`` decides; else the locale must be UTF-8.
-
-    The locale is the first of LC_ALL, LC_CTYPE, LANG that is set (as the C library reads it); with none
-    set, Python's preferred encoding. ``LANG=C`` with the LC_CTYPE Python sets when it coerces the C locale
-    counts as C.
-    """
-    import locale
+    """Whether to draw in braille: ``TDMTUI_PLOT=ascii`` or ``braille`` decides; else the locale must be UTF-8
+    (:func:`tdmtui.ui.charset.utf8_locale`: LC_ALL, LC_CTYPE, LANG as the C library reads them; ``LANG=C``
+    with the LC_CTYPE Python sets when it coerces the C locale counts as C)."""
     import os
+
+    from tdmtui.ui.charset import utf8_locale
 
     env = os.environ if env is None else env
     choice = env.get("TDMTUI_PLOT", "").strip().lower()
     if choice in ("ascii", "braille"):
         return choice == "braille"
-    if not env.get("LC_ALL") and env.get("LANG") in ("C", "POSIX") and env.get("LC_CTYPE") in COERCED:
-        return False  # Python itself set LC_CTYPE (PEP 538) because the locale is C: the terminal may not be UTF-8
-    name = next((env[k] for k in ("LC_ALL", "LC_CTYPE", "LANG") if env.get(k)), "")
-    enc = name.rsplit(".", 1)[1] if "." in name else ("" if name else locale.getpreferredencoding(False))
-    return enc.split("@")[0].replace("-", "").lower() == "utf8"
+    return utf8_locale(env)
 
 
 def legend(data: PlotData, braille: bool) -> str:
@@ -166,6 +156,17 @@ class ConcPlot(Widget, can_focus=True):
         self.data: PlotData | None = None
         self._outcome: Any = None
         self.braille = braille_ok()
+
+    def on_mount(self) -> None:
+        if getattr(self.app, "ascii_only", False) and not self.braille_asked():
+            self.braille = False  # tdmtui --ascii, or a locale that is not UTF-8: ASCII everywhere
+
+    @staticmethod
+    def braille_asked() -> bool:
+        """True when TDMTUI_PLOT=braille asks for braille whatever the locale."""
+        import os
+
+        return os.environ.get("TDMTUI_PLOT", "").strip().lower() == "braille"
 
     def show(self, data: PlotData | None) -> None:
         """Draw new data (None: no estimate to plot)."""
