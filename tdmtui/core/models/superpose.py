@@ -30,7 +30,8 @@ start; an infusion is finished at ``t >= end``; a bolus at ``t > start`` (or
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, fields
+from functools import lru_cache
 
 import numpy as np
 
@@ -38,6 +39,9 @@ from tdmtui.core.models import DoseArrays
 
 #: elements per temporary (sets x exponents x doses) array; bounds memory (8 MB of floats)
 BLOCK_ELEMENTS = 1 << 20
+#: layouts of at most this many doses + times are kept for reuse (a fit, a root search and a curve
+#: ask for the same history at the same times many times over); larger ones are built each time
+REUSE_ELEMENTS = 4096
 
 
 @dataclass(frozen=True)
@@ -69,10 +73,17 @@ class Layout:
 
     @classmethod
     def build(cls, doses: DoseArrays, t: object, right: bool = False) -> Layout:
+        """The layout of ``doses`` at times ``t``; a small one is built once and then reused (read-only)."""
         ts_in = np.asarray(t, dtype=float).reshape(-1)
+        arrays = [np.asarray(a, dtype=float) for a in (doses.start, doses.duration, doses.amount)]
+        if arrays[0].size + ts_in.size > REUSE_ELEMENTS:
+            return cls._build(*arrays, ts_in, right)
+        return _reused(*(a.tobytes() for a in arrays), ts_in.tobytes(), bool(right))
+
+    @classmethod
+    def _build(cls, s: np.ndarray, dur: np.ndarray, amt: np.ndarray, ts_in: np.ndarray, right: bool) -> Layout:
         order = np.argsort(ts_in, kind="stable")
         ts = ts_in[order]
-        s, dur, amt = doses.start, doses.duration, doses.amount
         infusion = dur > 0
         end = s + dur
         rate = np.where(infusion, amt / np.where(infusion, dur, 1.0), 0.0)
@@ -88,7 +99,7 @@ class Layout:
         new = np.ones(idx.size, bool)
         new[1:] = (at[1:] != at[:-1]) | (kind[1:] != kind[:-1])
         group = np.flatnonzero(new)
-        entry, entry_group = np.unique(at[group], return_index=True)
+        entry, entry_group = _first_of_runs(at[group])
         lo = np.searchsorted(ts, s, side="right")
         hi = np.where(infusion, np.searchsorted(ts, end, side="left"), lo)
         count = np.maximum(hi - lo, 0)
@@ -96,7 +107,7 @@ class Layout:
         run_time = np.repeat(lo, count) + np.arange(run_dose.size) - np.repeat(np.cumsum(count) - count, count)
         by_time = np.argsort(run_time, kind="stable")
         run_time, run_dose = run_time[by_time], run_dose[by_time]
-        run_at, run_first = np.unique(run_time, return_index=True)
+        run_at, run_first = _first_of_runs(run_time)
         return cls(ts.size, order, bool(np.all(order == np.arange(order.size))), np.diff(ts),
                    ts[at] - end[idx], group, kind[group], entry, entry_group, kinds[:, 0], kinds[:, 1], kinds[:, 2],
                    run_time, run_dose, ts[run_time] - s[run_dose], run_at, run_first, rate)
@@ -157,13 +168,34 @@ class Layout:
 
 def _kinds(dur: np.ndarray, rate: np.ndarray, bolus: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Distinct (duration, rate, bolus) rows (c, 3) and each dose's row: by one integer code per dose
-    (a sort of integers, not of rows)."""
+    (a sort of integers, not of rows); one row at once when every dose is of one kind (the common course)."""
+    if dur.size and np.all(dur == dur[0]) and np.all(rate == rate[0]) and np.all(bolus == bolus[0]):
+        return np.array([[dur[0], rate[0], bolus[0]]]), np.zeros(dur.size, dtype=np.intp)
     code = np.zeros(dur.size, dtype=np.int64)
     for col in (dur, rate, bolus):
         values, inv = np.unique(col, return_inverse=True)
         code = code * values.size + inv.reshape(-1)
     codes, first, kind = np.unique(code, return_index=True, return_inverse=True)
     return np.stack([dur[first], rate[first], bolus[first]], 1).reshape(-1, 3), kind.reshape(-1)
+
+
+def _first_of_runs(a: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """For sorted ``a``: its distinct values and where each first occurs (np.unique's, without its sort)."""
+    new = np.ones(a.size, bool)
+    new[1:] = a[1:] != a[:-1]
+    first = np.flatnonzero(new)
+    return a[first], first
+
+
+@lru_cache(maxsize=64)
+def _reused(start: bytes, duration: bytes, amount: bytes, t: bytes, right: bool) -> Layout:
+    """A small layout by the bytes of its inputs, built once; its arrays are made read-only."""
+    out = Layout._build(*(np.frombuffer(b, dtype=float) for b in (start, duration, amount, t)), right)
+    for f in fields(out):
+        value = getattr(out, f.name)
+        if isinstance(value, np.ndarray):
+            value.flags.writeable = False
+    return out
 
 
 #: a term e^(-lam delta) with lam delta above this (e^-36.8 < 1e-16) is left out: the dose has decayed
