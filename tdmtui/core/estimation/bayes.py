@@ -28,14 +28,14 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
-from functools import lru_cache
+from functools import cached_property, lru_cache
 from typing import Callable
 
 import numpy as np
 
 from tdmtui.core.errors import ConvergenceError
 from tdmtui.core.models import DoseArrays, PKParams
-from tdmtui.core.models.batch import Design, batch_concentration, batch_steady_state, exponentials  # noqa: F401
+from tdmtui.core.models.batch import Design, batch_concentration, batch_steady_state, exponentials, steady_state_of  # noqa: F401
 from tdmtui.core.estimation.popmodels import Covariates, PopModel, Typical
 
 SEED = 20260301
@@ -384,9 +384,14 @@ class ParamSamples:
         """Equivalent one-compartment ke = CL / Vss, 1/h (case-format.md)."""
         return self.cl / self.vss
 
+    @cached_property
+    def exponents(self) -> tuple[np.ndarray, np.ndarray]:
+        """Exponents and weights (n, k) of every draw (:func:`exponentials`), computed once."""
+        return exponentials(self.cl, self.v1, self.q, self.v2)
+
     def steady_state(self, dose: float, tau: float, tinf: float, peak_delay_h: float = 0.0) -> dict[str, np.ndarray]:
         """Steady-state peak, trough and AUC24 per draw (see :func:`batch_steady_state`)."""
-        return batch_steady_state(self.cl, self.v1, self.q, self.v2, dose, tau, tinf, peak_delay_h)
+        return steady_state_of(*self.exponents, self.v1, self.cl, dose, tau, tinf, peak_delay_h)
 
 
 def _samples(fit: Fit, eta: np.ndarray, seed: int, weights: np.ndarray | None = None) -> ParamSamples:

@@ -88,9 +88,25 @@ def batch_steady_state(cl, v1, q, v2, dose: float, tau: float, tinf: float,  # n
     term for 2.6); AUC24 = 24 D / (tau CL) (pk-sources.md 2.6).
     """
     lam, w = exponentials(cl, v1, q, v2)
+    return steady_state_of(lam, w, np.atleast_1d(np.asarray(v1, dtype=float)),
+                           np.atleast_1d(np.asarray(cl, dtype=float)), dose, tau, tinf, peak_delay_h)
+
+
+def steady_state_of(lam: np.ndarray, w: np.ndarray, v1: np.ndarray, cl: np.ndarray, dose: float, tau: float,
+                    tinf: float, peak_delay_h: float = 0.0) -> dict[str, np.ndarray]:
+    """:func:`batch_steady_state` from the exponents and weights (m, k) of :func:`exponentials`, V1 and CL (m,):
+    for draws whose exponents are computed once and evaluated for many regimens."""
     x = lam * tinf
-    g = np.where(x > 0, -np.expm1(-x) / np.where(x > 0, x, 1.0), 1.0)
-    peak_k = dose / np.atleast_1d(v1)[:, None] * g / -np.expm1(-lam * tau)
-    return {"peak": np.sum(w * peak_k * np.exp(-lam * peak_delay_h), 1),
-            "trough": np.sum(w * peak_k * np.exp(-lam * (tau - tinf)), 1),
-            "auc24": 24.0 * dose / (tau * np.atleast_1d(np.asarray(cl, dtype=float)))}
+    if tinf > 0 and np.all(x > 0):
+        g = -np.expm1(-x) / x
+    else:
+        g = np.where(x > 0, -np.expm1(-x) / np.where(x > 0, x, 1.0), 1.0)
+    wpeak = w * (dose / v1[:, None] * g / -np.expm1(-lam * tau))
+    peak = wpeak if peak_delay_h == 0 else wpeak * np.exp(-lam * peak_delay_h)
+    trough = wpeak * np.exp(-lam * (tau - tinf))
+    return {"peak": _row_sums(peak), "trough": _row_sums(trough), "auc24": 24.0 * dose / (tau * cl)}
+
+
+def _row_sums(a: np.ndarray) -> np.ndarray:
+    """Sum over the (one or two) exponents of each row, as np.sum(a, 1) adds them."""
+    return a[:, 0] + a[:, 1] if a.shape[1] == 2 else np.sum(a, 1)
