@@ -66,15 +66,13 @@ def log_evidence(fit: Fit, n: int = 2000, inflate: float = 1.5, seed: int | None
     """ln p(y | model): the levels' likelihood integrated over the prior, by importance sampling.
 
     -2 ln p(y, eta) = OFV(eta) + n_q ln 2 pi + ln det Omega + p ln 2 pi (OFV as in :mod:`bayes`, which
-    leaves these constants out); the proposal is N(eta_MAP, inflate^2 cov_eta).
+    leaves these constants out); the proposal is N(eta_MAP, inflate^2 cov_eta), the same draws (and OFV
+    values) as :func:`bayes.importance_samples` takes with the same n, inflate and seed.
     """
-    rng = np.random.default_rng(fit.seed if seed is None else seed)
-    p = fit.eta.size
-    chol = np.linalg.cholesky(fit.cov_eta)
-    z = rng.standard_normal((n, p))
-    eta = fit.eta + inflate * z @ chol.T
+    draw = fit.proposal(n, inflate, fit.seed if seed is None else seed)
+    p, z, chol = fit.eta.size, draw.z, draw.chol
     n_q = int(np.sum(fit.observations.quantified))
-    log_joint = -0.5 * (fit.posterior(eta) + n_q * LN2PI + np.linalg.slogdet(fit.model.omega)[1] + p * LN2PI)
+    log_joint = -0.5 * (draw.ofv + n_q * LN2PI + np.linalg.slogdet(fit.model.omega)[1] + p * LN2PI)
     log_q = -0.5 * (np.sum(z * z, 1) + p * LN2PI) - (p * math.log(inflate) + float(np.sum(np.log(np.diag(chol)))))
     lw = log_joint - log_q
     top = float(np.max(lw))

@@ -221,6 +221,19 @@ def _newton(post: Posterior, x: np.ndarray, bound: np.ndarray, max_iter: int = 6
 
 
 @dataclass(frozen=True, eq=False)
+class Proposal:
+    """Draws of eta from a widened Laplace proposal: standard normal ``z`` (n, p), ``eta`` = eta_MAP +
+    inflate z L' (L = ``chol``, the Cholesky factor of cov_eta), ``ofv`` at each, and the uniform ``u``
+    drawn next from the same generator (the offset of systematic resampling)."""
+
+    z: np.ndarray
+    eta: np.ndarray
+    ofv: np.ndarray
+    chol: np.ndarray
+    u: float
+
+
+@dataclass(frozen=True, eq=False)
 class Fit:
     """A population (a priori) or MAP estimate.
 
@@ -244,6 +257,7 @@ class Fit:
     observations: Observations
     seed: int = SEED
     posterior: Posterior = field(repr=False, default=None)  # type: ignore[assignment]
+    _proposals: dict = field(repr=False, default_factory=dict)
 
     omega_sd = property(lambda self: np.sqrt(np.diag(self.model.omega)), doc="SD of each random effect")
 
@@ -269,6 +283,18 @@ class Fit:
             out = self.posterior.predict(self.eta[None, :], arr.reshape(-1), doses)[0]
             return out.reshape(arr.shape)
         return concentration(self.params, self.doses if doses is None else doses, t)
+
+    def proposal(self, n: int, inflate: float, seed: int) -> Proposal:
+        """``n`` draws of eta from N(eta_MAP, inflate^2 cov_eta) with their OFV; drawn once per (n, inflate,
+        seed) and shared by the importance-resampled draws and the evidence, which use the same draws."""
+        key = (n, inflate, seed)
+        if key not in self._proposals:
+            rng = np.random.default_rng(seed)
+            z = rng.standard_normal((n, self.eta.size))
+            chol = np.linalg.cholesky(self.cov_eta)
+            eta = self.eta + inflate * z @ chol.T
+            self._proposals[key] = Proposal(z, eta, self.posterior(eta), chol, rng.random())
+        return self._proposals[key]
 
     def residuals(self) -> list[dict[str, float | str]]:
         """Observed vs predicted for each level: time h, observed, predicted, residual (obs - pred), mg/L."""
@@ -414,14 +440,13 @@ def importance_samples(fit: Fit, n: int = 4000, seed: int | None = None, inflate
     ``resample``: return n equal-weight draws by systematic resampling instead.
     """
     seed = fit.seed if seed is None else seed
-    rng = np.random.default_rng(seed)
-    z = rng.standard_normal((n, fit.eta.size))
-    eta = fit.eta + inflate * z @ np.linalg.cholesky(fit.cov_eta).T
-    logw = -0.5 * fit.posterior(eta) + 0.5 * np.sum(z * z, 1)
+    draw = fit.proposal(n, inflate, seed)
+    z, eta = draw.z, draw.eta
+    logw = -0.5 * draw.ofv + 0.5 * np.sum(z * z, 1)
     w = np.exp(logw - np.max(logw))
     w /= w.sum()
     if resample:
-        idx = np.minimum(np.searchsorted(np.cumsum(w), (rng.random() + np.arange(n)) / n), n - 1)
+        idx = np.minimum(np.searchsorted(np.cumsum(w), (draw.u + np.arange(n)) / n), n - 1)
         return _samples(fit, eta[idx], seed)
     return _samples(fit, eta, seed, w)
 
