@@ -75,10 +75,10 @@ class Layout:
     def build(cls, doses: DoseArrays, t: object, right: bool = False) -> Layout:
         """The layout of ``doses`` at times ``t``; a small one is built once and then reused (read-only)."""
         ts_in = np.asarray(t, dtype=float).reshape(-1)
-        arrays = [np.asarray(a, dtype=float) for a in (doses.start, doses.duration, doses.amount)]
-        if arrays[0].size + ts_in.size > REUSE_ELEMENTS:
-            return cls._build(*arrays, ts_in, right)
-        return _reused(*(a.tobytes() for a in arrays), ts_in.tobytes(), bool(right))
+        s, dur, amt = (np.asarray(a, dtype=float) for a in (doses.start, doses.duration, doses.amount))
+        if s.size + ts_in.size > REUSE_ELEMENTS:
+            return cls._build(s, dur, amt, ts_in, right)
+        return _reused(s.tobytes(), dur.tobytes(), amt.tobytes(), ts_in.tobytes(), bool(right))
 
     @classmethod
     def _build(cls, s: np.ndarray, dur: np.ndarray, amt: np.ndarray, ts_in: np.ndarray, right: bool) -> Layout:
@@ -190,7 +190,8 @@ def _first_of_runs(a: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
 @lru_cache(maxsize=64)
 def _reused(start: bytes, duration: bytes, amount: bytes, t: bytes, right: bool) -> Layout:
     """A small layout by the bytes of its inputs, built once; its arrays are made read-only."""
-    out = Layout._build(*(np.frombuffer(b, dtype=float) for b in (start, duration, amount, t)), right)
+    s, dur, amt, ts = (np.frombuffer(b, dtype=float) for b in (start, duration, amount, t))
+    out = Layout._build(s, dur, amt, ts, right)
     for f in fields(out):
         value = getattr(out, f.name)
         if isinstance(value, np.ndarray):
