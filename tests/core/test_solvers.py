@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 from scipy import optimize, special
 
-from tdmtui.core.estimation.bayes import Observations
+from tdmtui.core.estimation.posterior import Observations
 from tdmtui.core.estimation.lsq import least_squares_fit
 from tdmtui.core.models import DoseArrays, onecomp
 from tdmtui.core.solvers import brent_root, golden_min, log_ndtr

@@ -13,6 +13,7 @@ from __future__ import annotations
 import math
 
 from tdmtui.core import registry
+from tdmtui.core.estimation import bayes_estimate
 from tdmtui.core.estimation import bayes_method
 from tdmtui.core.estimation import twolevel
 from tdmtui.core.alerts import Alert
@@ -54,7 +55,7 @@ def sawchuk_zaske(ctx: MethodContext) -> MethodRun:
 def least_squares(ctx: MethodContext) -> MethodRun:
     """Proportionally weighted least squares through every usable level, no prior."""
     from tdmtui.core.estimation import lsq
-    from tdmtui.core.estimation.bayes import Observations
+    from tdmtui.core.estimation.posterior import Observations
     from tdmtui.core.models import PKParams
 
     obs = list(ctx.usable)
@@ -205,7 +206,7 @@ def refit_bayesian(ctx: MethodContext, est: Estimate) -> Estimate | None:
 
 def bayesian_alerts(ctx: MethodContext, est: Estimate, runs: MethodRuns) -> list[Alert]:
     """The primary model's flags and poorly fitted levels."""
-    return list(runs.flags.get("bayesian", ())) + bayes_method.residual_alerts(est, ctx.rules)
+    return list(runs.flags.get("bayesian", ())) + bayes_estimate.residual_alerts(est, ctx.rules)
 
 
 def population_alerts(ctx: MethodContext, est: Estimate, runs: MethodRuns) -> list[Alert]:
