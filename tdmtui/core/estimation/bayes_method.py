@@ -21,6 +21,7 @@ use them (case-format.md).
 from __future__ import annotations
 
 import dataclasses
+from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
 
 from tdmtui.core.errors import ConvergenceError, NoEstimateError
@@ -157,40 +158,87 @@ def _fit_each(ctx: MethodContext, offers: list, cov: Any,
     return est, why, fitted
 
 
+@dataclass
+class _RefitShared:
+    """What every refit of one estimate shares while the patient, renal summary, dialysis record, rules,
+    drug and as-of time are those it was made for: the covariates, the dated SCr steps, the offered
+    models and each model's course of typical values (the timing sensitivity moves only level and
+    infusion-end times)."""
+
+    anchors: tuple
+    cov: Any
+    steps: list
+    offers: list
+    courses: dict[str, tuple[Any, Any, Any]] = field(default_factory=dict)
+
+    def fits(self, ctx: MethodContext) -> bool:
+        c = ctx.case
+        now = (c.patient, ctx.renal, c.dialysis, ctx.rules, c.drug, c.as_of)
+        return all(a is b for a, b in zip(self.anchors[:4], now[:4])) and self.anchors[4:] == now[4:]
+
+    def course(self, ctx: MethodContext, model: Any) -> tuple[Any, Any, Any]:
+        if model.id not in self.courses:
+            self.courses[model.id] = _course(ctx, model, self.cov, self.steps)
+        return self.courses[model.id]
+
+
+def _refit_shared(ctx: MethodContext, warm: dict[str, Any]) -> _RefitShared:
+    """The shared part of the refits, made on the first refit and kept in ``warm`` for the next ones."""
+    from tdmtui.core.estimation import popmodels
+    from tdmtui.core.estimation import renalcourse
+
+    shared = warm.get("refit")
+    if isinstance(shared, _RefitShared) and shared.fits(ctx):
+        return shared
+    c = ctx.case
+    cov = _covariates(ctx)
+    shared = _RefitShared((c.patient, ctx.renal, c.dialysis, ctx.rules, c.drug, c.as_of), cov,
+                          renalcourse.steps_of(c), popmodels.offered_models(c.drug, cov))
+    warm["refit"] = shared
+    return shared
+
+
 def refit(ctx: MethodContext, model_id: str, warm: dict[str, Any] | None = None) -> Estimate | None:
     """MAP again on one model, or the model average again (for the timing sensitivity); None when it fails.
 
     ``warm`` (the base estimate's :attr:`Estimate.warm`): each MAP starts from the base eta, and a model
     average keeps the base weights when the same models fit again (a time moved by minutes changes each
-    fit; the weights' importance sampling is not redone 4 times per level). Without it, as the base run.
+    fit; the weights' importance sampling is not redone 4 times per level). What does not move with the
+    times is computed on the first refit and kept there (:class:`_RefitShared`). Without it, as the base run.
     """
     from tdmtui.core.estimation import bayes
     from tdmtui.core.estimation import popmodels
-    from tdmtui.core.estimation import renalcourse
 
-    warm = warm or {}
-    cov = _covariates(ctx)
-    steps = renalcourse.steps_of(ctx.case)
+    warm = warm if warm is not None else {}
+    shared = _refit_shared(ctx, warm)
+    by_structure: dict[bool, tuple[list, Any]] = {}
 
-    def fit_one(model: Any, levels: list) -> Any:
-        _, typical, course = _course(ctx, model, cov, steps)
-        return bayes.map_fit(model, cov, ctx.history, observations(levels), course=course, typical=typical,
+    def levels_of(model: Any) -> tuple[list, Any]:
+        two = model.compartments == 2
+        if two not in by_structure:
+            levels = levels_for(ctx, two)
+            by_structure[two] = (levels, observations(levels) if levels else None)
+        return by_structure[two]
+
+    def fit_one(model: Any) -> Any:
+        _, typical, course = shared.course(ctx, model)
+        return bayes.map_fit(model, shared.cov, ctx.history, levels_of(model)[1], course=course, typical=typical,
                              start=warm.get(model.id))
 
     if model_id != "model-average":
         model = popmodels.get_model(model_id)
-        levels = levels_for(ctx, model.compartments == 2)
+        levels = levels_of(model)[0]
         try:
-            return Estimate("bayesian", fit_one(model, levels).params, [lv.index for lv in levels]) if levels else None
+            return Estimate("bayesian", fit_one(model).params, [lv.index for lv in levels]) if levels else None
         except (NoEstimateError, ConvergenceError):
             return None
     fitted = []
-    for o in popmodels.offered_models(ctx.case.drug, cov):
-        levels = levels_for(ctx, o.model.compartments == 2)
+    for o in shared.offers:
+        levels = levels_of(o.model)[0]
         if o.excluded or not levels:
             continue
         try:
-            fitted.append((o, fit_one(o.model, levels), levels, None))
+            fitted.append((o, fit_one(o.model), levels, None))
         except (NoEstimateError, ConvergenceError):
             continue
     return _average_again(eligible(fitted)[0], warm.get("weights") or {})
