@@ -24,6 +24,7 @@ import math
 import numpy as np
 
 from tdmtui.core.models import DoseArrays, SteadyState
+from tdmtui.core.solvers import distinct
 
 
 
@@ -179,7 +180,7 @@ def segment_states(
     s, dur = doses.start, doses.duration
     ends = s + dur
     events = np.concatenate([[t0], s[s > t0], ends[ends > t0]])
-    starts = np.unique(events)
+    starts = distinct(events)
     lengths = np.append(np.diff(starts), np.inf)
     running = (s[None, :] <= starts[:, None]) & (starts[:, None] < ends[None, :]) & (dur[None, :] > 0.0)
     rate = np.sum(np.where(running, doses.amount / np.where(dur > 0.0, dur, 1.0), 0.0), axis=1)
