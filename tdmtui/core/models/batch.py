@@ -29,8 +29,9 @@ def exponentials(cl, v1, q, v2) -> tuple[np.ndarray, np.ndarray]:  # noqa: ANN00
     # A batch may mix structures (a model average's draws): a one-compartment row (q = 0) takes
     # k12 = k21 = 0, so alpha = k10 with weight 1 and the second exponent carries weight 0.
     one = q <= 0
+    mixed = bool(np.any(one))
     k10, k12 = cl / v1, q / v1
-    k21 = np.divide(q, v2, out=np.zeros_like(q, dtype=float), where=~one)
+    k21 = np.divide(q, v2, out=np.zeros_like(q, dtype=float), where=~one) if mixed else q / v2
     x = k10 + k12 - k21
     half_four = 2.0 * k12 * k21  # (root + x)(root - x) = 4 k12 k21, and root > |x|
     root = np.sqrt(x * x + 2.0 * half_four)
@@ -40,7 +41,7 @@ def exponentials(cl, v1, q, v2) -> tuple[np.ndarray, np.ndarray]:  # noqa: ANN00
     with np.errstate(invalid="ignore", divide="ignore"):  # np.where's unused branch is 0/0 on one-compartment rows
         out[:, 1, 0] = np.where(x >= 0, 0.5 * (x + root), half_four / (root - x)) / root  # (alpha - k21)/root
         out[:, 1, 1] = np.where(x <= 0, 0.5 * (root - x), half_four / (root + x)) / root  # (k21 - beta)/root
-    if np.any(one):
+    if mixed:
         out[one, 0, 1], out[one, 1, 0], out[one, 1, 1] = out[one, 0, 0], 1.0, 0.0
     return out[:, 0], out[:, 1]
 
@@ -75,7 +76,9 @@ def batch_concentration(cl, v1, q, v2, design: Design) -> np.ndarray:  # noqa: A
     lam, w = exponentials(cl, v1, q, v2)
     scale = w / np.atleast_1d(np.asarray(v1, dtype=float))[:, None]
     sums = design.layout.sums(lam)
-    return sums[:, 0] * scale[:, :1] if lam.shape[1] == 1 else np.sum(sums * scale[:, :, None], axis=1)
+    if lam.shape[1] == 1:
+        return sums[:, 0] * scale[:, :1]
+    return sums[:, 0] * scale[:, :1] + sums[:, 1] * scale[:, 1:]  # np.sum over the two exponents, term by term
 
 
 def batch_steady_state(cl, v1, q, v2, dose: float, tau: float, tinf: float,  # noqa: ANN001

@@ -70,6 +70,8 @@ class Layout:
     run_at: np.ndarray  # sorted-time indices that have running pairs
     run_first: np.ndarray  # first pair of each of them
     rate: np.ndarray  # (d,) mg/h, 0 for a bolus
+    rel: np.ndarray | None  # (n,) h from the first sorted time to each (None when a gap is infinite)
+    delta_max: float  # the largest of ``delta`` (0 without finished doses)
 
     @classmethod
     def build(cls, doses: DoseArrays, t: object, right: bool = False) -> Layout:
@@ -108,9 +110,12 @@ class Layout:
         by_time = np.argsort(run_time, kind="stable")
         run_time, run_dose = run_time[by_time], run_dose[by_time]
         run_at, run_first = _first_of_runs(run_time)
-        return cls(ts.size, order, bool(np.all(order == np.arange(order.size))), np.diff(ts),
-                   ts[at] - end[idx], group, kind[group], entry, entry_group, kinds[:, 0], kinds[:, 1], kinds[:, 2],
-                   run_time, run_dose, ts[run_time] - s[run_dose], run_at, run_first, rate)
+        gaps, delta = np.diff(ts), ts[at] - end[idx]
+        rel = np.concatenate([[0.0], np.cumsum(gaps)]) if np.all(np.isfinite(gaps)) else None
+        return cls(ts.size, order, bool(np.all(order == np.arange(order.size))), gaps,
+                   delta, group, kind[group], entry, entry_group, kinds[:, 0], kinds[:, 1], kinds[:, 2],
+                   run_time, run_dose, ts[run_time] - s[run_dose], run_at, run_first, rate, rel,
+                   float(np.max(delta)) if delta.size else 0.0)
 
     def sums(self, lam: np.ndarray) -> np.ndarray:
         """Unit-weight superposed terms (m, k, n) mg (divide by a volume for mg/L), times in input order.
@@ -138,7 +143,7 @@ class Layout:
             else:
                 s[:, :, self.entry] = np.add.reduceat(per_group, self.entry_group, axis=2)
             if self.entry.size > 1 or self.entry[0] < self.n - 1:
-                _carry(s, lam, self.gaps)
+                _carry(s, lam, self.gaps, self.rel)
         if self.run_dose.size:
             rise = -np.expm1(-lam3 * self.run_into) * (self.rate[self.run_dose] / lam3)
             s[:, :, self.run_at] += np.add.reduceat(rise, self.run_first, axis=2)
@@ -153,9 +158,9 @@ class Layout:
         """Per group, sum of e^(-lam delta) over its doses (m, k, g), leaving out the terms below
         e^-CUTOFF (< 1e-16 of the dose's own end value, for every set and exponent of the call)."""
         limit = CUTOFF / float(np.min(lam3))
-        keep = self.delta < limit
-        if keep.all():
+        if self.delta_max < limit:
             return np.add.reduceat(np.exp(-lam3 * self.delta), self.group, axis=2)
+        keep = self.delta < limit
         kept = np.concatenate([[0], np.cumsum(keep)])
         first, last = kept[self.group], kept[np.append(self.group[1:], self.delta.size)]
         out = np.zeros(lam3.shape[:2] + (self.group.size,))
@@ -208,20 +213,19 @@ CUTOFF = 36.8
 _SPAN = 30.0
 
 
-def _carry(s: np.ndarray, lam: np.ndarray, gaps: np.ndarray) -> None:
+def _carry(s: np.ndarray, lam: np.ndarray, gaps: np.ndarray, rel: np.ndarray | None) -> None:
     """In place: s_i <- s_i + s_(i-1) e^(-lam gap_(i-1)), the recurrence, as a blocked scan.
 
     Within a block starting at t_a: S_i = e^(-lam (t_i - t_a)) [carry + cumsum_l s_l e^(lam (t_l - t_a))];
     one numpy pass per block, a block ending where the fastest exponent has decayed by e^-30. Nothing
     is carried across an infinite gap (a time at +-inf: every dose has decayed, or none has started).
+    ``rel``: the times from the first (the layout's; None when a gap is infinite).
     """
-    finite = np.isfinite(gaps)
     lam3 = lam[:, :, None]
-    if finite.all():
-        rel = np.concatenate([[0.0], np.cumsum(gaps)])
-        if rel[-1] * float(np.max(lam)) < _SPAN:  # one block: the common short case
-            s[:] = np.cumsum(s * np.exp(lam3 * rel), axis=2) * np.exp(-lam3 * rel)
-            return
+    if rel is not None and rel[-1] * float(np.max(lam)) < _SPAN:  # one block: the common short case
+        s[:] = np.cumsum(s * np.exp(lam3 * rel), axis=2) * np.exp(-lam3 * rel)
+        return
+    finite = np.isfinite(gaps)
     rel = np.concatenate([[0.0], np.cumsum(np.where(finite, gaps, 0.0))])
     x = rel * float(np.max(lam))
     cut = (np.diff(np.floor(x / _SPAN)) > 0) | ~finite
