@@ -134,6 +134,17 @@ def test_a_reused_layout_answers_only_for_its_own_history_and_times() -> None:
     assert Layout.build(base, times) is layout and not layout.delta.flags.writeable
 
 
+def test_concentration_as_a_function_of_ke_matches_the_ode() -> None:
+    # The one-level root search's C(t; ke) at one time, for ke from slow to fast, against solve_ivp.
+    doses = DoseArrays.from_lists([0.0, 12.0, 24.0, 36.0], [1.0, 1.0, 1.5, 0.0], [1000.0, 1000.0, 1250.0, 500.0])
+    at = onecomp.concentration_in_ke(45.0, doses, 47.5)
+    for ke in (0.005, 0.05, 0.1, 0.4, 2.0):
+        ref, _ = ode_reference(ke * 45.0, 45.0, 0.0, 0.0, doses.start, doses.duration, doses.amount, [47.5])
+        assert close(np.array([at(ke)]), ref)
+    with pytest.raises(ValueError, match="ke must be"):
+        at(0.0)
+
+
 @pytest.mark.parametrize("tinf", [0.0, 0.5, 1.0, 3.0])
 def test_auc_to_infinity_of_one_dose_is_dose_over_cl(tinf: float) -> None:
     # pk-sources.md 2.2: AUC(0-inf) for one dose = D / CL.
