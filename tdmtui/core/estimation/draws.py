@@ -19,7 +19,7 @@ from typing import Callable
 import numpy as np
 
 from tdmtui.core.models import PKParams
-from tdmtui.core.models.batch import exponentials, steady_state_of
+from tdmtui.core.models.batch import SteadyStates, exponentials
 from tdmtui.core.estimation.bayes import Fit
 
 
@@ -55,13 +55,13 @@ class ParamSamples:
         return self.cl / self.vss
 
     @cached_property
-    def exponents(self) -> tuple[np.ndarray, np.ndarray]:
-        """Exponents and weights (n, k) of every draw (:func:`exponentials`), computed once."""
-        return exponentials(self.cl, self.v1, self.q, self.v2)
+    def steady_states(self) -> SteadyStates:
+        """The draws' steady states for any regimen (their exponents and factors computed once)."""
+        return SteadyStates(*exponentials(self.cl, self.v1, self.q, self.v2), self.v1, self.cl)
 
     def steady_state(self, dose: float, tau: float, tinf: float, peak_delay_h: float = 0.0) -> dict[str, np.ndarray]:
         """Steady-state peak, trough and AUC24 per draw (see :func:`tdmtui.core.models.batch.batch_steady_state`)."""
-        return steady_state_of(*self.exponents, self.v1, self.cl, dose, tau, tinf, peak_delay_h)
+        return self.steady_states.at(dose, tau, tinf, peak_delay_h)
 
 
 def _samples(fit: Fit, eta: np.ndarray, seed: int, weights: np.ndarray | None = None) -> ParamSamples:
@@ -126,7 +126,7 @@ def two_compartment_intervals(samples: ParamSamples, level: float = 0.90) -> dic
     """Intervals for V1, V2, Q, alpha and beta half-lives (pk-sources.md 2.6); {} for one compartment."""
     if not np.any(samples.q > 0):
         return {}
-    lam, _ = exponentials(samples.cl, samples.v1, samples.q, samples.v2)
+    lam = samples.steady_states.lam
     values = {"v1": samples.v1, "v2": samples.v2, "q": samples.q, "alpha_half_life": math.log(2) / lam[:, 0],
               "beta_half_life": math.log(2) / lam[:, 1]}
     return {k: intervals(samples, _constant(v), level) for k, v in values.items()}
