@@ -36,15 +36,23 @@ if TYPE_CHECKING:
 
 def levels_for(ctx: MethodContext, two_compartment: bool) -> list:
     """The case's levels a model of this structure fits (module docstring)."""
+    return levels_by_structure(ctx)[two_compartment]
+
+
+def levels_by_structure(ctx: MethodContext) -> dict[bool, list]:
+    """:func:`levels_for` one- (False) and two-compartment (True) models, each level judged once."""
     from tdmtui.core.course.history import level_exclusion
 
-    out = []
+    out: dict[bool, list] = {False: [], True: []}
     for lv in ctx.case.levels:
         if lv.time > ctx.case.as_of:
             continue
         why = level_exclusion(ctx.case, lv, ctx.rules)
-        if why is None or why[0] == "level-censored" or (two_compartment and why[0] == "level-in-distribution"):
-            out.append(lv)
+        if why is None or why[0] == "level-censored":
+            out[False].append(lv)
+            out[True].append(lv)
+        elif why[0] == "level-in-distribution":
+            out[True].append(lv)
     return out
 
 
@@ -134,12 +142,13 @@ def _fit_each(ctx: MethodContext, offers: list, cov: Any,
     est: dict[str, Estimate] = {}
     why: dict[str, str] = {}
     fitted: list[tuple[Any, Any, list, Any]] = []
+    by_structure = levels_by_structure(ctx)
     for o in offers:
         key = f"bayesian:{o.model.id}"
         if o.excluded:
             why[key] = "; ".join(a.message for a in o.alerts if a.severity == "stop")
             continue
-        levels = levels_for(ctx, o.model.compartments == 2)
+        levels = by_structure[o.model.compartments == 2]
         try:
             sched, typical, course = _course(ctx, o.model, cov, steps)
             prior = bayes.population_fit(o.model, cov, ctx.history, course=course, typical=typical)
@@ -211,14 +220,10 @@ def refit(ctx: MethodContext, model_id: str, warm: dict[str, Any] | None = None)
 
     warm = warm if warm is not None else {}
     shared = _refit_shared(ctx, warm)
-    by_structure: dict[bool, tuple[list, Any]] = {}
+    by_structure = {two: (lvs, observations(lvs) if lvs else None) for two, lvs in levels_by_structure(ctx).items()}
 
     def levels_of(model: Any) -> tuple[list, Any]:
-        two = model.compartments == 2
-        if two not in by_structure:
-            levels = levels_for(ctx, two)
-            by_structure[two] = (levels, observations(levels) if levels else None)
-        return by_structure[two]
+        return by_structure[model.compartments == 2]
 
     def fit_one(model: Any) -> Any:
         _, typical, course = shared.course(ctx, model)
