@@ -134,7 +134,7 @@ def log_ndtr(z: object) -> np.ndarray:
     return out
 
 
-def distinct(values: Any) -> np.ndarray:
+def distinct(values: np.ndarray | list[float]) -> np.ndarray:
     """Sorted distinct values of ``values`` (flattened; finite numbers), as ``np.unique(values)``."""
     a = np.sort(np.asarray(values).reshape(-1))
     if a.size < 2:
@@ -145,7 +145,7 @@ def distinct(values: Any) -> np.ndarray:
     return a[keep]
 
 
-def percentile(values: Any, q: float) -> float:
+def percentile(values: np.ndarray | list[float], q: float) -> float:
     """The ``q``-th percentile (0-100) of finite ``values`` by numpy's default method, as ``np.percentile``.
 
     Linear between the order statistics at (n - 1) q / 100, with numpy's interpolation (from the
