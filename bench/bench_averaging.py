@@ -60,8 +60,11 @@ sys.path.insert(0, str(Path(__file__).resolve().parent))
 
 from bench_bayes import patient  # noqa: E402  (the same invented covariate ranges)
 
-from tdmtui.core.estimation import averaging
-from tdmtui.core.estimation import bayes# noqa: E402
+from tdmtui.core.estimation import averaging  # noqa: E402
+from tdmtui.core.estimation import bayes  # noqa: E402
+from tdmtui.core.estimation.draws import importance_samples, regimen_intervals  # noqa: E402
+from tdmtui.core.estimation.posterior import Observations  # noqa: E402
+from tdmtui.core.models.batch import Design, batch_concentration  # noqa: E402
 from tdmtui.core.errors import TdmError  # noqa: E402
 from tdmtui.core.library import Rules  # noqa: E402
 from tdmtui.core.models import DoseArrays, PKParams  # noqa: E402
@@ -107,12 +110,12 @@ def simulate(model, cov, rng, times, noise="assay"):
     typ = model.typical(cov).params
     vals = {n: getattr(typ, n) * math.exp(eta.get(n, 0.0)) for n in ("cl", "v1", "q", "v2")}
     doses = DoseArrays.regimen(0.0, DOSE, TAU, TINF, 4)
-    c = bayes.batch_concentration([vals["cl"]], [vals["v1"]], [vals["q"]], [vals["v2"]],
-                                  bayes.Design.build(doses, times))[0]
+    c = batch_concentration([vals["cl"]], [vals["v1"]], [vals["q"]], [vals["v2"]],
+                                  Design.build(doses, times))[0]
     add, prop = NOISE[noise] or (model.additive_sd, model.proportional_sd)
     y = c + rng.normal(0, 1, c.size) * np.sqrt(add ** 2 + (prop * c) ** 2)
     below = y < LOQ
-    return vals, doses, bayes.Observations.from_lists(times, np.where(below, LOQ, y), below_loq=below)
+    return vals, doses, Observations.from_lists(times, np.where(below, LOQ, y), below_loq=below)
 
 
 RULES = Rules("vancomycin")
@@ -194,7 +197,7 @@ def _average(tallies: dict, key: str, members: list, true: PKParams, by_objectiv
     w = averaging.weights([objective_weight(m) if by_objective else m.log_evidence for m in members])
     p = averaging.point(members, w)
     mix = averaging.mixture(members, w, DRAWS, 1)
-    lo, hi = bayes.regimen_intervals(mix, DOSE, TAU, TINF)["auc24"]
+    lo, hi = regimen_intervals(mix, DOSE, TAU, TINF)["auc24"]
     tallies.setdefault(key, Tally()).add(p, lo, hi, true)
 
 
@@ -204,8 +207,8 @@ def _fit(tallies: dict, key: str, model, cov, doses, obs, true: PKParams):
         fit = bayes.map_fit(model, cov, doses, obs)
     except TdmError:
         return None
-    s = bayes.importance_samples(fit, DRAWS, resample=True)
-    lo, hi = bayes.regimen_intervals(s, DOSE, TAU, TINF)["auc24"]
+    s = importance_samples(fit, DRAWS, resample=True)
+    lo, hi = regimen_intervals(s, DOSE, TAU, TINF)["auc24"]
     tallies.setdefault(key, Tally()).add(fit.params, lo, hi, true)
     return averaging.Member(model.id, model.name, fit, s, averaging.log_evidence(fit))
 

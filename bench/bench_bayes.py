@@ -30,11 +30,17 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from tdmtui.core.estimation import bayes# noqa: E402
+from tdmtui.core.estimation import bayes  # noqa: E402
+from tdmtui.core.estimation.draws import importance_samples, regimen_intervals, sample_posterior  # noqa: E402
+from tdmtui.core.estimation.posterior import Observations  # noqa: E402
+from tdmtui.core.models.batch import Design, batch_concentration  # noqa: E402
+from tdmtui.core.regimen.candidates import target_probability  # noqa: E402
+from tdmtui.core.regimen.targets import Targets  # noqa: E402
 from tdmtui.core.errors import TdmError  # noqa: E402
-from tdmtui.core.models import DoseArrays  # noqa: E402
+from tdmtui.core.models import DoseArrays, PKParams  # noqa: E402
 from tdmtui.core.estimation.popmodels import Covariates, PopModel, get_model  # noqa: E402
 
+AUC_400_600 = Targets("auc", auc24=(400.0, 600.0))  # the speed figure's target band
 REGIMEN = {"vancomycin": (1000.0, 12.0, 1.0, 2.0), "gentamicin": (400.0, 24.0, 0.5, 0.3),
            "tobramycin": (400.0, 24.0, 0.5, 0.3)}  # dose mg, tau h, infusion h, assay LOQ mg/L
 
@@ -48,9 +54,9 @@ def bench_speed(reps: int) -> None:
     for mid in ("vancomycin-buelga-2005", "vancomycin-goti-2018", "vancomycin-thomson-2009"):
         m = get_model(mid)
         typ = m.typical(cov).params
-        true = bayes.PKParams(typ.cl * 0.8, typ.v1 * 1.1, typ.q, typ.v2)
-        y = bayes.batch_concentration([true.cl], [true.v1], [true.q], [true.v2], bayes.Design.build(doses, t))[0]
-        obs = bayes.Observations.from_lists(t, y * np.array([1.05, 0.95, 1.08, 0.93]))
+        true = PKParams(typ.cl * 0.8, typ.v1 * 1.1, typ.q, typ.v2)
+        y = batch_concentration([true.cl], [true.v1], [true.q], [true.v2], Design.build(doses, t))[0]
+        obs = Observations.from_lists(t, y * np.array([1.05, 0.95, 1.08, 0.93]))
         bayes.map_fit(m, cov, doses, obs)  # warm-up (imports)
         wall: list[tuple[float, ...]] = []
         cpu: list[tuple[float, ...]] = []
@@ -58,12 +64,12 @@ def bench_speed(reps: int) -> None:
             t0, c0 = time.perf_counter(), time.process_time()
             fit = bayes.map_fit(m, cov, doses, obs)
             t1, c1 = time.perf_counter(), time.process_time()
-            for draws in (bayes.sample_posterior(fit, 2000), None):
+            for draws in (sample_posterior(fit, 2000), None):
                 if draws is None:  # the same figures from importance-resampled draws
                     t2, c2 = time.perf_counter(), time.process_time()
-                    draws = bayes.importance_samples(fit, 2000, resample=True)
-                bayes.regimen_intervals(draws, 1000.0, 12.0, 1.0)
-                bayes.probability_of_target(draws, 1000.0, 12.0, 1.0, {"auc24": (400.0, 600.0)})
+                    draws = importance_samples(fit, 2000, resample=True)
+                regimen_intervals(draws, 1000.0, 12.0, 1.0)
+                target_probability(draws, AUC_400_600, 1000.0, 12.0, 1.0)
             t3, c3 = time.perf_counter(), time.process_time()
             wall.append(((t1 - t0) * 1e3, (t2 - t0) * 1e3, (t1 - t0 + t3 - t2) * 1e3))
             cpu.append(((c1 - c0) * 1e3, (c2 - c0) * 1e3, (c1 - c0 + c3 - c2) * 1e3))
@@ -90,11 +96,11 @@ def simulate(model: PopModel, cov: Covariates, rng: np.random.Generator, times: 
     shift = timing_min / 60.0
     actual = DoseArrays.from_lists(recorded.start, recorded.duration + rng.uniform(-shift, shift, 4), recorded.amount)
     t_true = times + rng.uniform(-shift, shift, times.size)
-    c = bayes.batch_concentration([vals["cl"]], [vals["v1"]], [vals["q"]], [vals["v2"]],
-                                  bayes.Design.build(actual, t_true))[0]
+    c = batch_concentration([vals["cl"]], [vals["v1"]], [vals["q"]], [vals["v2"]],
+                                  Design.build(actual, t_true))[0]
     y = c + rng.normal(0, 1, c.size) * np.sqrt(model.additive_sd ** 2 + (model.proportional_sd * c) ** 2)
     below = y < loq
-    obs = bayes.Observations.from_lists(times, np.where(below, loq, y), below_loq=below)
+    obs = Observations.from_lists(times, np.where(below, loq, y), below_loq=below)
     return vals, recorded, obs
 
 
@@ -112,9 +118,9 @@ def study(sim: PopModel, fit_model: PopModel, n: int, seed: int, times: np.ndarr
             failed += 1
             continue
         true_auc = 24.0 * dose / (tau * vals["cl"])
-        lo, hi = bayes.regimen_intervals(bayes.sample_posterior(fit, 2000), dose, tau, tinf)["auc24"]
+        lo, hi = regimen_intervals(sample_posterior(fit, 2000), dose, tau, tinf)["auc24"]
         hits += lo <= true_auc <= hi
-        lo, hi = bayes.regimen_intervals(bayes.importance_samples(fit, 2000, resample=True), dose, tau, tinf)["auc24"]
+        lo, hi = regimen_intervals(importance_samples(fit, 2000, resample=True), dose, tau, tinf)["auc24"]
         hits_is += lo <= true_auc <= hi
         errors.append(24.0 * dose / (tau * fit.params.cl) / true_auc - 1.0)
     done = n - failed

@@ -33,7 +33,8 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from tdmtui.core.estimation import bayes
+from tdmtui.core.estimation import bayes  # noqa: E402
+from tdmtui.core.estimation.posterior import NO_LEVELS, Observations, Posterior  # noqa: E402
 from tdmtui.core.estimation import popmodels
 from tdmtui.core.estimation import renalcourse# noqa: E402
 from tdmtui.core.errors import ConvergenceError, NoEstimateError  # noqa: E402
@@ -68,14 +69,14 @@ def one(model: popmodels.PopModel, rng: np.random.Generator) -> tuple[float, flo
     cov = popmodels.Covariates(p["age"], p["sex"], p["weight"], p["height"], values[-1])
     sched = renalcourse.schedule_for(model, cov, steps)
     eta = rng.multivariate_normal(np.zeros(len(model.eta_names)), model.omega)
-    post = bayes.Posterior(model, sched.latest, doses, bayes.NO_LEVELS, renalcourse.build_course(sched, sched.latest))
+    post = Posterior(model, sched.latest, doses, NO_LEVELS, renalcourse.build_course(sched, sched.latest))
     true_pieces = post.piece_params(eta[None, :])
     true_latest_cl = float(true_pieces[0][0, -1])
     trough_t = np.array([first + 2 * TAU - 0.5, first + 7 * TAU - 0.5])
     conc = batch_tv_concentration(post.course.changes, *true_pieces, doses, trough_t)[0]
     sd = np.sqrt(model.additive_sd ** 2 + (model.proportional_sd * conc) ** 2)
     obs_c = np.maximum(conc + rng.standard_normal(conc.size) * sd, 0.5)
-    obs = bayes.Observations.from_lists(trough_t, obs_c)
+    obs = Observations.from_lists(trough_t, obs_c)
     true_auc = 24.0 * DOSE / (TAU * true_latest_cl)
     try:
         tv = bayes.map_fit(model, cov, doses, obs, course=renalcourse.build_course(sched, sched.latest),

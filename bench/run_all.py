@@ -62,7 +62,9 @@ def _map_problem():  # noqa: ANN202
     import numpy as np
 
     from tdmtui.core.estimation import bayes
+    from tdmtui.core.estimation.posterior import Observations
     from tdmtui.core.models import DoseArrays
+    from tdmtui.core.models.batch import Design, batch_concentration
     from tdmtui.core.estimation.popmodels import Covariates, get_model
 
     model = get_model("vancomycin-goti-2018")
@@ -70,8 +72,8 @@ def _map_problem():  # noqa: ANN202
     doses = DoseArrays.regimen(0.0, 1000.0, 12.0, 1.0, 20)
     t = np.array([38.0, 47.5, 218.0, 227.5])
     typ = model.typical(cov).params
-    y = bayes.batch_concentration([typ.cl * 0.8], [typ.v1 * 1.1], [typ.q], [typ.v2], bayes.Design.build(doses, t))[0]
-    obs = bayes.Observations.from_lists(t, y * np.array([1.05, 0.95, 1.08, 0.93]))
+    y = batch_concentration([typ.cl * 0.8], [typ.v1 * 1.1], [typ.q], [typ.v2], Design.build(doses, t))[0]
+    obs = Observations.from_lists(t, y * np.array([1.05, 0.95, 1.08, 0.93]))
     return bayes, model, cov, doses, obs
 
 
@@ -83,11 +85,17 @@ def bench_map(reps: int) -> tuple[float, str]:
 def bench_map_uncertainty(reps: int) -> tuple[float, str]:
     bayes, model, cov, doses, obs = _map_problem()
 
+    from tdmtui.core.estimation.draws import regimen_intervals, sample_posterior
+    from tdmtui.core.regimen.candidates import target_probability
+    from tdmtui.core.regimen.targets import Targets
+
+    band = Targets("auc", auc24=(400.0, 600.0))
+
     def run() -> None:
         fit = bayes.map_fit(model, cov, doses, obs)
-        draws = bayes.sample_posterior(fit, 2000)
-        bayes.regimen_intervals(draws, 1000.0, 12.0, 1.0)
-        bayes.probability_of_target(draws, 1000.0, 12.0, 1.0, {"auc24": (400.0, 600.0)})
+        draws = sample_posterior(fit, 2000)
+        regimen_intervals(draws, 1000.0, 12.0, 1.0)
+        target_probability(draws, band, 1000.0, 12.0, 1.0)
     return median_ms(run, reps), "same, plus 2,000 draws: intervals, target probability"
 
 

@@ -16,7 +16,8 @@ import pytest
 from test_bayes import BUELGA, BUELGA_PATIENT, COURSE, grid_ofv
 
 from tdmtui.core.estimation import averaging
-from tdmtui.core.estimation.bayes import Observations, map_fit
+from tdmtui.core.estimation.bayes import map_fit
+from tdmtui.core.estimation.posterior import Observations
 from tdmtui.core.models import DoseArrays
 from tdmtui.core.estimation.popmodels import Covariates, _build, get_model
 
@@ -74,7 +75,7 @@ def test_evidence_and_weights_match_grid_integration_one_compartment(case):
 def test_evidence_matches_grid_integration_two_compartment():
     # Thomson 2009 (four random effects) with one trough: the integrand on a 4-D grid over
     # +-6 SD (25 points a side, trapezoid rule), concentrations by the engine's closed form.
-    from tdmtui.core.estimation.bayes import Posterior
+    from tdmtui.core.estimation.posterior import Posterior
 
     model = get_model("vancomycin-thomson-2009")
     cov = Covariates(age=60.0, sex="male", weight=80.0, height=175.0, scr=1.0)
@@ -96,7 +97,7 @@ def test_evidence_matches_grid_integration_two_compartment():
 def test_mixture_draws_follow_the_weights():
     # 30 % / 70 %: the mixture holds that share of each model's draws (definition of a mixture)
     obs = OBS["peak-trough"]
-    from tdmtui.core.estimation.bayes import importance_samples
+    from tdmtui.core.estimation.draws import importance_samples
 
     members = []
     for m in (BUELGA, _variant(2.2, 70.0)):
@@ -204,7 +205,7 @@ def test_mixture_interval_matches_the_grid_mixture_of_posteriors(case):
     # pk-sources.md 2.5) has CDF F(x) = sum_m w_m F_m(x): its 5 % and 95 % points against the engine's
     # interval from the mixture of 2,000 importance-resampled draws (sampling error of a 5 % point with
     # 2,000 draws: about 2 %).
-    from tdmtui.core.estimation.bayes import importance_samples, regimen_intervals
+    from tdmtui.core.estimation.draws import importance_samples, regimen_intervals
 
     obs = OBS[case]
     models = [BUELGA, _variant(2.2, 70.0)]

@@ -16,21 +16,18 @@ import pytest
 from ode_reference import ode_reference
 from scipy import stats
 
-from tdmtui.core.estimation.bayes import (
-    Design,
-    NO_LEVELS,
-    Observations,
-    batch_concentration,
-    batch_steady_state,
+from tdmtui.core.estimation.bayes import map_fit, population_fit
+from tdmtui.core.estimation.draws import (
     effective_sample_size,
     importance_samples,
     intervals,
-    map_fit,
-    population_fit,
-    probability_of_target,
     regimen_intervals,
     sample_posterior,
 )
+from tdmtui.core.estimation.posterior import NO_LEVELS, Observations
+from tdmtui.core.models.batch import Design, batch_concentration, batch_steady_state
+from tdmtui.core.regimen.candidates import target_probability
+from tdmtui.core.regimen.targets import Targets
 from tdmtui.core.errors import ConvergenceError
 from tdmtui.core.estimation.lsq import least_squares_fit
 from tdmtui.core.models import DoseArrays
@@ -294,7 +291,7 @@ def test_population_intervals_and_target_probability_are_log_normal():
     ke = cl / BUELGA.typical(BUELGA_PATIENT).params.v1
     assert iv["ke"] == pytest.approx((ke * math.exp(-z * sd_ke), ke * math.exp(z * sd_ke)), rel=0.01)
     expected = stats.norm.cdf(math.log(2000 / 400 / cl) / w) - stats.norm.cdf(math.log(2000 / 600 / cl) / w)
-    got = probability_of_target(draws, 1000.0, 12.0, 1.0, {"auc24": (400.0, 600.0)})
+    got = target_probability(draws, Targets("auc", auc24=(400.0, 600.0)), 1000.0, 12.0, 1.0)
     assert got == pytest.approx(expected, abs=0.005)
     assert draws.seed == 11 and fit.seed == 20260301
 
@@ -385,7 +382,7 @@ def test_trough_only_auc24_bias_and_error(mid):
 def test_two_compartment_half_life_intervals():
     # pk-sources.md 2.6 macro-constants, written out here for the a priori Thomson 2009 draws: the
     # interval of ln 2 / beta must match the quantiles of the half-lives computed from the same draws.
-    from tdmtui.core.estimation.bayes import two_compartment_intervals
+    from tdmtui.core.estimation.draws import two_compartment_intervals
 
     draws = sample_posterior(population_fit(get_model("vancomycin-thomson-2009"), ADULT), 4000, seed=5)
     k10, k12, k21 = draws.cl / draws.v1, draws.q / draws.v1, draws.q / draws.v2

@@ -18,6 +18,7 @@ from casedata import SAMPLES
 from ode_reference_tv import ode_reference_tv
 
 from tdmtui.core.estimation import bayes
+from tdmtui.core.estimation.posterior import Observations
 from tdmtui.core.estimation import popmodels
 from tdmtui.core.estimation import renalcourse
 from tdmtui.core.input.case import parse_case
@@ -144,7 +145,7 @@ def test_session_model_in_the_fit_matches_the_ode() -> None:
     assert len(course.changes) == 2 * len(sessions)
     doses = DoseArrays.from_lists([d.start for d in case.doses], [d.duration for d in case.doses],
                                   [d.amount for d in case.doses])
-    obs = bayes.Observations.from_lists([lv.time for lv in case.levels], [lv.conc for lv in case.levels])
+    obs = Observations.from_lists([lv.time for lv in case.levels], [lv.conc for lv in case.levels])
     fit = bayes.map_fit(model, cov, doses, obs, course=course, typical=typ)
     eta = dict(zip(model.eta_names, np.exp(fit.eta)))
     base = (typ.params.cl * eta["cl"], typ.params.v1 * eta["v1"], typ.params.q, typ.params.v2 * eta["v2"])

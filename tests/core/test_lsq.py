@@ -6,7 +6,7 @@ import numpy as np
 import pytest
 from scipy.integrate import solve_ivp
 
-from tdmtui.core.estimation.bayes import Observations
+from tdmtui.core.estimation.posterior import Observations
 from tdmtui.core.errors import ConvergenceError, NoEstimateError
 from tdmtui.core.estimation.lsq import least_squares_fit
 from tdmtui.core.models import DoseArrays

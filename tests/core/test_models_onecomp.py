@@ -114,6 +114,37 @@ def test_many_times_are_evaluated_in_blocks_without_loss() -> None:
     assert close(c.reshape(-1)[idx], ref)
 
 
+def test_a_reused_layout_answers_only_for_its_own_history_and_times() -> None:
+    # A small history's layout is built once and reused (superpose.Layout.build); every call must still
+    # give solve_ivp's concentrations for its own doses and times: the same history again, the history
+    # given as integers, one amount changed, one time changed, and mixed kinds of dose (bolus and infusions).
+    times = np.array([11.5, 30.0])
+    base = DoseArrays.from_lists([0.0, 12.0, 24.0], [1.0, 1.0, 1.0], [1000.0, 1000.0, 1000.0])
+    variants = [base, base,
+                DoseArrays(np.array([0, 12, 24]), np.array([1, 1, 1]), np.array([1000, 1000, 1000])),
+                DoseArrays.from_lists([0.0, 12.0, 24.0], [1.0, 1.0, 1.0], [1000.0, 1500.0, 1000.0]),
+                DoseArrays.from_lists([0.0, 12.0, 24.0], [0.0, 1.0, 2.0], [1000.0, 1000.0, 1000.0])]
+    for doses in variants:
+        for t in (times, times + [0.0, 0.25]):
+            ref, _ = ode_reference(4.0, 40.0, 0.0, 0.0, doses.start, doses.duration, doses.amount, t)
+            assert close(onecomp.concentration(0.1, 40.0, doses, t), ref)
+    from tdmtui.core.models.superpose import Layout
+
+    layout = Layout.build(base, times)
+    assert Layout.build(base, times) is layout and not layout.delta.flags.writeable
+
+
+def test_concentration_as_a_function_of_ke_matches_the_ode() -> None:
+    # The one-level root search's C(t; ke) at one time, for ke from slow to fast, against solve_ivp.
+    doses = DoseArrays.from_lists([0.0, 12.0, 24.0, 36.0], [1.0, 1.0, 1.5, 0.0], [1000.0, 1000.0, 1250.0, 500.0])
+    at = onecomp.concentration_in_ke(45.0, doses, 47.5)
+    for ke in (0.005, 0.05, 0.1, 0.4, 2.0):
+        ref, _ = ode_reference(ke * 45.0, 45.0, 0.0, 0.0, doses.start, doses.duration, doses.amount, [47.5])
+        assert close(np.array([at(ke)]), ref)
+    with pytest.raises(ValueError, match="ke must be"):
+        at(0.0)
+
+
 @pytest.mark.parametrize("tinf", [0.0, 0.5, 1.0, 3.0])
 def test_auc_to_infinity_of_one_dose_is_dose_over_cl(tinf: float) -> None:
     # pk-sources.md 2.2: AUC(0-inf) for one dose = D / CL.

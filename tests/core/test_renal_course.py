@@ -17,6 +17,7 @@ from casedata import SAMPLES, base_case
 from ode_reference_tv import ode_reference_tv
 
 from tdmtui.core.estimation import bayes
+from tdmtui.core.estimation.posterior import Observations
 from tdmtui.core.estimation import popmodels
 from tdmtui.core.estimation import renalcourse
 from tdmtui.core.input.case import parse_case
@@ -74,7 +75,7 @@ def test_time_varying_map_predictions_match_the_ode(model_id: str) -> None:
     course = renalcourse.build_course(sched, sched.latest)
     doses = DoseArrays.from_lists([d.start for d in case.doses], [d.duration for d in case.doses],
                                   [d.amount for d in case.doses])
-    obs = bayes.Observations.from_lists([lv.time for lv in case.levels], [lv.conc for lv in case.levels])
+    obs = Observations.from_lists([lv.time for lv in case.levels], [lv.conc for lv in case.levels])
     fit = bayes.map_fit(model, cov, doses, obs, course=course, typical=sched.latest)
     eta = dict(zip(model.eta_names, np.exp(fit.eta)))
     pieces = []

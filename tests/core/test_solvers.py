@@ -1,4 +1,5 @@
-"""The project's small solvers against scipy as the reference (brentq, least_squares, special.log_ndtr)."""
+"""The project's small solvers against scipy as the reference (brentq, least_squares, special.log_ndtr), and
+its distinct values and percentiles against numpy's unique and percentile."""
 
 from __future__ import annotations
 
@@ -8,10 +9,10 @@ import numpy as np
 import pytest
 from scipy import optimize, special
 
-from tdmtui.core.estimation.bayes import Observations
+from tdmtui.core.estimation.posterior import Observations
 from tdmtui.core.estimation.lsq import least_squares_fit
 from tdmtui.core.models import DoseArrays, onecomp
-from tdmtui.core.solvers import brent_root, golden_min, log_ndtr
+from tdmtui.core.solvers import brent_root, distinct, golden_min, log_ndtr, percentile
 
 FUNCTIONS = [
     (lambda x: x ** 3 - 2 * x - 5, 2.0, 3.0),  # Wallis' cubic (root 2.0945514815423265, from memory)
@@ -54,6 +55,20 @@ def test_golden_min_matches_scipy_bounded_minimum():
     ref = optimize.minimize_scalar(f, bounds=(0.0, 2.0), method="bounded", options={"xatol": 1e-12})
     assert x == pytest.approx(ref.x, abs=1e-6)
     assert fx == pytest.approx(ref.fun, abs=1e-12)
+
+
+@pytest.mark.parametrize("values", [[], [3.0], [2.0, 2.0], [5.0, -1.0, 5.0, 0.0, -0.0, 1e-300, 7.5, -1.0],
+                                    np.arange(12.0).reshape(3, 4) % 5, np.random.default_rng(3).integers(0, 9, 500) * 0.5])
+def test_distinct_matches_numpy_unique(values):
+    got, ref = distinct(values), np.unique(values)
+    assert got.shape == ref.shape and np.array_equal(got, ref)
+
+
+@pytest.mark.parametrize("n", [1, 2, 3, 7, 2000, 2001])
+def test_percentile_matches_numpy_percentile_to_the_bit(n):
+    x = np.random.default_rng(n).lognormal(3.0, 0.4, n)
+    for q in (0.0, 2.5, 5.0, 25.0, 50.0, 95.0, 97.5, 100.0, 100.0 / 3):
+        assert percentile(x, q) == float(np.percentile(x, q))
 
 
 def test_log_ndtr_matches_scipy_special_across_the_range():

@@ -152,7 +152,9 @@ def _map_problem():  # noqa: ANN202
     model = get_model("vancomycin-goti-2018")
     cov = Covariates(age=64.0, sex="female", weight=78.0, height=168.0, scr=1.1)
     doses = DoseArrays.regimen(0.0, 1000.0, 12.0, 1.0, 20)
-    obs = bayes.Observations.from_lists(np.array([227.5, 230.5]), np.array([12.0, 30.0]))
+    from tdmtui.core.estimation.posterior import Observations
+
+    obs = Observations.from_lists(np.array([227.5, 230.5]), np.array([12.0, 30.0]))
     return bayes, model, cov, doses, obs
 
 

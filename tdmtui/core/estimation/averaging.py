@@ -43,7 +43,8 @@ import numpy as np
 from tdmtui.core.models import PKParams
 
 if TYPE_CHECKING:
-    from tdmtui.core.estimation.bayes import Fit, ParamSamples
+    from tdmtui.core.estimation.bayes import Fit
+    from tdmtui.core.estimation.draws import ParamSamples
 
 #: Where the weighting comes from (shown in the note and the audit record).
 CITATION = ("Bayesian model averaging after Uster DW et al., Clin Pharmacol Ther 2021;109:175-183 (from memory): "
@@ -65,16 +66,14 @@ class Member:
 def log_evidence(fit: Fit, n: int = 2000, inflate: float = 1.5, seed: int | None = None) -> float:
     """ln p(y | model): the levels' likelihood integrated over the prior, by importance sampling.
 
-    -2 ln p(y, eta) = OFV(eta) + n_q ln 2 pi + ln det Omega + p ln 2 pi (OFV as in :mod:`bayes`, which
-    leaves these constants out); the proposal is N(eta_MAP, inflate^2 cov_eta).
+    -2 ln p(y, eta) = OFV(eta) + n_q ln 2 pi + ln det Omega + p ln 2 pi (OFV as in :mod:`posterior`, which
+    leaves these constants out); the proposal is N(eta_MAP, inflate^2 cov_eta), the same draws (and OFV
+    values) as :func:`draws.importance_samples` takes with the same n, inflate and seed.
     """
-    rng = np.random.default_rng(fit.seed if seed is None else seed)
-    p = fit.eta.size
-    chol = np.linalg.cholesky(fit.cov_eta)
-    z = rng.standard_normal((n, p))
-    eta = fit.eta + inflate * z @ chol.T
+    draw = fit.proposal(n, inflate, fit.seed if seed is None else seed)
+    p, z, chol = fit.eta.size, draw.z, draw.chol
     n_q = int(np.sum(fit.observations.quantified))
-    log_joint = -0.5 * (fit.posterior(eta) + n_q * LN2PI + np.linalg.slogdet(fit.model.omega)[1] + p * LN2PI)
+    log_joint = -0.5 * (draw.ofv + n_q * LN2PI + np.linalg.slogdet(fit.model.omega)[1] + p * LN2PI)
     log_q = -0.5 * (np.sum(z * z, 1) + p * LN2PI) - (p * math.log(inflate) + float(np.sum(np.log(np.diag(chol)))))
     lw = log_joint - log_q
     top = float(np.max(lw))
@@ -91,7 +90,7 @@ def weights(log_ev: list[float]) -> list[float]:
 
 def mixture(members: list[Member], w: list[float], n: int, seed: int) -> ParamSamples:
     """Equal-weight draws from the weighted mixture: round(w x n) draws from each model's posterior draws."""
-    from tdmtui.core.estimation.bayes import ParamSamples
+    from tdmtui.core.estimation.draws import ParamSamples
 
     counts = [int(round(x * n)) for x in w]
     counts[int(np.argmax(w))] += n - sum(counts)

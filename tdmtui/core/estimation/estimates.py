@@ -17,7 +17,7 @@ from tdmtui.core.models import PKParams, steady_state
 from tdmtui.core.estimation.working import WorkingStep
 
 if TYPE_CHECKING:
-    from tdmtui.core.estimation.bayes import ParamSamples
+    from tdmtui.core.estimation.draws import ParamSamples
 
 
 @dataclass

@@ -13,6 +13,7 @@ from __future__ import annotations
 import math
 
 from tdmtui.core import registry
+from tdmtui.core.estimation import bayes_estimate
 from tdmtui.core.estimation import bayes_method
 from tdmtui.core.estimation import twolevel
 from tdmtui.core.alerts import Alert
@@ -55,7 +56,7 @@ def sawchuk_zaske(ctx: MethodContext) -> MethodRun[Estimate]:
 def least_squares(ctx: MethodContext) -> MethodRun[Estimate]:
     """Proportionally weighted least squares through every usable level, no prior."""
     from tdmtui.core.estimation import lsq
-    from tdmtui.core.estimation.bayes import Observations
+    from tdmtui.core.estimation.posterior import Observations
     from tdmtui.core.models import PKParams
 
     obs = list(ctx.usable)
@@ -206,7 +207,7 @@ def refit_bayesian(ctx: MethodContext, est: Estimate) -> Estimate | None:
 
 def bayesian_alerts(ctx: MethodContext, est: Estimate, runs: MethodRuns) -> list[Alert]:
     """The primary model's flags and poorly fitted levels."""
-    return list(runs.flags.get("bayesian", ())) + bayes_method.residual_alerts(est, ctx.rules)
+    return list(runs.flags.get("bayesian", ())) + bayes_estimate.residual_alerts(est, ctx.rules)
 
 
 def population_alerts(ctx: MethodContext, est: Estimate, runs: MethodRuns) -> list[Alert]:

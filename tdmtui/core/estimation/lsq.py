@@ -2,7 +2,7 @@
 
 Model: one compartment, zero-order infusions superposed over the whole dose
 history (pk-sources.md 2.2), evaluated by the batch closed form of
-:mod:`tdmtui.core.estimation.bayes`. Residuals ``r_j = sqrt(w_j) (y_j - C_j)`` with
+:mod:`tdmtui.core.estimation.posterior`. Residuals ``r_j = sqrt(w_j) (y_j - C_j)`` with
 ``w_j = 1 / y_j^2`` (``weighting="proportional"``: each level counts by its
 relative error, for an assay whose error grows with the concentration) or
 ``w_j = 1`` (``"uniform"``). The concentration is proportional to 1/V, so for
@@ -19,7 +19,7 @@ import math
 
 import numpy as np
 
-from tdmtui.core.estimation.bayes import Observations
+from tdmtui.core.estimation.posterior import Observations
 from tdmtui.core.models.batch import Design, batch_concentration
 from tdmtui.core.errors import ConvergenceError, NoEstimateError
 from tdmtui.core.models import DoseArrays

@@ -79,10 +79,7 @@ def _bound_message(m: str, lv: Any, fn: Callable[[float], float]) -> NoEstimateE
 def superposition(inp: OneLevelInput) -> Estimate:
     """ke through one level with the population V, every dose superposed."""
     m, lv, v = "one-level", inp.level, inp.v_pop
-
-    def conc(ke: float) -> float:
-        return float(onecomp.concentration(ke, v, inp.history, lv.time))
-
+    conc = onecomp.concentration_in_ke(v, inp.history, lv.time)
     ke = _ke_through(m, lv, conc, f"no ke between {KE_LO:g} and {KE_HI:g} /h puts the history through "
                                   f"levels[{lv.index}] {lv.conc:g} mg/L with the population volume {v:.4g} L")
     steps = [inp.v_working,

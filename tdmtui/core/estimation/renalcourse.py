@@ -31,7 +31,7 @@ from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any
 
 if TYPE_CHECKING:
-    from tdmtui.core.estimation.bayes import Course
+    from tdmtui.core.estimation.posterior import Course
     from tdmtui.core.input.casetypes import Case
     from tdmtui.core.input.clock import Clock
     from tdmtui.core.estimation.context import MethodContext
@@ -125,10 +125,10 @@ def describe(schedule: RenalSchedule, clock: Clock) -> str:
 
 def build_course(schedule: RenalSchedule | None, typical: Typical,
                  sessions: list[tuple[float, float]] = (), session_cl_l_h: float = 0.0) -> Course | None:  # type: ignore[assignment]
-    """The Bayesian fit's :class:`~tdmtui.core.estimation.bayes.Course`: renal pieces and, where a session
+    """The Bayesian fit's :class:`~tdmtui.core.estimation.posterior.Course`: renal pieces and, where a session
     removal is given (library or protocol ``dialysis.session_clearance_l_h``), each session as a piece
     with that clearance added. None when nothing changes."""
-    from tdmtui.core.estimation.bayes import Course
+    from tdmtui.core.estimation.posterior import Course
 
     use_sessions = session_cl_l_h > 0 and len(sessions) > 0
     if schedule is None and not use_sessions:

@@ -20,10 +20,12 @@ Bauer, Applied Clinical Pharmacokinetics, ch. 2).
 from __future__ import annotations
 
 import math
+from typing import Callable
 
 import numpy as np
 
 from tdmtui.core.models import DoseArrays, SteadyState
+from tdmtui.core.solvers import distinct
 
 
 
@@ -179,7 +181,7 @@ def segment_states(
     s, dur = doses.start, doses.duration
     ends = s + dur
     events = np.concatenate([[t0], s[s > t0], ends[ends > t0]])
-    starts = np.unique(events)
+    starts = distinct(events)
     lengths = np.append(np.diff(starts), np.inf)
     running = (s[None, :] <= starts[:, None]) & (starts[:, None] < ends[None, :]) & (dur[None, :] > 0.0)
     rate = np.sum(np.where(running, doses.amount / np.where(dur > 0.0, dur, 1.0), 0.0), axis=1)
@@ -200,6 +202,29 @@ def concentration(ke: float, v: float, doses: DoseArrays, t: object) -> np.ndarr
     check_positive(ke=ke, v=v)
     check_doses(doses)
     return unit_concentration(ke, v, doses, t)
+
+
+def concentration_in_ke(v: float, doses: DoseArrays, t: float) -> Callable[[float], float]:
+    """C(t; ke), mg/L, at one time as a function of ke: :func:`concentration`'s value, with the volume,
+    doses and time checked and the history laid out once (a root search in ke calls it often).
+
+    Raises:
+        ValueError: as :func:`concentration`.
+    """
+    check_positive(v=v)
+    check_doses(doses)
+    tt = _times(t)
+    if len(doses) == 0 or tt.size != 1:
+        return lambda ke: float(concentration(ke, v, doses, t))
+    from tdmtui.core.models.superpose import Layout
+
+    layout = Layout.build(doses, tt)
+
+    def at(ke: float) -> float:
+        check_positive(ke=ke)
+        return float(layout.sums(np.array([[float(ke)]]))[0, 0, 0] / v)
+
+    return at
 
 
 def auc(ke: float, v: float, doses: DoseArrays, a: float, b: float) -> float:

@@ -30,7 +30,8 @@ start; an infusion is finished at ``t >= end``; a bolus at ``t > start`` (or
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, fields
+from functools import lru_cache
 
 import numpy as np
 
@@ -38,6 +39,9 @@ from tdmtui.core.models import DoseArrays
 
 #: elements per temporary (sets x exponents x doses) array; bounds memory (8 MB of floats)
 BLOCK_ELEMENTS = 1 << 20
+#: layouts of at most this many doses + times are kept for reuse (a fit, a root search and a curve
+#: ask for the same history at the same times many times over); larger ones are built each time
+REUSE_ELEMENTS = 4096
 
 
 @dataclass(frozen=True)
@@ -66,13 +70,22 @@ class Layout:
     run_at: np.ndarray  # sorted-time indices that have running pairs
     run_first: np.ndarray  # first pair of each of them
     rate: np.ndarray  # (d,) mg/h, 0 for a bolus
+    rel: np.ndarray | None  # (n,) h from the first sorted time to each (None when a gap is infinite)
+    delta_max: float  # the largest of ``delta`` (0 without finished doses)
 
     @classmethod
     def build(cls, doses: DoseArrays, t: object, right: bool = False) -> Layout:
+        """The layout of ``doses`` at times ``t``; a small one is built once and then reused (read-only)."""
         ts_in = np.asarray(t, dtype=float).reshape(-1)
+        s, dur, amt = (np.asarray(a, dtype=float) for a in (doses.start, doses.duration, doses.amount))
+        if s.size + ts_in.size > REUSE_ELEMENTS:
+            return cls._build(s, dur, amt, ts_in, right)
+        return _reused(s.tobytes(), dur.tobytes(), amt.tobytes(), ts_in.tobytes(), bool(right))
+
+    @classmethod
+    def _build(cls, s: np.ndarray, dur: np.ndarray, amt: np.ndarray, ts_in: np.ndarray, right: bool) -> Layout:
         order = np.argsort(ts_in, kind="stable")
         ts = ts_in[order]
-        s, dur, amt = doses.start, doses.duration, doses.amount
         infusion = dur > 0
         end = s + dur
         rate = np.where(infusion, amt / np.where(infusion, dur, 1.0), 0.0)
@@ -88,7 +101,7 @@ class Layout:
         new = np.ones(idx.size, bool)
         new[1:] = (at[1:] != at[:-1]) | (kind[1:] != kind[:-1])
         group = np.flatnonzero(new)
-        entry, entry_group = np.unique(at[group], return_index=True)
+        entry, entry_group = _first_of_runs(at[group])
         lo = np.searchsorted(ts, s, side="right")
         hi = np.where(infusion, np.searchsorted(ts, end, side="left"), lo)
         count = np.maximum(hi - lo, 0)
@@ -96,10 +109,13 @@ class Layout:
         run_time = np.repeat(lo, count) + np.arange(run_dose.size) - np.repeat(np.cumsum(count) - count, count)
         by_time = np.argsort(run_time, kind="stable")
         run_time, run_dose = run_time[by_time], run_dose[by_time]
-        run_at, run_first = np.unique(run_time, return_index=True)
-        return cls(ts.size, order, bool(np.all(order == np.arange(order.size))), np.diff(ts),
-                   ts[at] - end[idx], group, kind[group], entry, entry_group, kinds[:, 0], kinds[:, 1], kinds[:, 2],
-                   run_time, run_dose, ts[run_time] - s[run_dose], run_at, run_first, rate)
+        run_at, run_first = _first_of_runs(run_time)
+        gaps, delta = np.diff(ts), ts[at] - end[idx]
+        rel = np.concatenate([[0.0], np.cumsum(gaps)]) if np.all(np.isfinite(gaps)) else None
+        return cls(ts.size, order, bool(np.all(order == np.arange(order.size))), gaps,
+                   delta, group, kind[group], entry, entry_group, kinds[:, 0], kinds[:, 1], kinds[:, 2],
+                   run_time, run_dose, ts[run_time] - s[run_dose], run_at, run_first, rate, rel,
+                   float(np.max(delta)) if delta.size else 0.0)
 
     def sums(self, lam: np.ndarray) -> np.ndarray:
         """Unit-weight superposed terms (m, k, n) mg (divide by a volume for mg/L), times in input order.
@@ -127,7 +143,7 @@ class Layout:
             else:
                 s[:, :, self.entry] = np.add.reduceat(per_group, self.entry_group, axis=2)
             if self.entry.size > 1 or self.entry[0] < self.n - 1:
-                _carry(s, lam, self.gaps)
+                _carry(s, lam, self.gaps, self.rel)
         if self.run_dose.size:
             rise = -np.expm1(-lam3 * self.run_into) * (self.rate[self.run_dose] / lam3)
             s[:, :, self.run_at] += np.add.reduceat(rise, self.run_first, axis=2)
@@ -142,9 +158,9 @@ class Layout:
         """Per group, sum of e^(-lam delta) over its doses (m, k, g), leaving out the terms below
         e^-CUTOFF (< 1e-16 of the dose's own end value, for every set and exponent of the call)."""
         limit = CUTOFF / float(np.min(lam3))
-        keep = self.delta < limit
-        if keep.all():
+        if self.delta_max < limit:
             return np.add.reduceat(np.exp(-lam3 * self.delta), self.group, axis=2)
+        keep = self.delta < limit
         kept = np.concatenate([[0], np.cumsum(keep)])
         first, last = kept[self.group], kept[np.append(self.group[1:], self.delta.size)]
         out = np.zeros(lam3.shape[:2] + (self.group.size,))
@@ -157,13 +173,35 @@ class Layout:
 
 def _kinds(dur: np.ndarray, rate: np.ndarray, bolus: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Distinct (duration, rate, bolus) rows (c, 3) and each dose's row: by one integer code per dose
-    (a sort of integers, not of rows)."""
+    (a sort of integers, not of rows); one row at once when every dose is of one kind (the common course)."""
+    if dur.size and np.all(dur == dur[0]) and np.all(rate == rate[0]) and np.all(bolus == bolus[0]):
+        return np.array([[dur[0], rate[0], bolus[0]]]), np.zeros(dur.size, dtype=np.intp)
     code = np.zeros(dur.size, dtype=np.int64)
     for col in (dur, rate, bolus):
         values, inv = np.unique(col, return_inverse=True)
         code = code * values.size + inv.reshape(-1)
     codes, first, kind = np.unique(code, return_index=True, return_inverse=True)
     return np.stack([dur[first], rate[first], bolus[first]], 1).reshape(-1, 3), kind.reshape(-1)
+
+
+def _first_of_runs(a: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """For sorted ``a``: its distinct values and where each first occurs (np.unique's, without its sort)."""
+    new = np.ones(a.size, bool)
+    new[1:] = a[1:] != a[:-1]
+    first = np.flatnonzero(new)
+    return a[first], first
+
+
+@lru_cache(maxsize=64)
+def _reused(start: bytes, duration: bytes, amount: bytes, t: bytes, right: bool) -> Layout:
+    """A small layout by the bytes of its inputs, built once; its arrays are made read-only."""
+    s, dur, amt, ts = (np.frombuffer(b, dtype=float) for b in (start, duration, amount, t))
+    out = Layout._build(s, dur, amt, ts, right)
+    for f in fields(out):
+        value = getattr(out, f.name)
+        if isinstance(value, np.ndarray):
+            value.flags.writeable = False
+    return out
 
 
 #: a term e^(-lam delta) with lam delta above this (e^-36.8 < 1e-16) is left out: the dose has decayed
@@ -175,20 +213,19 @@ CUTOFF = 36.8
 _SPAN = 30.0
 
 
-def _carry(s: np.ndarray, lam: np.ndarray, gaps: np.ndarray) -> None:
+def _carry(s: np.ndarray, lam: np.ndarray, gaps: np.ndarray, rel: np.ndarray | None) -> None:
     """In place: s_i <- s_i + s_(i-1) e^(-lam gap_(i-1)), the recurrence, as a blocked scan.
 
     Within a block starting at t_a: S_i = e^(-lam (t_i - t_a)) [carry + cumsum_l s_l e^(lam (t_l - t_a))];
     one numpy pass per block, a block ending where the fastest exponent has decayed by e^-30. Nothing
     is carried across an infinite gap (a time at +-inf: every dose has decayed, or none has started).
+    ``rel``: the times from the first (the layout's; None when a gap is infinite).
     """
-    finite = np.isfinite(gaps)
     lam3 = lam[:, :, None]
-    if finite.all():
-        rel = np.concatenate([[0.0], np.cumsum(gaps)])
-        if rel[-1] * float(np.max(lam)) < _SPAN:  # one block: the common short case
-            s[:] = np.cumsum(s * np.exp(lam3 * rel), axis=2) * np.exp(-lam3 * rel)
-            return
+    if rel is not None and rel[-1] * float(np.max(lam)) < _SPAN:  # one block: the common short case
+        s[:] = np.cumsum(s * np.exp(lam3 * rel), axis=2) * np.exp(-lam3 * rel)
+        return
+    finite = np.isfinite(gaps)
     rel = np.concatenate([[0.0], np.cumsum(np.where(finite, gaps, 0.0))])
     x = rel * float(np.max(lam))
     cut = (np.diff(np.floor(x / _SPAN)) > 0) | ~finite

@@ -48,6 +48,7 @@ import numpy as np
 from tdmtui.core.models import PKParams
 from tdmtui.core.regimen.grid import dose_grid, infusion_time
 from tdmtui.core.regimen.steadystate import unit_values
+from tdmtui.core.solvers import distinct, percentile
 
 if TYPE_CHECKING:
     from tdmtui.core.library import Rules
@@ -179,7 +180,7 @@ def search(params: PKParams, targets: Targets, rules: Rules, intervals: list[flo
         if doses.size == 0:
             continue
         tinfs = np.array([infusion_time(d, rules, keep_infusion_h) for d in doses])
-        for tinf in np.unique(tinfs):
+        for tinf in distinct(tinfs):
             if tinf > tau:
                 continue
             sel = doses[tinfs == tinf]
@@ -257,7 +258,7 @@ def _draw_values(samples: Any, c: Candidate) -> tuple[np.ndarray, np.ndarray, np
 def _quantiles(x: np.ndarray, w: np.ndarray | None) -> list[float]:
     """5th and 95th percentiles, weighted (mid-point CDF) when weights are given."""
     if w is None:
-        return [float(np.percentile(x, 5.0)), float(np.percentile(x, 95.0))]
+        return [percentile(x, 5.0), percentile(x, 95.0)]
     order = np.argsort(x)
     cdf = np.cumsum(w[order]) - 0.5 * w[order]
     return [float(np.interp(0.05, cdf, x[order])), float(np.interp(0.95, cdf, x[order]))]

@@ -51,6 +51,7 @@ import numpy as np
 
 from tdmtui.core.models import DoseArrays, PKParams, auc, concentration, time_to_fall
 from tdmtui.core.regimen import wardclock
+from tdmtui.core.solvers import distinct
 
 if TYPE_CHECKING:
     from tdmtui.core.input.clock import Clock
@@ -131,7 +132,7 @@ def forecast(params: PKParams, history: DoseArrays, plan: DoseArrays, as_of: flo
     t0 = max(min(float(every.start[0]), as_of), as_of - hours) if len(every) else as_of
     t1 = as_of + hours
     events = np.concatenate([every.start, every.start + every.duration, [as_of]])
-    grid = np.union1d(np.arange(t0, t1 + 1e-9, step), events[(events >= t0) & (events <= t1)])
+    grid = distinct(np.concatenate([np.arange(t0, t1 + 1e-9, step), events[(events >= t0) & (events <= t1)]]))
     conc = concentration(params, every, grid)
     aucs = {"day1_mg_h_per_l": auc(params, every, as_of, as_of + 24.0),
             "day2_mg_h_per_l": auc(params, every, as_of + 24.0, as_of + 48.0)}
