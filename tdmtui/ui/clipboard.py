@@ -15,6 +15,8 @@ from tdmtui.core.input.textsafe import neutralise_block
 
 COPY_CAVEAT = ("Sent to your clipboard by OSC 52. Some terminals and tmux (unless set-clipboard is on) "
                "block it: if nothing pastes, press w to write the note to a file.")
+#: The Note section's standing line: what c does and its limit, true before anything is copied.
+COPY_HINT = "c copies by OSC 52; if nothing pastes (some terminals, tmux), w writes a file"
 
 
 def clipboard_text(text: str) -> str:

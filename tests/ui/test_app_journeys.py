@@ -105,8 +105,14 @@ async def test_type_a_new_vancomycin_case_fit_choose_and_copy_note(state):
         assert app.chosen is not None
         second = app.outcome.result["regimen"].get("candidates") or [None, *app.outcome.result["regimen"]["alternatives"]]
         assert app.chosen["dose_mg"] == second[1]["dose_mg"]
-        await pilot.press("f7", "c")
+        await pilot.press("f7")
         await pilot.pause()
+        # before anything is copied the section says what c does, not that something was sent
+        hint = str(app.screen.query_one("#note-caveat", Static).content)
+        assert "OSC 52" in hint and "Sent" not in hint and len(hint) <= 80
+        await pilot.press("c")
+        await pilot.pause()
+        assert any("Sent to your clipboard" in n.message for n in app._notifications)
         assert app.clipboard == app.note
         assert "Chosen in review: " in app.clipboard
         assert f"{app.chosen['dose_mg']:.0f} mg" in app.clipboard

@@ -7,7 +7,7 @@ from textual.binding import Binding
 from textual.containers import Vertical, VerticalScroll
 from textual.widgets import Label, Static
 
-from tdmtui.ui.clipboard import COPY_CAVEAT
+from tdmtui.ui.clipboard import COPY_HINT
 
 
 TITLE = "c copy  w write to a file  f full detail"
@@ -26,7 +26,7 @@ class NoteSection(Vertical):
         yield Label(TITLE, id="note-title", classes="section-title", markup=False)
         with VerticalScroll(id="note-scroll"):
             yield Static("The note appears when the case computes.", id="note-text", markup=False)
-        yield Label(COPY_CAVEAT, id="note-caveat", classes="caution", markup=False)
+        yield Label(COPY_HINT, id="note-caveat", markup=False)
 
     def show(self, text: str) -> None:
         """Show the note text and its length (arrows and PgUp/PgDn scroll it)."""
