@@ -221,7 +221,7 @@ def test_w3_redesigned_gentamicin_regimen() -> None:
     assert ss.trough == pytest.approx(1.39, abs=0.005)
     doses = DoseArrays.regimen(0.0, 180.0, 12.0, 0.5, 40)  # 40 doses: e^(-0.1544 x 480) ~ 0
     assert onecomp.concentration(ke, v, doses, 39 * 12.0 + 1.0) == pytest.approx(7.57, abs=0.005)
-    # The brief's rounded inputs (ke 0.1544, V 25.1) reproduce step 6 to the sheet's rounding too.
+    # The sheet's rounded inputs (ke 0.1544, V 25.1) reproduce step 6 to the sheet's rounding too.
     ss_rounded = onecomp.steady_state(0.1544, 25.1, 180.0, 12.0, 0.5)
     assert (ss_rounded.peak, ss_rounded.trough) == pytest.approx((8.18, 1.39), abs=0.005)
 
