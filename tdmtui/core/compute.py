@@ -203,6 +203,7 @@ def compute(case: Case, protocol: Protocol | None = None, method: str | None = N
     alerts += methods.used_alerts(ctx, est, runs)
     holds, corrections = exposure.exposure_alerts(ctx, est, base.option)
     alerts += holds
+    base = dataclasses.replace(base, check_before_restart=exposure.calls_for_hold(holds))
     sens_rows, sens_alerts = timing_sensitivity(ctx, est)
     alerts += sens_alerts
     result = _header(case, protocol, renal, rules, ctx.current)

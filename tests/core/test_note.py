@@ -308,12 +308,13 @@ DEVELOPER_TEXT = ("from memory", "confirmed", "re-typed", "verify against", "yea
                   "[library]", "pk-sources", "doses[", "levels[", "rule tbw", "crcl_cg", "eta =",
                   "auto does not", "(used)")
 #: Two-level and one-level cases of the usual kind: the standard note fits in 60 lines. The cases whose
-#: renal function changes (vanc-rising-scr, vanc-aki-levels-after) or that dose around haemodialysis
-#: (vanc-haemodialysis) carry more: tests/core/test_note_brevity.py bounds them (70 to 80 lines).
+#: renal function changes (vanc-rising-scr, vanc-aki-levels-after, gent-high-trough: SCr +60 % in a day,
+#: doses held and a restart that waits on a level) or that dose around haemodialysis (vanc-haemodialysis)
+#: carry more: tests/core/test_note_brevity.py bounds them (62 to 80 lines).
 STANDARD = ("vanc-steady-state", "vanc-trough-only", "gent-peak-trough", "amikacin", "vanc-late-dose",
             "vanc-continuous", "vanc-continuous-levels", "gent-new-start", "vanc-stop-dialysis",
             "tobra-us-units", "vanc-obese", "gent-extended", "vanc-elderly-low-scr", "vanc-high-auc",
-            "vanc-hold-two-doses", "vanc-below-loq", "vanc-loading-early", "gent-high-trough")
+            "vanc-hold-two-doses", "vanc-below-loq", "vanc-loading-early")
 
 
 @pytest.mark.parametrize("name", [p.stem for p in ALL_SAMPLES])

@@ -25,8 +25,9 @@ from tdmtui.core.input.case import load_case
 from tdmtui.core.text.note import render_note
 
 ALL = sorted(p.stem for p in SAMPLES.glob("*.json"))
-#: Renal function changing, or doses around haemodialysis: more to say, a looser bound (lines).
-LONGER = {"vanc-haemodialysis": 70, "vanc-rising-scr": 75, "vanc-aki-levels-after": 80}
+#: Renal function changing, or doses around haemodialysis: more to say, a looser bound (lines). The cases
+#: with doses held for high exposure also name the level their restart waits on.
+LONGER = {"vanc-haemodialysis": 70, "vanc-rising-scr": 75, "vanc-aki-levels-after": 82, "gent-high-trough": 62}
 
 
 @lru_cache(maxsize=None)

@@ -151,3 +151,16 @@ async def test_help_and_warnings_say_how_to_close_them_and_scroll(state, sample_
             await pilot.press("escape")
             await pilot.pause()
             assert not isinstance(app.screen, HelpScreen)
+
+
+async def test_the_plan_says_the_next_dose_waits_on_a_level_after_a_hold(state, sample_copy):
+    # vanc-high-auc: AUC24 1137 and a trough of 34.5 mg/L; the new regimen's first dose (2026-10-06 08:00)
+    # is given only if a level drawn 30 min before it is below 20 mg/L (tests/core/test_restart_check.py)
+    app = TdmApp(str(sample_copy("vanc-high-auc.json")), None, state=state)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        await pilot.press("f6")
+        await pilot.pause()
+        lines = screen_lines(app)
+        at = next(i for i, line in enumerate(lines) if line.startswith("Next dose: 2026-10-06T08:00"))
+        assert lines[at + 1].startswith("Give it only if a level drawn at 2026-10-06T07:30 is below 20 mg/L")

@@ -143,6 +143,8 @@ def _shape(inp: RegimenInput, c: Candidate, targets: Targets, mode: str, continu
     }
     if tm.held is not None and limit is not None:
         out["hold_level_mg_l"] = limit
+    if inp.check_before_restart and not continuing and limit is not None and (tm.skipped or tm.held is not None):
+        out["next_levels"].insert(0, handover.restart_check(inp.rules, inp.clock, first, limit))
     if mode == "continuous":
         out.update(continuous.describe(c))
     out["_first"] = first

@@ -185,6 +185,12 @@ def _is_hold(a: Alert) -> bool:
     return a.code == "auc-toxic" or (a.code == "trough-high" and "hold the next dose" in a.message)
 
 
+def calls_for_hold(alerts: list[Alert]) -> bool:
+    """True when an exposure caution says to hold and redraw before redosing (the regimen then books
+    that level before its first dose: handover.restart_check)."""
+    return any(_is_hold(a) for a in alerts)
+
+
 def exposure_alerts(ctx: Assessed, est: EstimateUsed, option: str | None = None) -> tuple[list[Alert], list[Alert]]:
     """The four checks for the estimate used: ``(holds, corrections)`` (module docstring).
 

@@ -40,6 +40,14 @@ Rules (each number is library or protocol data):
   the start of dose n. Doses are numbered from the first maintenance dose of
   the new regimen (1). Draws go on the grid (troughs earlier, peaks later)
   and into ward hours (``monitoring.ward_hours``, wardclock.py).
+* **The level a restart waits on.** When an exposure caution calls for a
+  hold (``auc-toxic``, or ``trough-high`` with a hold: exposure.py), every
+  proposal that leaves doses out or holds books a trough
+  ``monitoring.trough_before_h`` before its first dose, first in
+  ``next_levels``, with ``give_below_mg_l`` (the hold limit): the first dose
+  is given only if that level is below it (:func:`restart_check`; the note
+  says it with the next dose). The predicted fall is a model's; the level is
+  the patient's.
 """
 
 from __future__ import annotations
@@ -171,6 +179,17 @@ def _draw(rules: Rules, targets: Targets, mode: str, item: list[Any], first: flo
         kind = "random" if mode != "continuous" else "steady-state"
         where = f"{_h(at - start)} h after the start of dose {n} of the new regimen"
     return at, {"at": clock.format(at), "kind": kind, "dose": f"dose {n} ({clock.format(start)}): {where}"}
+
+
+def restart_check(rules: Rules, clock: Clock, first: float, limit: float) -> dict[str, Any]:
+    """The level drawn before the first dose of a regimen that follows a hold for high exposure: the
+    dose is given only if the level is below ``limit`` (the exposure caution's advice). Drawn
+    ``monitoring.trough_before_h`` before the dose, on the protocol's grid, whatever the ward hours:
+    the dose waits on it."""
+    at = wardclock.to_grid(first - float(rules.value("monitoring.trough_before_h")), rules, clock, "down")
+    return {"at": clock.format(at), "kind": "trough", "give_below_mg_l": limit,
+            "dose": f"dose 1 ({clock.format(first)}): {(first - at) * 60:.0f} min before the first dose; give it only "
+                    f"below {limit:g} mg/L"}
 
 
 def _h(x: float) -> str:

@@ -52,6 +52,9 @@ class RegimenInput:
             the drug's chart), or None for the regimen designed from the estimate.
         levels: the case's levels.
         doses: the case's doses (kind tells a loading dose; the nomogram finds its dose here).
+        check_before_restart: an exposure caution calls for a hold (exposure.calls_for_hold): a proposal
+            that leaves doses out books a level before its first dose, to be given only below the hold
+            limit (handover.restart_check).
     """
 
     drug: str
@@ -73,6 +76,7 @@ class RegimenInput:
     option: str | None = None
     levels: tuple[Level, ...] = ()
     doses: tuple[Dose, ...] = ()
+    check_before_restart: bool = False
 
 
 __all__ = ["Assessed", "CurrentRegimen", "EstimateUsed", "Plan", "RegimenInput"]

@@ -164,17 +164,26 @@ def _and(items: list[str]) -> str:
     return items[0] if len(items) == 1 else ", ".join(items[:-1]) + " and " + items[-1]
 
 
+def _restart_check(reg: dict[str, Any]) -> str:
+    check = next((nl for nl in reg.get("next_levels") or [] if nl.get("give_below_mg_l") is not None), None)
+    if check is None:
+        return ""
+    return f" if a level at {f.when(check['at']).split(' ')[-1]} is below {check['give_below_mg_l']:g} mg/L"
+
+
 def hold_words(reg: dict[str, Any]) -> str:
-    """What happens to the standing order's doses before the next dose, by clock time (regimen/wardclock.py)."""
-    nxt = f.when(reg.get("next_dose_at"))
+    """What happens to the standing order's doses before the next dose, by clock time (regimen/wardclock.py);
+    the level the next dose waits on after a hold for high exposure (handover.restart_check) is named with it."""
+    when = f.when(reg.get("next_dose_at"))
+    nxt = when + _restart_check(reg)
     gone = [str(t) for t in reg.get("skipped_doses") or []]
     until = reg.get("hold_until")
     if until and gone:
         level = reg.get("hold_level_mg_l")
         if level and until == reg.get("next_dose_at"):
             held = _dose_times(gone)
-            at = nxt.split(" ")[-1] if held.endswith(" on " + nxt.split(" ")[0]) else nxt  # the date once
-            return f"Hold the {held} (level predicted above {level:.3g} mg/L until {at}, the next dose)"
+            at = when.split(" ")[-1] if held.endswith(" on " + when.split(" ")[0]) else when  # the date once
+            return f"Hold the {held} (level predicted above {level:.3g} mg/L until {at}, the next dose{_restart_check(reg)})"
         why = f" (level predicted above {level:.3g} mg/L until {f.when(until)})" if level else ""
         return f"Hold the {_dose_times(gone)}{why}; next dose {nxt}"
     if until:
@@ -258,6 +267,8 @@ def monitoring_lines(outcome: Outcome, reg: dict[str, Any] | None) -> list[str]:
     levels = (reg or {}).get("next_levels") or []
     parts = []
     for nl in levels:
+        if nl.get("give_below_mg_l") is not None:  # the next dose's own check: said with the next dose
+            continue
         why = str(nl.get("dose", "")).split(": ", 1)[-1].removesuffix(" of the new regimen")
         parts.append(f"{nl['kind']} at {f.when(nl['at'])}" + (f" ({why})" if why else ""))
     text = "Next levels: " + ("; ".join(parts) if parts else "none planned by the tool")

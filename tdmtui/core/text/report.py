@@ -141,5 +141,6 @@ def _next_steps(reg: dict[str, Any]) -> list[str]:
         lines.append(f"  loading dose {num(ld['dose_mg'], 'dose')} mg over {num(ld['infusion_h'], 'infusion')} h "
                      f"at {ld['at']}")
     for nl in reg.get("next_levels", []):
-        lines.append(f"  next level: {nl['kind']} at {nl['at']}")
+        wait = f" (give the next dose only below {nl['give_below_mg_l']:g} mg/L)" if "give_below_mg_l" in nl else ""
+        lines.append(f"  next level: {nl['kind']} at {nl['at']}{wait}")
     return lines

@@ -61,6 +61,9 @@ def summary_lines(result: dict[str, Any]) -> str:
     lines = [f"Proposal: {reg.get('action', '?').upper()}  {fm.qty(reg.get('dose_mg'), 'dose_mg')} every "
              f"{fm.qty(reg.get('interval_h'), 'interval_h')} over {fm.qty(reg.get('infusion_h'), 'infusion_h')}"]
     lines.append(f"Next dose: {reg.get('next_dose_at') or '-'}   Hold until: {reg.get('hold_until') or 'no hold'}")
+    wait = next((x for x in reg.get("next_levels") or [] if x.get("give_below_mg_l") is not None), None)
+    if wait:
+        lines.append(f"Give it only if a level drawn at {wait.get('at')} is below {wait['give_below_mg_l']:g} mg/L")
     if reg.get("skipped_doses"):
         lines.append(("Hold" if reg.get("hold_until") else "Not given") + " (standing order): "
                      + ", ".join(str(x) for x in reg["skipped_doses"]))
