@@ -13,6 +13,7 @@ import re
 from typing import TYPE_CHECKING, Any
 
 from tdmtui.core.input import chosen as ch
+from tdmtui.core.regimen.handover import restart_level
 from tdmtui.core.text import notefmt as f
 from tdmtui.core import registry
 from tdmtui.core.text.notework import working_lines
@@ -165,7 +166,7 @@ def _and(items: list[str]) -> str:
 
 
 def _restart_check(reg: dict[str, Any]) -> str:
-    check = next((nl for nl in reg.get("next_levels") or [] if nl.get("give_below_mg_l") is not None), None)
+    check = restart_level(reg)
     if check is None:
         return ""
     return f" if a level at {f.when(check['at']).split(' ')[-1]} is below {check['give_below_mg_l']:g} mg/L"
@@ -174,8 +175,8 @@ def _restart_check(reg: dict[str, Any]) -> str:
 def hold_words(reg: dict[str, Any]) -> str:
     """What happens to the standing order's doses before the next dose, by clock time (regimen/wardclock.py);
     the level the next dose waits on after a hold for high exposure (handover.restart_check) is named with it."""
-    when = f.when(reg.get("next_dose_at"))
-    nxt = when + _restart_check(reg)
+    when, check = f.when(reg.get("next_dose_at")), _restart_check(reg)
+    nxt = when + check
     gone = [str(t) for t in reg.get("skipped_doses") or []]
     until = reg.get("hold_until")
     if until and gone:
@@ -183,7 +184,7 @@ def hold_words(reg: dict[str, Any]) -> str:
         if level and until == reg.get("next_dose_at"):
             held = _dose_times(gone)
             at = when.split(" ")[-1] if held.endswith(" on " + when.split(" ")[0]) else when  # the date once
-            return f"Hold the {held} (level predicted above {level:.3g} mg/L until {at}, the next dose{_restart_check(reg)})"
+            return f"Hold the {held} (level predicted above {level:.3g} mg/L until {at}, the next dose{check})"
         why = f" (level predicted above {level:.3g} mg/L until {f.when(until)})" if level else ""
         return f"Hold the {_dose_times(gone)}{why}; next dose {nxt}"
     if until:
@@ -267,7 +268,7 @@ def monitoring_lines(outcome: Outcome, reg: dict[str, Any] | None) -> list[str]:
     levels = (reg or {}).get("next_levels") or []
     parts = []
     for nl in levels:
-        if nl.get("give_below_mg_l") is not None:  # the next dose's own check: said with the next dose
+        if nl is restart_level(reg or {}):  # the next dose's own check: said with the next dose
             continue
         why = str(nl.get("dose", "")).split(": ", 1)[-1].removesuffix(" of the new regimen")
         parts.append(f"{nl['kind']} at {f.when(nl['at'])}" + (f" ({why})" if why else ""))

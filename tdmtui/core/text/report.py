@@ -8,6 +8,7 @@ from __future__ import annotations
 import textwrap
 from typing import Any
 
+from tdmtui.core.regimen.handover import restart_level
 from tdmtui.core.text.numfmt import interval as _interval
 from tdmtui.core.text.numfmt import num
 from tdmtui.core.text.safety import NOTE_LINE
@@ -140,7 +141,9 @@ def _next_steps(reg: dict[str, Any]) -> list[str]:
         ld = reg["loading_dose"]
         lines.append(f"  loading dose {num(ld['dose_mg'], 'dose')} mg over {num(ld['infusion_h'], 'infusion')} h "
                      f"at {ld['at']}")
+    check = restart_level(reg)
     for nl in reg.get("next_levels", []):
-        wait = f" (give the next dose only below {nl['give_below_mg_l']:g} mg/L)" if "give_below_mg_l" in nl else ""
+        wait = "" if check is None or nl is not check else \
+            f" (give the next dose only below {check['give_below_mg_l']:g} mg/L)"
         lines.append(f"  next level: {nl['kind']} at {nl['at']}{wait}")
     return lines

@@ -12,6 +12,7 @@ from textual.message import Message
 from textual.widgets import DataTable, Label, Static
 
 from tdmtui.core.input.chosen import offered, parse_chosen, same
+from tdmtui.core.regimen.handover import restart_level
 from tdmtui.ui import formatting as fm
 from tdmtui.ui.safety import caution_line
 
@@ -61,7 +62,7 @@ def summary_lines(result: dict[str, Any]) -> str:
     lines = [f"Proposal: {reg.get('action', '?').upper()}  {fm.qty(reg.get('dose_mg'), 'dose_mg')} every "
              f"{fm.qty(reg.get('interval_h'), 'interval_h')} over {fm.qty(reg.get('infusion_h'), 'infusion_h')}"]
     lines.append(f"Next dose: {reg.get('next_dose_at') or '-'}   Hold until: {reg.get('hold_until') or 'no hold'}")
-    wait = next((x for x in reg.get("next_levels") or [] if x.get("give_below_mg_l") is not None), None)
+    wait = restart_level(reg)
     if wait:
         lines.append(f"Give it only if a level drawn at {wait.get('at')} is below {wait['give_below_mg_l']:g} mg/L")
     if reg.get("skipped_doses"):
