@@ -73,3 +73,10 @@ def find(result: dict[str, Any], chosen: dict[str, Any] | None) -> dict[str, Any
     if not chosen:
         return None
     return next((r for r in offered(result) if same(r, chosen)), None)
+
+
+def restart_level(regimen: dict[str, Any]) -> dict[str, Any] | None:
+    """The level a regimen's first dose waits on after a hold for high exposure (the row
+    regimen/handover.restart_check puts in ``next_levels``), or None. Here, with the other readers of
+    the result's regimen, so the app's Plan screen reads it without the regimen package (numpy)."""
+    return next((nl for nl in regimen.get("next_levels") or [] if nl.get("give_below_mg_l") is not None), None)

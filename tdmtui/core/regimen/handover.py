@@ -192,11 +192,6 @@ def restart_check(rules: Rules, clock: Clock, first: float, limit: float) -> dic
                     f"below {limit:g} mg/L"}
 
 
-def restart_level(regimen: dict[str, Any]) -> dict[str, Any] | None:
-    """The level a regimen's first dose waits on (:func:`restart_check`'s row in ``next_levels``), or None."""
-    return next((nl for nl in regimen.get("next_levels") or [] if nl.get("give_below_mg_l") is not None), None)
-
-
 def _h(x: float) -> str:
     return f"{round(x * 60.0) / 60.0:.2f}".rstrip("0").rstrip(".")
 

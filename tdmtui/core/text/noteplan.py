@@ -13,7 +13,6 @@ import re
 from typing import TYPE_CHECKING, Any
 
 from tdmtui.core.input import chosen as ch
-from tdmtui.core.regimen.handover import restart_level
 from tdmtui.core.text import notefmt as f
 from tdmtui.core import registry
 from tdmtui.core.text.notework import working_lines
@@ -166,7 +165,7 @@ def _and(items: list[str]) -> str:
 
 
 def _restart_check(reg: dict[str, Any]) -> str:
-    check = restart_level(reg)
+    check = ch.restart_level(reg)
     if check is None:
         return ""
     return f" if a level at {f.when(check['at']).split(' ')[-1]} is below {check['give_below_mg_l']:g} mg/L"
@@ -266,9 +265,10 @@ def monitoring_lines(outcome: Outcome, reg: dict[str, Any] | None) -> list[str]:
     rules = outcome.rules
     lines: list[str] = []
     levels = (reg or {}).get("next_levels") or []
+    check = ch.restart_level(reg or {})  # the next dose's own check: said with the next dose (hold_words)
     parts = []
     for nl in levels:
-        if nl is restart_level(reg or {}):  # the next dose's own check: said with the next dose
+        if nl is check:
             continue
         why = str(nl.get("dose", "")).split(": ", 1)[-1].removesuffix(" of the new regimen")
         parts.append(f"{nl['kind']} at {f.when(nl['at'])}" + (f" ({why})" if why else ""))

@@ -8,7 +8,7 @@ from __future__ import annotations
 import textwrap
 from typing import Any
 
-from tdmtui.core.regimen.handover import restart_level
+from tdmtui.core.input.chosen import restart_level
 from tdmtui.core.text.numfmt import interval as _interval
 from tdmtui.core.text.numfmt import num
 from tdmtui.core.text.safety import NOTE_LINE

@@ -11,8 +11,7 @@ from textual.containers import Vertical, VerticalScroll
 from textual.message import Message
 from textual.widgets import DataTable, Label, Static
 
-from tdmtui.core.input.chosen import offered, parse_chosen, same
-from tdmtui.core.regimen.handover import restart_level
+from tdmtui.core.input.chosen import offered, parse_chosen, restart_level, same
 from tdmtui.ui import formatting as fm
 from tdmtui.ui.safety import caution_line
 
