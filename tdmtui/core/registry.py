@@ -20,7 +20,8 @@ chart, with the estimate beside it from ``auto``). A case written with
 ``"method": "nomogram"`` keeps loading and means exactly that.
 
 Adding a method: write ``estimate(ctx) -> MethodRun`` (and, if it can,
-``refit(ctx, estimate) -> Estimate | None`` and ``alerts(ctx, estimate, run)``)
+``refit(ctx, estimate) -> Estimate | None``, ``refit_many`` when many refits share work, and
+``alerts(ctx, estimate, run)``)
 in its own module, then add one :class:`Method` record to :data:`METHODS`.
 """
 
@@ -74,6 +75,9 @@ class Method:
         estimate: entry point ``f(ctx) -> MethodRun``.
         refit: entry point ``f(ctx, estimate) -> Estimate | None``: the same
             method again on a shifted case (timing sensitivity); None = not refitted.
+        refit_many: entry point ``f(ctx, estimate, cases) -> list[Estimate | None]``: ``refit``
+            on many shifted copies of the case at once, the same estimates sooner; None = ``refit``
+            on each.
         alerts: entry point ``f(ctx, estimate, runs) -> list[Alert]``: alerts that
             belong to it when it is the method used; None = none.
         auto_rank: its place in ``auto`` (lowest first); None = never chosen by ``auto``.
@@ -90,6 +94,7 @@ class Method:
     estimate: str
     source: str = ""
     refit: str | None = None
+    refit_many: str | None = None
     alerts: str | None = None
     auto_rank: int | None = None
     min_levels: int = 0
@@ -156,7 +161,7 @@ METHODS: tuple[Method, ...] = (
            source="MAP on each model, log-normal between-patient variability; model averaging after Uster DW et "
                   "al. 2021 (from memory)",
            estimate="tdmtui.core.estimation.bayes_method:run", refit=f"{_EST}:refit_bayesian",
-           alerts=f"{_EST}:bayesian_alerts", auto_rank=2, with_renal_replacement=True),
+           refit_many=f"{_EST}:refit_bayesian_many", alerts=f"{_EST}:bayesian_alerts", auto_rank=2, with_renal_replacement=True),
 )
 
 #: Regimen options accepted where a method is chosen.

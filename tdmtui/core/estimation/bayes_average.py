@@ -24,6 +24,12 @@ def _condition_mismatch(o: Any) -> bool:
     return any(a.code == "model-out-of-population" and a.field == "patient.conditions" for a in o.alerts)
 
 
+def can_take_part(o: Any) -> bool:
+    """Whether an offered model's fit can take part in the average (:func:`eligible` leaves out the others
+    whatever they fit: excluded, or built only on patients with a condition this patient does not have)."""
+    return not o.excluded and not _condition_mismatch(o)
+
+
 def eligible(fitted: list) -> tuple[list, list]:
     """Fits (offer, fit, levels, draws) that take part in the average, and (offer, why not) for the others."""
     out, left = [], []

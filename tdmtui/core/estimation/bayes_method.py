@@ -21,7 +21,6 @@ use them (case-format.md).
 from __future__ import annotations
 
 import dataclasses
-from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
 
 from tdmtui.core.errors import ConvergenceError, NoEstimateError
@@ -41,13 +40,18 @@ def levels_for(ctx: MethodContext, two_compartment: bool) -> list:
 
 def levels_by_structure(ctx: MethodContext) -> dict[bool, list]:
     """:func:`levels_for` one- (False) and two-compartment (True) models, each level judged once."""
+    return case_levels_by_structure(ctx.case, ctx.rules)
+
+
+def case_levels_by_structure(case: Any, rules: Any) -> dict[bool, list]:
+    """:func:`levels_by_structure` of a case under these rules."""
     from tdmtui.core.course.history import level_exclusion
 
     out: dict[bool, list] = {False: [], True: []}
-    for lv in ctx.case.levels:
-        if lv.time > ctx.case.as_of:
+    for lv in case.levels:
+        if lv.time > case.as_of:
             continue
-        why = level_exclusion(ctx.case, lv, ctx.rules)
+        why = level_exclusion(case, lv, rules)
         if why is None or why[0] == "level-censored":
             out[False].append(lv)
             out[True].append(lv)
@@ -56,7 +60,7 @@ def levels_by_structure(ctx: MethodContext) -> dict[bool, list]:
     return out
 
 
-def _covariates(ctx: MethodContext) -> Any:
+def covariates_of(ctx: MethodContext) -> Any:
     from tdmtui.core.estimation import popmodels
 
     p = ctx.case.patient
@@ -64,7 +68,7 @@ def _covariates(ctx: MethodContext) -> Any:
                                 p.renal_replacement, p.conditions)
 
 
-def _course(ctx: MethodContext, model: Any, cov: Any, steps: list) -> tuple[Any, Any, Any]:
+def model_course(ctx: MethodContext, model: Any, cov: Any, steps: list) -> tuple[Any, Any, Any]:
     """(renal schedule or None, latest typical or None, posterior.Course or None) for one model."""
     from tdmtui.core.input import dialysis
     from tdmtui.core.estimation import renalcourse
@@ -101,7 +105,7 @@ def run(ctx: MethodContext, follow_renal: bool = True) -> MethodRun:
 def _run(ctx: MethodContext, steps: list) -> MethodRun:
     from tdmtui.core.estimation import popmodels
 
-    cov = _covariates(ctx)
+    cov = covariates_of(ctx)
     offers = sorted(popmodels.offered_models(ctx.case.drug, cov),
                     key=lambda o: int(o.model.data.get("preference", {}).get("rank", 99)))
     if not offers:
@@ -145,7 +149,7 @@ def _fit_each(ctx: MethodContext, offers: list, cov: Any,
             continue
         levels = by_structure[o.model.compartments == 2]
         try:
-            sched, typical, course = _course(ctx, o.model, cov, steps)
+            sched, typical, course = model_course(ctx, o.model, cov, steps)
             prior = bayes.population_fit(o.model, cov, ctx.history, course=course, typical=typical)
             est[f"population:{o.model.id}"] = estimate(f"population:{o.model.id}", prior, [], ctx, o, True,
                                                        renal=sched)
@@ -160,100 +164,3 @@ def _fit_each(ctx: MethodContext, offers: list, cov: Any,
         except (NoEstimateError, ConvergenceError) as exc:
             why[key] = getattr(exc, "why", str(exc))
     return est, why, fitted
-
-
-@dataclass
-class _RefitShared:
-    """What every refit of one estimate shares while the patient, renal summary, dialysis record, rules,
-    drug and as-of time are those it was made for: the covariates, the dated SCr steps, the offered
-    models and each model's course of typical values (the timing sensitivity moves only level and
-    infusion-end times)."""
-
-    anchors: tuple
-    cov: Any
-    steps: list
-    offers: list
-    courses: dict[str, tuple[Any, Any, Any]] = field(default_factory=dict)
-
-    def fits(self, ctx: MethodContext) -> bool:
-        c = ctx.case
-        now = (c.patient, ctx.renal, c.dialysis, ctx.rules, c.drug, c.as_of)
-        return all(a is b for a, b in zip(self.anchors[:4], now[:4])) and self.anchors[4:] == now[4:]
-
-    def course(self, ctx: MethodContext, model: Any) -> tuple[Any, Any, Any]:
-        if model.id not in self.courses:
-            self.courses[model.id] = _course(ctx, model, self.cov, self.steps)
-        return self.courses[model.id]
-
-
-def _refit_shared(ctx: MethodContext, warm: dict[str, Any]) -> _RefitShared:
-    """The shared part of the refits, made on the first refit and kept in ``warm`` for the next ones."""
-    from tdmtui.core.estimation import popmodels
-    from tdmtui.core.estimation import renalcourse
-
-    shared = warm.get("refit")
-    if isinstance(shared, _RefitShared) and shared.fits(ctx):
-        return shared
-    c = ctx.case
-    cov = _covariates(ctx)
-    shared = _RefitShared((c.patient, ctx.renal, c.dialysis, ctx.rules, c.drug, c.as_of), cov,
-                          renalcourse.steps_of(c), popmodels.offered_models(c.drug, cov))
-    warm["refit"] = shared
-    return shared
-
-
-def refit(ctx: MethodContext, model_id: str, warm: dict[str, Any] | None = None) -> Estimate | None:
-    """MAP again on one model, or the model average again (for the timing sensitivity); None when it fails.
-
-    ``warm`` (the base estimate's :attr:`Estimate.warm`): each MAP starts from the base eta, and a model
-    average keeps the base weights when the same models fit again (a time moved by minutes changes each
-    fit; the weights' importance sampling is not redone 4 times per level). What does not move with the
-    times is computed on the first refit and kept there (:class:`_RefitShared`). Without it, as the base run.
-    """
-    from tdmtui.core.estimation import bayes
-    from tdmtui.core.estimation import popmodels
-
-    warm = warm if warm is not None else {}
-    shared = _refit_shared(ctx, warm)
-    by_structure = {two: (lvs, observations(lvs) if lvs else None) for two, lvs in levels_by_structure(ctx).items()}
-
-    def levels_of(model: Any) -> tuple[list, Any]:
-        return by_structure[model.compartments == 2]
-
-    def fit_one(model: Any) -> Any:
-        _, typical, course = shared.course(ctx, model)
-        return bayes.map_fit(model, shared.cov, ctx.history, levels_of(model)[1], course=course, typical=typical,
-                             start=warm.get(model.id))
-
-    if model_id != "model-average":
-        model = popmodels.get_model(model_id)
-        levels = levels_of(model)[0]
-        try:
-            return Estimate("bayesian", fit_one(model).params, [lv.index for lv in levels]) if levels else None
-        except (NoEstimateError, ConvergenceError):
-            return None
-    fitted = []
-    for o in shared.offers:
-        levels = levels_of(o.model)[0]
-        if o.excluded or not levels:
-            continue
-        try:
-            fitted.append((o, fit_one(o.model), levels, None))
-        except (NoEstimateError, ConvergenceError):
-            continue
-    return _average_again(eligible(fitted)[0], warm.get("weights") or {})
-
-
-def _average_again(members: list, base_w: dict[str, float]) -> Estimate | None:
-    """The refitted models' average: with the base weights when the same models fit, else new evidence."""
-    from tdmtui.core.estimation import averaging
-
-    if not members:
-        return None
-    if set(base_w) == {o.model.id for o, *_ in members}:
-        ms = [averaging.Member(o.model.id, o.model.name, f, None, 0.0) for o, f, _, _ in members]
-        w = [base_w[m.model_id] for m in ms]
-    else:
-        ms = [averaging.Member(o.model.id, o.model.name, f, None, averaging.log_evidence(f)) for o, f, _, _ in members]
-        w = averaging.weights([m.log_evidence for m in ms])
-    return Estimate("bayesian", averaging.point(ms, w), [lv.index for lv in members[0][2]])

@@ -7,11 +7,13 @@ after the renal, course and target stages; every method of the registry
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import TYPE_CHECKING
 
+import numpy as np
+
 from tdmtui.core.input.casetypes import Case, Level
-from tdmtui.core.course.history import CurrentRegimen
+from tdmtui.core.course.history import CurrentRegimen, usable_levels
 from tdmtui.core.library import Rules
 from tdmtui.core.models import DoseArrays
 from tdmtui.core.patient.renal import RenalSummary
@@ -48,3 +50,26 @@ class MethodContext:
     usable: list[Level]
     current: CurrentRegimen | None
     targets: Targets | None = None
+
+
+def shifted(ctx: MethodContext, case: Case) -> MethodContext:
+    """The context of ``case``, a copy of ``ctx.case`` with level or infusion-end times moved (timing
+    sensitivity): its usable levels judged again, its dose arrays :func:`shifted_history`."""
+    return replace(ctx, case=case, history=shifted_history(ctx, case), usable=usable_levels(case, ctx.rules))
+
+
+def shifted_history(ctx: MethodContext, case: Case) -> DoseArrays:
+    """The dose arrays of ``case`` (as :func:`shifted`): the base ones when only a level moved, one duration
+    changed when one infusion end moved (the dose at the same start, amount and old duration), else rebuilt."""
+    if case.doses is ctx.case.doses:
+        return ctx.history
+    h = ctx.history
+    changed = [(a, b) for a, b in zip(ctx.case.doses, case.doses) if a is not b]
+    if len(changed) == 1 and changed[0][0].start <= case.as_of:
+        old, new = changed[0]
+        at = np.flatnonzero((h.start == old.start) & (h.duration == old.duration) & (h.amount == old.amount))
+        if at.size == 1:
+            duration = h.duration.copy()
+            duration[at[0]] = new.duration
+            return DoseArrays(h.start, duration, h.amount)
+    return history_of(case)

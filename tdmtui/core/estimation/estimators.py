@@ -15,9 +15,10 @@ import math
 from tdmtui.core import registry
 from tdmtui.core.estimation import bayes_estimate
 from tdmtui.core.estimation import bayes_method
+from tdmtui.core.estimation import bayes_refit
 from tdmtui.core.estimation import twolevel
 from tdmtui.core.alerts import Alert
-from tdmtui.core.input.casetypes import Dose
+from tdmtui.core.input.casetypes import Case, Dose
 from tdmtui.core.course.history import level_exclusion
 from tdmtui.core.estimation.context import MethodContext
 from tdmtui.core.errors import ConvergenceError, NoEstimateError
@@ -202,7 +203,12 @@ def refit_sawchuk_zaske(ctx: MethodContext, est: Estimate) -> Estimate | None:
 
 def refit_bayesian(ctx: MethodContext, est: Estimate) -> Estimate | None:
     """MAP again on the same model."""
-    return bayes_method.refit(ctx, est.model["id"], est.warm) if est.model else None
+    return bayes_refit.refit(ctx, est.model["id"], est.warm) if est.model else None
+
+
+def refit_bayesian_many(ctx: MethodContext, est: Estimate, cases: list[Case]) -> list[Estimate | None]:
+    """MAP again on the same model for many shifted copies of the case, each model's copies in one batch."""
+    return bayes_refit.refit_many(ctx, est.model["id"], est.warm, cases) if est.model else [None] * len(cases)
 
 
 def bayesian_alerts(ctx: MethodContext, est: Estimate, runs: MethodRuns) -> list[Alert]:

@@ -22,6 +22,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from functools import lru_cache
+from typing import Callable
 
 import numpy as np
 
@@ -154,14 +155,33 @@ class Posterior:
         return batch_tv_concentration(self.course.changes, cl, v1, q, v2,
                                       self.doses if doses is None else doses, self.obs.time if t is None else t)
 
+    def predictor(self, t: np.ndarray, doses: DoseArrays | None = None) -> Callable[[np.ndarray], np.ndarray]:
+        """``eta (m, p) -> concentrations (m, n)`` at times ``t`` from ``doses`` (default: the fit's), laid out once."""
+        doses = self.doses if doses is None else doses
+        if self.course is None:
+            design = Design.build(doses, t)
+            return lambda eta: batch_concentration(*self.params(eta), design)
+        from tdmtui.core.models.timevarying import batch_tv_concentration
+
+        changes = self.course.changes
+
+        def predict(eta: np.ndarray) -> np.ndarray:
+            cl, v1, q, v2 = self.piece_params(eta)
+            return batch_tv_concentration(changes, cl, v1, q, v2, doses, t)
+
+        return predict
+
     def __call__(self, eta: np.ndarray) -> np.ndarray:
         """OFV for eta of shape (m, p); shape (m,)."""
         eta = np.atleast_2d(eta)
+        return self.objective(eta, self.predict(eta) if len(self.obs) else None)
+
+    def objective(self, eta: np.ndarray, pred: np.ndarray | None) -> np.ndarray:
+        """OFV (m,) for eta (m, p) whose predictions at the levels are ``pred`` (m, n) (None without levels)."""
         ofv = np.sum((eta @ self.omega_inv) * eta, 1)
-        if len(self.obs) == 0:
+        if pred is None:
             return ofv
         o = self.obs
-        pred = self.predict(eta)
         var = np.maximum(self.model.additive_sd ** 2 + (self.model.proportional_sd * pred) ** 2, _VAR_FLOOR)
         if self.all_quantified:
             return ofv + np.sum((o.conc - pred) ** 2 / var + np.log(var), 1)

@@ -4,7 +4,7 @@ The method table (:mod:`tdmtui.core.registry`) is data at the bottom of the core
 its functions as ``"module:function"`` and the table imports nothing of the estimation stage. This
 module calls them with the stage's :class:`~tdmtui.core.estimation.context.MethodContext` and
 :class:`~tdmtui.core.estimation.estimates.Estimate`: whether the method concerns the case, why it is
-refused, its run, the notes on why it gave none, its refit on a shifted case (timing sensitivity), and
+refused, its run, the notes on why it gave none, its refit on shifted cases (timing sensitivity), and
 the alerts that belong to it as the method used.
 """
 
@@ -13,8 +13,10 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from tdmtui.core.alerts import Alert
-from tdmtui.core.estimation.context import MethodContext
+from tdmtui.core.errors import ConvergenceError, NoEstimateError
+from tdmtui.core.estimation.context import MethodContext, shifted
 from tdmtui.core.estimation.estimates import Estimate
+from tdmtui.core.input.casetypes import Case
 from tdmtui.core.registry import Method, MethodRun, entry
 
 
@@ -54,6 +56,23 @@ def refit(m: Method, ctx: MethodContext, est: Estimate) -> Estimate | None:
     if m.refit is None:
         return None
     out: Estimate | None = entry(m.refit)(ctx, est)
+    return out
+
+
+def refit_many(m: Method, ctx: MethodContext, est: Estimate, cases: list[Case]) -> list[Estimate | None]:
+    """:func:`refit` on each shifted copy of the case (``refit_many`` when the method has it); None for a copy
+    it gives no estimate for."""
+    if m.refit is None:
+        return [None] * len(cases)
+    if m.refit_many is not None:
+        many: list[Estimate | None] = entry(m.refit_many)(ctx, est, cases)
+        return many
+    out: list[Estimate | None] = []
+    for case in cases:
+        try:
+            out.append(refit(m, shifted(ctx, case), est))
+        except (NoEstimateError, ConvergenceError):
+            out.append(None)
     return out
 
 

@@ -7,9 +7,11 @@ again. A change above ``timing.sensitivity_warn_rel`` (10 %) in AUC24 or ke is
 warned, naming the time that matters. All three numbers are library data.
 
 Cost: a moved level keeps the base dose arrays, a moved infusion end changes one
-duration in them (no rebuild from the case), and each refit starts from the base
-estimate (:attr:`Estimate.warm`: the MAP from the base eta; a model average keeps
-its base weights), so the refits stay linear in the dose history.
+duration in them (no rebuild from the case; :func:`context.shifted_history`), and each
+refit starts from the base estimate (:attr:`Estimate.warm`: the MAP from the base eta;
+a model average keeps its base weights), so the refits stay linear in the dose history.
+All moves go to the method at once (:func:`runs.refit_many`): the Bayesian method fits
+each model's copies in one batch (:mod:`shiftmap`).
 """
 
 from __future__ import annotations
@@ -17,46 +19,12 @@ from __future__ import annotations
 import dataclasses
 from typing import Any
 
-import numpy as np
-
 from tdmtui.core import registry
 from tdmtui.core.estimation import runs as entries
-from tdmtui.core.course import history as course
 from tdmtui.core.alerts import Alert
-from tdmtui.core.input.casetypes import Case
-from tdmtui.core.estimation.context import MethodContext, history_of
-from tdmtui.core.errors import ConvergenceError, NoEstimateError
+from tdmtui.core.input.casetypes import Case, Level
+from tdmtui.core.estimation.context import MethodContext
 from tdmtui.core.estimation.estimates import Estimate
-from tdmtui.core.models import DoseArrays
-
-
-def _history(ctx: MethodContext, case: Case) -> DoseArrays:
-    """The shifted case's dose arrays: the base ones when only a level moved, one duration changed when
-    one infusion end moved (the case's dose at the same start, amount and old duration), else rebuilt."""
-    if case.doses is ctx.case.doses:
-        return ctx.history
-    h = ctx.history
-    changed = [(a, b) for a, b in zip(ctx.case.doses, case.doses) if a is not b]
-    if len(changed) == 1 and changed[0][0].start <= case.as_of:
-        old, new = changed[0]
-        at = np.flatnonzero((h.start == old.start) & (h.duration == old.duration) & (h.amount == old.amount))
-        if at.size == 1:
-            duration = h.duration.copy()
-            duration[at[0]] = new.duration
-            return DoseArrays(h.start, duration, h.amount)
-    return history_of(case)
-
-
-def _rerun(ctx: MethodContext, est: Estimate, case: Case) -> Estimate | None:
-    """The method of ``est`` again on a shifted case (its registry record's refit), or None."""
-    rec = registry.get(est.method)
-    if rec is None or rec.refit is None:
-        return None
-    sub = dataclasses.replace(ctx, case=case, history=_history(ctx, case), usable=course.usable_levels(case, ctx.rules))
-    try:
-        return entries.refit(rec, sub, est)
-    except (NoEstimateError, ConvergenceError):
-        return None
 
 
 def _auc(ctx: MethodContext, e: Estimate) -> float | None:
@@ -78,32 +46,36 @@ def timing_sensitivity(ctx: MethodContext, est: Estimate) -> tuple[list[dict[str
     rows: list[dict[str, Any]] = []
     worst: dict[str, tuple[float, str]] = {}
     levels = {lv.index: lv for lv in case.levels}
-    for idx in est.levels_used:
-        lv = levels[idx]
-        h = wide_shift if lv.timing == "uncertain" else base_shift
-        moves = [(f"levels[{idx}].time", sign * h, _shift_level(case, idx, sign * h)) for sign in (-1, 1)]
-        before = [d for d in case.doses if d.start < lv.time]
-        if before:
-            d = before[-1]
-            hd = wide_shift if d.timing == "uncertain" else base_shift
-            moves += [(f"doses[{d.index}].end", sign * hd, _shift_end(case, d.index, sign * hd)) for sign in (-1, 1)]
-        for field, dh, new_case in moves:
-            e = _rerun(ctx, est, new_case)
-            if e is None:
-                rows.append({"moved": field, "shift_min": round(dh * 60), "ke_per_h": None, "auc24_mg_h_per_l": None,
-                             "change": None, "note": "no estimate with this shift"})
-                continue
-            auc = _auc(ctx, e)
-            change = abs(auc / base_auc - 1) if (auc and base_auc) else abs(e.params.ke / base_ke - 1)
-            rows.append({"moved": field, "shift_min": round(dh * 60), "ke_per_h": e.params.ke,
-                         "auc24_mg_h_per_l": auc, "change": change})
-            if change > worst.get(field, (0.0, ""))[0]:
-                worst[field] = (change, f"{dh * 60:+.0f} min")
+    moves = [m for idx in est.levels_used for m in _moves(case, levels[idx], base_shift, wide_shift)]
+    refits = entries.refit_many(rec, ctx, est, [new_case for _, _, new_case in moves])
+    for (field, dh, _), e in zip(moves, refits):
+        if e is None:
+            rows.append({"moved": field, "shift_min": round(dh * 60), "ke_per_h": None, "auc24_mg_h_per_l": None,
+                         "change": None, "note": "no estimate with this shift"})
+            continue
+        auc = _auc(ctx, e)
+        change = abs(auc / base_auc - 1) if (auc and base_auc) else abs(e.params.ke / base_ke - 1)
+        rows.append({"moved": field, "shift_min": round(dh * 60), "ke_per_h": e.params.ke,
+                     "auc24_mg_h_per_l": auc, "change": change})
+        if change > worst.get(field, (0.0, ""))[0]:
+            worst[field] = (change, f"{dh * 60:+.0f} min")
     alerts = [Alert("timing-sensitive", "caution", field,
                     f"moving this time by {how} changes {'AUC24' if base_auc else 'ke'} by {change:.0%} "
                     f"(over {limit:.0%}): confirm the exact time before acting")
               for field, (change, how) in worst.items() if change > limit]
     return rows, alerts
+
+
+def _moves(case: Case, lv: Level, base_shift: float, wide_shift: float) -> list[tuple[str, float, Case]]:
+    """(field, shift h, shifted case) for a level: its time either way, then the end of the infusion before it."""
+    h = wide_shift if lv.timing == "uncertain" else base_shift
+    moves = [(f"levels[{lv.index}].time", sign * h, _shift_level(case, lv.index, sign * h)) for sign in (-1, 1)]
+    before = [d for d in case.doses if d.start < lv.time]
+    if before:
+        d = before[-1]
+        hd = wide_shift if d.timing == "uncertain" else base_shift
+        moves += [(f"doses[{d.index}].end", sign * hd, _shift_end(case, d.index, sign * hd)) for sign in (-1, 1)]
+    return moves
 
 
 def _shift_level(case: Case, index: int, dh: float) -> Case:
