@@ -18,13 +18,14 @@ from tdmtui.core.estimation.working import WorkingStep
 
 if TYPE_CHECKING:
     from tdmtui.core.estimation.context import MethodContext
+    from tdmtui.core.estimation.popmodels import Offer
 
 
 def _condition_mismatch(o: Any) -> bool:
     return any(a.code == "model-out-of-population" and a.field == "patient.conditions" for a in o.alerts)
 
 
-def can_take_part(o: Any) -> bool:
+def can_take_part(o: Offer) -> bool:
     """Whether an offered model's fit can take part in the average (:func:`eligible` leaves out the others
     whatever they fit: excluded, or built only on patients with a condition this patient does not have)."""
     return not o.excluded and not _condition_mismatch(o)

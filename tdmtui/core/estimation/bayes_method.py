@@ -31,6 +31,9 @@ from tdmtui.core.registry import MethodRun
 
 if TYPE_CHECKING:
     from tdmtui.core.estimation.context import MethodContext
+    from tdmtui.core.estimation.popmodels import Covariates, PopModel
+    from tdmtui.core.input.casetypes import Case, Level
+    from tdmtui.core.library import Rules
 
 
 def levels_for(ctx: MethodContext, two_compartment: bool) -> list:
@@ -43,11 +46,11 @@ def levels_by_structure(ctx: MethodContext) -> dict[bool, list]:
     return case_levels_by_structure(ctx.case, ctx.rules)
 
 
-def case_levels_by_structure(case: Any, rules: Any) -> dict[bool, list]:
+def case_levels_by_structure(case: Case, rules: Rules) -> dict[bool, list[Level]]:
     """:func:`levels_by_structure` of a case under these rules."""
     from tdmtui.core.course.history import level_exclusion
 
-    out: dict[bool, list] = {False: [], True: []}
+    out: dict[bool, list[Level]] = {False: [], True: []}
     for lv in case.levels:
         if lv.time > case.as_of:
             continue
@@ -60,7 +63,8 @@ def case_levels_by_structure(case: Any, rules: Any) -> dict[bool, list]:
     return out
 
 
-def covariates_of(ctx: MethodContext) -> Any:
+def covariates_of(ctx: MethodContext) -> Covariates:
+    """The patient's covariates as the population models read them."""
     from tdmtui.core.estimation import popmodels
 
     p = ctx.case.patient
@@ -68,7 +72,7 @@ def covariates_of(ctx: MethodContext) -> Any:
                                 p.renal_replacement, p.conditions)
 
 
-def model_course(ctx: MethodContext, model: Any, cov: Any, steps: list) -> tuple[Any, Any, Any]:
+def model_course(ctx: MethodContext, model: PopModel, cov: Covariates, steps: list) -> tuple[Any, Any, Any]:
     """(renal schedule or None, latest typical or None, posterior.Course or None) for one model."""
     from tdmtui.core.input import dialysis
     from tdmtui.core.estimation import renalcourse

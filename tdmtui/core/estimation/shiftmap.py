@@ -59,30 +59,28 @@ def solve(post: Posterior, start: np.ndarray, bound: np.ndarray, copies: list[Co
     npts, p = pts.shape
     x = np.repeat(np.asarray(start, dtype=float)[None, :], len(copies), 0)
     out: list[np.ndarray | None] = [None] * len(copies)
-    took: dict[int, tuple[float, float]] = {}  # copy -> (objective before its last step, that step's slope)
-    active = list(range(len(copies)))
+    before = np.full(len(copies), np.inf)  # objective before each copy's last step, and that step's slope
+    slope_before = np.zeros(len(copies))
+    active = np.arange(len(copies))
     for _ in range(max_iter + 1):
-        if not active:
+        if not active.size:
             break
-        f = batch.objective(active, (x[active][:, None, :] + pts[None, :, :]).reshape(-1, p)).reshape(-1, npts)
-        going = []
-        for row, i in enumerate(active):
-            fi = f[row]
-            if i in took and not fi[0] <= took[i][0] + 1e-4 * took[i][1]:
-                continue  # the single fit would backtrack here
-            g, hess = gmap @ fi, (hmap @ fi).reshape(p, p)
-            if not (np.all(np.isfinite(fi)) and np.linalg.eigvalsh(hess)[0] > 1e-6):
-                continue  # the single fit would damp the step
-            step = -np.linalg.solve(hess, g)
-            slope = float(g @ step)
-            if -slope < 1e-10:
-                if np.all(np.abs(x[i]) < bound * (1 - 1e-6)):
-                    out[i] = x[i].copy()
-                continue
-            took[i] = (float(fi[0]), slope)
-            x[i] = np.clip(x[i] + step, -bound, bound)
-            going.append(i)
-        active = going
+        f = batch.objective(list(active), (x[active][:, None, :] + pts[None, :, :]).reshape(-1, p)).reshape(-1, npts)
+        # left to the single fit: a failed full step (it would backtrack) or a Hessian it would damp
+        ok = np.all(np.isfinite(f), 1) & (f[:, 0] <= before[active] + 1e-4 * slope_before[active])
+        g, hess = f @ gmap.T, (f @ hmap.T).reshape(-1, p, p)
+        hess[~ok] = np.eye(p)
+        ok &= np.linalg.eigvalsh(hess)[:, 0] > 1e-6
+        active, f, g, hess = active[ok], f[ok], g[ok], hess[ok]
+        step = -np.linalg.solve(hess, g[:, :, None])[:, :, 0]
+        slope = np.einsum("ij,ij->i", g, step)
+        done = -slope < 1e-10
+        for i in active[done]:
+            if np.all(np.abs(x[i]) < bound * (1 - 1e-6)):
+                out[i] = x[i].copy()
+        active, step = active[~done], step[~done]
+        before[active], slope_before[active] = f[~done, 0], slope[~done]
+        x[active] = np.clip(x[active] + step, -bound, bound)
     return out
 
 
