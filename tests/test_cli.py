@@ -27,7 +27,10 @@ def test_every_sample_case_computes(path):
     assert res["method"] != "auto"
     assert len(res["input_sha256"]) == 64
     for w in res["warnings"]:
-        assert set(w) == {"code", "severity", "field", "message"}
+        assert set(w) - {"facts"} == {"code", "severity", "field", "message"}
+        facts = w.get("facts", {})  # docs/estimates.md: the message's figures and advice, as it writes them
+        assert isinstance(facts, dict) and all(isinstance(v, str) and v for v in facts.values())
+        assert all(v in w["message"] for k, v in facts.items() if k != "advice" and k != "cause"), w
         assert w["severity"] in ("info", "caution", "stop")
     if res["status"] == "stop":
         assert "regimen" not in res

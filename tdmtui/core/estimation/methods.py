@@ -99,11 +99,13 @@ def compare(ctx: MethodContext, est: dict[str, Estimate], used: str) -> list[Ale
             continue
         gap, what = _gap(one, bay, ctx.current)
         if gap > limit:
+            advice = ("the one-level answer rests on the population volume and a single level; trust it less when "
+                      "the patient's volume is unusual (obesity, oedema, critical illness); trust the Bayesian one "
+                      "less when the patient is outside its models' populations")
+            facts = {"method": name, "figure": what, "gap": f"{gap:.0%}", "limit": f"{limit:.0%}", "advice_text": advice}
             out.append(Alert("methods-disagree-one-level", "caution", "levels",
-                             f"{name} and Bayesian differ on {what} by {gap:.0%} (over {limit:.0%}): the one-level "
-                             "answer rests on the population volume and a single level; trust it less when the "
-                             "patient's volume is unusual (obesity, oedema, critical illness); trust the Bayesian one "
-                             "less when the patient is outside its models' populations"))
+                             f"{name} and Bayesian differ on {what} by {facts['gap']} (over {facts['limit']}): {advice}",
+                             facts))
     if a and bay:
         from tdmtui.core.estimation.shapecheck import disagreement_advice, terminal_rate_alert
 
@@ -111,9 +113,11 @@ def compare(ctx: MethodContext, est: dict[str, Estimate], used: str) -> list[Ale
         gap, what = _gap(a, bay, ctx.current)
         if gap > limit:
             model = (bay.model or {}).get("name", "the population model")
+            facts = {"model": model, "figure": what, "gap": f"{gap:.0%}", "limit": f"{limit:.0%}",
+                     "cause": "curve-shape" if shape is not None else "unexplained"}
             out.append(Alert("methods-disagree-bayesian", "caution", "levels",
-                             f"two-level and Bayesian ({model}) differ on {what} by {gap:.0%} (over {limit:.0%}): "
-                             f"{disagreement_advice(ctx, a, used, shape is not None)}"))
+                             f"two-level and Bayesian ({model}) differ on {what} by {facts['gap']} (over "
+                             f"{facts['limit']}): {disagreement_advice(ctx, a, used, shape is not None)}", facts))
         if shape is not None:
             out.append(shape)
     return out

@@ -94,13 +94,16 @@ def terminal_rate_alert(ctx: MethodContext, two_level: Estimate, bayesian: Estim
     from tdmtui.core.estimation.estimates import two_compartment_figures
 
     beta = two_compartment_figures(bayesian.params)["beta_per_h"]
+    facts = {"rates": f"two-level ke {two_level.params.ke:.4f} /h, model terminal rate {beta:.4f} /h",
+             "one_compartment_trough": f"{bias.implied_trough:.3g}", "one_compartment_auc24": f"{bias.implied_auc24:.0f}",
+             "model_trough": f"{bias.model_trough:.3g}", "model_auc24": f"{bias.model_auc24:.0f}",
+             "bias": f"{bias.rel:.1%}", "limit": f"{limit:.0%}"}
     return Alert("ke-vs-terminal-rate", "caution", "levels",
-                 f"these levels were drawn where the two-compartment model's curve still bends (two-level ke "
-                 f"{two_level.params.ke:.4f} /h, model terminal rate {beta:.4f} /h): through them a one-compartment "
-                 f"fit puts the current regimen's steady-state trough at {bias.implied_trough:.3g} mg/L and AUC24 at "
-                 f"{bias.implied_auc24:.0f} where the model gives {bias.model_trough:.3g} and {bias.model_auc24:.0f} "
-                 f"({bias.rel:.1%}, over {limit:.0%}): the Bayesian estimate follows that curve; "
-                 f"{_proposal_on_bayesian(used)}")
+                 f"these levels were drawn where the two-compartment model's curve still bends ({facts['rates']}): "
+                 f"through them a one-compartment fit puts the current regimen's steady-state trough at "
+                 f"{facts['one_compartment_trough']} mg/L and AUC24 at {facts['one_compartment_auc24']} where the "
+                 f"model gives {facts['model_trough']} and {facts['model_auc24']} ({facts['bias']}, over "
+                 f"{facts['limit']}): the Bayesian estimate follows that curve; {_proposal_on_bayesian(used)}", facts)
 
 
 def disagreement_advice(ctx: MethodContext, two_level: Estimate, used: str, shape: bool) -> str:

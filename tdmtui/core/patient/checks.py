@@ -111,8 +111,9 @@ def patient_alerts(case: Case, rules: Rules, bmi: float, ibw: float, mic: float)
     names = [str(n).lower() for n in rules.value("nephrotoxins.names")]
     for i, c in enumerate(p.comedications):
         if c.strip().lower() in names and c.strip().lower() != case.drug:
-            out.append(Alert("nephrotoxin", "caution", f"patient.comedications[{i}]",
-                             f"{c} with {case.drug}: added nephrotoxic risk; monitor SCr closely"))
+            advice = "added nephrotoxic risk; monitor SCr closely"
+            out.append(Alert("nephrotoxin", "caution", f"patient.comedications[{i}]", f"{c} with {case.drug}: {advice}",
+                             {"comedication": c, "drug": case.drug, "advice_text": advice}))
     if case.drug == "vancomycin" and mic >= float(rules.value("targets.mic_caution_mg_l")):
         out.append(Alert("mic-high", "caution", "target.mic",
                          f"MIC {mic:g} mg/L: an AUC24/MIC of 400-600 is unlikely to be reached safely; consider another agent"))

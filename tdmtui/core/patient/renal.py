@@ -151,12 +151,16 @@ def scr_trend(series: list[tuple[float, float, int | None]], rules: Rules,
         ti, vi, _ = series[ch.i]
         tj, vj, ij = series[ch.j]
         verb = "rose" if vj > vi else "fell"
+        facts = {"direction": verb, "from": _mg_dl(vi), "to": _mg_dl(vj), "change": f"{100 * (vj - vi) / vi:+.0f} %",
+                 "span": f"{_hours(tj - ti)} h", "rule": renaltrend.rule_text(ch, th, vj > vi),
+                 "source": "KDIGO acute kidney injury definition",
+                 "advice_text": "Cockcroft-Gault and eGFR assume stable renal function: reassess renal function and "
+                                "dose by levels"}
         out.append(Alert(
             "scr-unstable", "caution", f"{_scr_field(ij)}.value",
-            f"SCr {verb} from {_mg_dl(vi)} mg/dL ({_when(ti, clock)}) to {_mg_dl(vj)} mg/dL ({_when(tj, clock)}): "
-            f"{vj - vi:+.2f} mg/dL ({100 * (vj - vi) / vi:+.0f} %) in {_hours(tj - ti)} h, "
-            f"{renaltrend.rule_text(ch, th, vj > vi)} (KDIGO acute kidney injury definition); "
-            "Cockcroft-Gault and eGFR assume stable renal function: reassess renal function and dose by levels"))
+            f"SCr {verb} from {facts['from']} mg/dL ({_when(ti, clock)}) to {facts['to']} mg/dL ({_when(tj, clock)}): "
+            f"{vj - vi:+.2f} mg/dL ({facts['change']}) in {facts['span']}, {facts['rule']} ({facts['source']}); "
+            f"{facts['advice_text']}", facts))
         times.append(tj)
     return out, tuple(times)
 

@@ -122,8 +122,10 @@ def _auc_alerts(ctx: Assessed, targets: Targets, pred: Predicted | None) -> list
     toxic = float(ctx.rules.value("exposure.auc24_toxic")) if "exposure.auc24_toxic" in ctx.rules else 0.0
     what = f"AUC24 {pred.auc24:.0f} mg*h/L predicted at steady state of the current regimen"
     if toxic > 0 and pred.auc24 > toxic:
-        return [Alert("auc-toxic", "caution", "", f"{what} is above {toxic:g} (kidney injury likely): hold the "
-                      "next dose, redraw a level before any further dose, reassess renal function; redose by level")]
+        todo = "hold the next dose, redraw a level before any further dose, reassess renal function; redose by level"
+        return [Alert("auc-toxic", "caution", "", f"{what} is above {toxic:g} (kidney injury likely): {todo}",
+                      {"auc24": f"{pred.auc24:.0f}", "limit": f"{toxic:g}", "why": "kidney injury likely",
+                       "advice": "hold", "advice_text": todo})]
     if pred.auc24 > hi:
         return [Alert("auc-high", "caution", "", f"{what} is above the {hi:g} target limit: lower the dose from the "
                       "next due dose (see the proposal), redraw a level on the new regimen, check SCr")]
@@ -154,12 +156,19 @@ def _trough_alerts(ctx: Assessed, targets: Targets, pred: Predicted | None, hold
         return []
     fld = f"levels[{top[0].index}].conc" if top else ""
     worst = max(top[0].conc if top else 0.0, pred.trough if pred is not None else 0.0)
-    if hold or unstable or worst >= float(ctx.rules.value("exposure.trough_hold_rel")) * limit:
+    holds = hold or unstable or worst >= float(ctx.rules.value("exposure.trough_hold_rel")) * limit
+    if holds:
         todo = (f"hold the next dose, redraw a level before it is due and redose only below {limit:g} mg/L; "
                 "reassess renal function")
     else:
         todo = "lengthen the interval or lower the dose (see the proposal) and check SCr"
-    return [Alert("trough-high", "caution", fld, f"{_what(measured, predicted)} above the {limit:g} mg/L limit: {todo}")]
+    facts = {"limit": f"{limit:g}", "advice": "hold" if holds else "correct", "advice_text": todo}
+    if top:
+        facts.update(measured=f"{top[0].conc:g}", level=f"levels[{top[0].index}]")
+    if predicted and pred is not None:
+        facts["predicted"] = f"{pred.trough:.3g}"
+    return [Alert("trough-high", "caution", fld, f"{_what(measured, predicted)} above the {limit:g} mg/L limit: {todo}",
+                  facts)]
 
 
 def _peak_alerts(ctx: Assessed, targets: Targets, pred: Predicted | None) -> list[Alert]:
@@ -182,7 +191,7 @@ def _peak_alerts(ctx: Assessed, targets: Targets, pred: Predicted | None) -> lis
 
 
 def _is_hold(a: Alert) -> bool:
-    return a.code == "auc-toxic" or (a.code == "trough-high" and "hold the next dose" in a.message)
+    return a.code in ("auc-toxic", "trough-high") and a.facts.get("advice") == "hold"
 
 
 def calls_for_hold(alerts: list[Alert]) -> bool:

@@ -22,8 +22,10 @@ A caution that tells the reader to base the regimen on the Bayesian estimate
 while the regimen shown rests on another method says how to get a proposal on
 it instead of contradicting the Plan. Case paths become words, times are
 written as the rest of the note writes them, and names of the local
-protocol's settings stay in the protocol file. A warning whose wording does
-not match what a merge expects is given as raised: nothing is dropped.
+protocol's settings stay in the protocol file. Merges read each warning's
+``facts`` (the figures and advice its message words, as the engine wrote
+them), never its wording; a warning without the facts a merge needs is given
+as raised: nothing is dropped.
 """
 
 from __future__ import annotations
@@ -39,22 +41,6 @@ Raised = dict[str, Any]  # one warning of the result: code, severity, field, mes
 #: (the engine's cautions already end so; the merged caution says it once).
 CHOOSE_BAYESIAN = "for a proposal on it choose method bayesian"
 
-_DISAGREE = re.compile(r"^two-level and Bayesian \((?P<model>.+)\) differ on (?P<what>\w+) by (?P<gap>\d+%) "
-                       r"\(over (?P<limit>\d+%)\): the difference is the one-compartment shape")
-_SHAPE = re.compile(r"^these levels were drawn where the two-compartment model's curve still bends \((?P<ke>[^)]*)\): "
-                    r"through them a one-compartment fit puts the current regimen's steady-state trough at "
-                    r"(?P<t1>\S+) mg/L and AUC24 at (?P<a1>\d+) where the model gives (?P<t2>\S+) and (?P<a2>\d+) "
-                    r"\((?P<rel>[\d.]+%), over (?P<limit>\d+%)\)")
-_ONE_LEVEL = re.compile(r"^(?P<name>[\w-]+) and Bayesian differ on (?P<what>\w+) by (?P<gap>\d+%) "
-                        r"\(over (?P<limit>\d+%)\): (?P<rest>.+)$")
-_RISE = re.compile(r"^SCr rose from (?P<base>[\d.]+) mg/dL \([^)]*\) to (?P<to>[\d.]+) mg/dL \([^)]*\): "
-                   r"\+[\d.]+ mg/dL \((?P<pct>[+\d]+ %)\) in (?P<span>[^,]+), (?P<rule>.+?) "
-                   r"\((?P<source>KDIGO [^)]*)\); (?P<advice>.+)$")
-_AUC_HIGH = re.compile(r"AUC24 (?P<auc>\d+) mg\*h/L predicted at steady state of the current regimen is above "
-                       r"(?P<limit>\d+) \((?P<why>[^)]*)\)")
-_TROUGH_HIGH = re.compile(r"measured trough (?P<meas>[\d.]+) mg/L \((?P<level>levels\[\d+\])\) and predicted "
-                          r"steady-state trough (?P<pred>[\d.]+) mg/L above the (?P<limit>[\d.]+) mg/L limit")
-_NEPHRO = re.compile(r"^(?P<names>.+?) with (?P<drug>[\w-]+): (?P<rest>added nephrotoxic risk.*)$")
 _SETTING = re.compile(r"\b(?:renal|regimen|loading|monitoring|methods)\.[a-z0-9]+_[a-z0-9_]+(?:, | )?")
 
 def _plain(w: Raised, full: bool = False) -> str:
@@ -86,65 +72,73 @@ def _model_name(text: str) -> str:
     return f"model average: {m.group(1)}" if m else text
 
 
+def _facts(w: Raised | None) -> dict[str, str]:
+    """A warning's facts (the figures and advice its message words), or none."""
+    got = (w or {}).get("facts")
+    return {str(k): str(v) for k, v in got.items()} if isinstance(got, dict) else {}
+
+
 def _shape_caution(disagree: Raised | None, shape: Raised, bayesian_used: bool, full: bool) -> str | None:
     """The methods-disagree-bayesian and ke-vs-terminal-rate pair (or the shape check alone) as one caution."""
-    s = _SHAPE.match(str(shape.get("message", "")))
-    d = _DISAGREE.match(str(disagree.get("message", ""))) if disagree else None
-    if s is None or (disagree is not None and d is None):
+    s, d = _facts(shape), _facts(disagree)
+    if not s or (disagree is not None and d.get("cause") != "curve-shape"):
         return None
     model = _model_name(d["model"]) if d and full else "model average" if d and "average" in d["model"] else \
-        d["model"] if d else ""  # the models' weights: the full note
-    head = f"two-level and Bayesian ({model}) differ on {d['what']} by {d['gap']}: " if d else ""
+        d.get("model", "")  # the models' weights: the full note
+    head = f"two-level and Bayesian ({model}) differ on {d['figure']} by {d['gap']}: " if d else ""
     advice = "the proposal shown rests on it" if bayesian_used else CHOOSE_BAYESIAN
-    rates = f" ({s['ke']})" if full else ""  # the two rates behind it: the full note
+    rates = f" ({s['rates']})" if full else ""  # the two rates behind it: the full note
     return (f"{head}these levels lie where the two-compartment curve still bends{rates}, which biases a "
-            f"one-compartment fit by {s['rel']}; the Bayesian estimate puts the current regimen at trough "
-            f"{s['t2']} mg/L, AUC24 {s['a2']} (steady state); {advice}")
+            f"one-compartment fit by {s['bias']}; the Bayesian estimate puts the current regimen at trough "
+            f"{s['model_trough']} mg/L, AUC24 {s['model_auc24']} (steady state); {advice}")
+
+
+def _alike(facts: list[dict[str, str]], *keys: str) -> bool:
+    """Every warning has its facts, and they agree on ``keys`` (one cause, one advice)."""
+    return all(facts) and len({tuple(x.get(k) for k in keys) for x in facts}) == 1
 
 
 def _one_level_caution(ws: list[Raised]) -> str | None:
-    found = [_ONE_LEVEL.match(str(w.get("message", ""))) for w in ws]
-    if not all(found) or len({(m["what"], m["limit"], m["rest"]) for m in found if m}) != 1:
+    fs = [_facts(w) for w in ws]
+    if not _alike(fs, "figure", "limit", "advice_text"):
         return None
-    ms = [m for m in found if m]
-    gaps = [m["gap"] for m in ms]
+    gaps = [x["gap"] for x in fs]
     by = f"by {gaps[0]}" if len(set(gaps)) == 1 else "by " + _joined(gaps) + " respectively"
-    return (f"{_joined([m['name'] for m in ms])} each differ from Bayesian on {ms[0]['what']} {by} "
-            f"(over {ms[0]['limit']}): {ms[0]['rest']}")
+    return (f"{_joined([x['method'] for x in fs])} each differ from Bayesian on {fs[0]['figure']} {by} "
+            f"(over {fs[0]['limit']}): {fs[0]['advice_text']}")
 
 
 def _rises_caution(ws: list[Raised]) -> str | None:
     """Each SCr rise from one baseline, in one caution (the times are in the Patient section's SCr line)."""
-    found = [_RISE.match(str(w.get("message", ""))) for w in ws]
-    if not all(found) or len({(m["base"], m["source"], m["advice"]) for m in found if m}) != 1:
+    fs = [_facts(w) for w in ws]
+    if not _alike(fs, "direction", "from", "source", "advice_text") or fs[0]["direction"] != "rose":
         return None
-    ms = [m for m in found if m]
-    rises = ", and ".join(f"to {m['to']} mg/dL ({m['pct']}) in {m['span']}, {m['rule']}" for m in ms)
-    source = "acute kidney injury, KDIGO" if ms[0]["source"] == "KDIGO acute kidney injury definition" else ms[0]["source"]
-    return f"SCr rose from {ms[0]['base']} {rises} ({source}); {ms[0]['advice']}"
+    rises = ", and ".join(f"to {x['to']} mg/dL ({x['change']}) in {x['span']}, {x['rule']}" for x in fs)
+    source = "acute kidney injury, KDIGO" if fs[0]["source"] == "KDIGO acute kidney injury definition" else fs[0]["source"]
+    return f"SCr rose from {fs[0]['from']} {rises} ({source}); {fs[0]['advice_text']}"
 
 
 def _nephro_caution(ws: list[Raised]) -> str | None:
-    found = [_NEPHRO.match(str(w.get("message", ""))) for w in ws]
-    if not all(found) or len({(m["drug"], m["rest"]) for m in found if m}) != 1:
+    fs = [_facts(w) for w in ws]
+    if not _alike(fs, "drug", "advice_text"):
         return None
-    ms = [m for m in found if m]
-    return f"{_joined([m['names'] for m in ms])} with {ms[0]['drug']}: {ms[0]['rest']}"
+    return f"{_joined([x['comedication'] for x in fs])} with {fs[0]['drug']}: {fs[0]['advice_text']}"
 
 
 def _exposure_caution(auc: Raised, trough: Raised) -> str | None:
     """``auc-toxic`` and ``trough-high`` give the same advice: both findings, the trough's advice once."""
-    a_head, _, a_advice = str(auc.get("message", "")).partition(": ")
-    t_head, _, t_advice = str(trough.get("message", "")).partition(": ")
-    t_head = re.sub(r"\((levels\[\d+\]), [^)]*\)", r"(\1)", t_head, count=1)  # its timing: the list of levels
-    if not (a_advice.startswith("hold the next dose") and t_advice.startswith("hold the next dose")):
+    a, t = _facts(auc), _facts(trough)
+    if a.get("advice") != "hold" or t.get("advice") != "hold":
         return None
-    a, t = _AUC_HIGH.fullmatch(a_head), _TROUGH_HIGH.fullmatch(t_head)
-    if a is None or t is None:
-        return f"{a_head}; {t_head}: {t_advice}"
-    return (f"AUC24 {a['auc']} mg*h/L (above {a['limit']}: {a['why']}) and trough {t['pred']} mg/L predicted for "
-            f"the current regimen, and measured trough {t['meas']} mg/L ({t['level']}), above the {t['limit']} mg/L "
-            f"limit: {t_advice}")
+    advice = t["advice_text"]
+    if "measured" in t and "predicted" in t:
+        return (f"AUC24 {a['auc24']} mg*h/L (above {a['limit']}: {a['why']}) and trough {t['predicted']} mg/L "
+                f"predicted for the current regimen, and measured trough {t['measured']} mg/L ({t['level']}), above "
+                f"the {t['limit']} mg/L limit: {advice}")
+    found = [f"measured trough {t['measured']} mg/L ({t['level']})"] if "measured" in t else []
+    found += [f"predicted steady-state trough {t['predicted']} mg/L"] if "predicted" in t else []
+    a_head = str(auc.get("message", "")).removesuffix(": " + a["advice_text"])
+    return f"{a_head}; {' and '.join(found)} above the {t['limit']} mg/L limit: {advice}"
 
 
 def _low_muscle_conditions(ws: list[Raised]) -> set[int]:
@@ -173,7 +167,8 @@ def cautions(result: dict[str, Any], shown: list[Raised], full: bool = False) ->
             gone.update(positions[1:])
 
     shape = by_code.get("ke-vs-terminal-rate", [])
-    disagree = [k for k in by_code.get("methods-disagree-bayesian", []) if _DISAGREE.match(shown[k]["message"])]
+    disagree = [k for k in by_code.get("methods-disagree-bayesian", [])
+                if _facts(shown[k]).get("cause") == "curve-shape"]
     if shape:
         pair = sorted(disagree[:1] + shape[:1])
         group(pair, _shape_caution(shown[disagree[0]] if disagree else None, shown[shape[0]], bayesian_used, full))
