@@ -17,8 +17,8 @@ Everywhere
   Tab, shift+Tab next / previous field;  Esc: from a form to its table
 Patient
   A bare number takes the unit shown; another unit may be typed:
-  "180 lb", "97 umol/L", "1.25 g". Choices: left/right, space, or the
-  first letter. Target: "auc24 400-600" or "peak 8-10; trough 0.5-1"
+  "180 lb", "97 umol/L", "1.25 g". Choices: left/right, space, or type
+  the start of one ("gen"). Target: "auc24 400-600" or "peak 8-10; trough 0.5-1"
   (empty: the library's or your protocol's targets).
   Dialysis ihd: the sessions done and planned are tables like the
   doses (a, x, u, Enter); an end "12:00" or "+4h" from its start.
