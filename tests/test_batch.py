@@ -70,6 +70,22 @@ def test_a_damaged_file_is_one_error_row(tmp_path: Path, capsys: pytest.CaptureF
     assert out.stat().st_mode & 0o777 == 0o600
 
 
+def test_a_fhir_export_in_a_folder_is_a_row_that_says_to_import_it(tmp_path: Path,
+                                                                    capsys: pytest.CaptureFixture[str]) -> None:
+    folder = tmp_path / "cases"
+    folder.mkdir()
+    shutil.copy(CASES[0], folder / CASES[0].name)
+    bundle = SAMPLES / "fhir" / "gent-rate.bundle.json"
+    shutil.copy(bundle, folder / bundle.name)
+    out = tmp_path / "rows.jsonl"
+    assert cli.main(["batch", str(folder), "--out", str(out)]) == 0
+    capsys.readouterr()
+    rows = [json.loads(line) for line in out.read_text(encoding="utf-8").splitlines()]
+    fhir = [r for r in rows if r["case"].endswith(bundle.name)]
+    assert len(rows) == 2 and fhir[0]["status"] == "input-error"
+    assert "FHIR export, not a case" in fhir[0]["error"] and "tdmtui import" in fhir[0]["error"]
+
+
 def test_json_lines_on_stdin_each_line_its_own_case() -> None:
     good = json.dumps(base_case())
     stream = io.BytesIO(f"{good}\n\n{{\"format\": \"tdmtui.case/1\"\n{good}\n".encode())

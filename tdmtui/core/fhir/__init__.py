@@ -20,7 +20,8 @@ from typing import TYPE_CHECKING, Any
 from tdmtui.core.errors import InputError
 from tdmtui.core.fhir.build import Imported, build_case
 from tdmtui.core.fhir.codes import CodeBook
-from tdmtui.core.fhir.read import decode, looks_like_fhir, read_export
+from tdmtui.core.fhir.read import decode, read_export
+from tdmtui.core.input.case import looks_like_fhir
 
 if TYPE_CHECKING:
     from tdmtui.core.library import Protocol

@@ -94,13 +94,6 @@ def decode(data: bytes, name: str) -> Any:
         raise InputError("(bundle)", f"{name} is nested too deeply to be a FHIR export") from exc
 
 
-def looks_like_fhir(raw: object) -> bool:
-    """True for a FHIR resource or a list of them (how the app tells a bundle from a case)."""
-    if isinstance(raw, dict):
-        return "resourceType" in raw and "format" not in raw
-    return isinstance(raw, list) and bool(raw) and all(isinstance(r, dict) and "resourceType" in r for r in raw)
-
-
 def read_export(raw: object) -> Export:
     """Check the outer shape and index the resources.
 

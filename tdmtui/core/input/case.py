@@ -213,6 +213,13 @@ def _parse_schedule(raw: Any) -> Schedule | None:
     return Schedule(interval, dose, duration)
 
 
+def looks_like_fhir(raw: object) -> bool:
+    """True for a FHIR resource or a list of them: an export to import (``tdmtui import``), not a case."""
+    if isinstance(raw, dict):
+        return "resourceType" in raw and "format" not in raw
+    return isinstance(raw, list) and bool(raw) and all(isinstance(r, dict) and "resourceType" in r for r in raw)
+
+
 def parse_case(raw: object, data: bytes | None = None) -> Case:
     """Check and convert a case object.
 
@@ -224,6 +231,9 @@ def parse_case(raw: object, data: bytes | None = None) -> Case:
     Raises:
         InputError: naming the field.
     """
+    if looks_like_fhir(raw):
+        raise InputError("(case)", "this is a FHIR export, not a case: make a case of it with "
+                                   "`tdmtui import FILE` (or open it in the app, which imports it)")
     raw = _obj(raw, "(case)")
     check_tree(raw)
     drug = _drug(raw)
