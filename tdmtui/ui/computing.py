@@ -124,6 +124,7 @@ class ComputeMixin:
             self.notify("The chosen regimen is no longer offered after this change: choose again in Plan.",
                         severity="warning", timeout=6)
         self.refresh_note()
+        self.query_one(LevelsSection).show_relations(result)
         self.show_warnings(result.get("warnings", []))
         self.last_seconds = event.seconds
         if result.get("status") == "stop":

@@ -112,6 +112,19 @@ def test_the_course_knows_which_doses_followed_a_session() -> None:
     assert rel[1]["relation"] == "during" and rel[1]["session"] == "dialysis.sessions[1]"
 
 
+def test_each_level_is_placed_against_the_nearest_session() -> None:
+    # sessions 08:00-12:00 on 09-02, 09-04, 09-07, 09-09 (the sample); levels 07:40 before the last three
+    rel = compute(parse_case(_case())).result["dialysis"]["levels"]
+    assert [(r["relation"], r["session_number"]) for r in rel] == [("before", 2), ("before", 3), ("before", 4)]
+    assert all(r["hours"] == pytest.approx(1 / 3, abs=0.005) for r in rel)  # 20 min, rounded to 0.01 h
+    raw = _case()
+    raw["levels"][0]["time"] = "2026-09-04T09:30"  # during session 2
+    raw["levels"][1]["time"] = "2026-09-05T10:00"  # 22 h after session 2 ended, 46 h before session 3
+    rel = compute(parse_case(raw)).result["dialysis"]["levels"]
+    assert (rel[0]["relation"], rel[0]["session"], rel[0]["hours"]) == ("during", "dialysis.sessions[1]", None)
+    assert (rel[1]["relation"], rel[1]["session_number"], rel[1]["hours"]) == ("after", 2, pytest.approx(22.0))
+
+
 def test_the_plan_doses_after_each_session_at_the_pre_dialysis_band_checked_against_the_ode() -> None:
     # Reference: solve_ivp on the fitted parameters with history + proposed doses; the guideline's band 15-20 mg/L.
     out = compute(parse_case(_case()))

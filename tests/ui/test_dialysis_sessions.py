@@ -129,3 +129,20 @@ async def test_a_field_gets_its_reading_back_when_the_engine_no_longer_names_it(
         await retype(pilot, app, "sessions-end", "+4h")
         assert status(app).startswith("Computed")
         assert note(app, "sessions-end") == "ends 09-02 12:00, a 4 h session"
+
+
+async def test_the_levels_table_says_where_each_level_lies_against_the_sessions(state, sample_copy):
+    # vanc-haemodialysis: sessions done 08:00-12:00 on 09-02, 09-04, 09-07, 09-09; levels 07:40 before the last three
+    app = TdmApp(str(sample_copy("vanc-haemodialysis.json")), None, state=state)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        await pilot.press("3")
+        await pilot.pause()
+        table = app.screen.query_one("#levels-table", DataTable)
+        assert [table.get_cell(str(i), "Dialysis") for i in range(3)] == [
+            "20 min before 2", "20 min before 3", "20 min before 4"]
+        assert any("20 min before 2" in line for line in screen_lines(app))  # on screen at 80 columns
+        await retype(pilot, app, "levels-time", "2026-09-04T13:00")  # an hour after session 2 ended
+        assert table.get_cell("0", "Dialysis") == "1.0 h after 2"
+        await retype(pilot, app, "levels-time", "2026-09-04T09:30")
+        assert table.get_cell("0", "Dialysis") == "during 2"

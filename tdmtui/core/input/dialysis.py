@@ -225,6 +225,29 @@ def dose_relations(case: Case) -> list[dict[str, Any]]:
     return out
 
 
+def level_relations(case: Case) -> list[dict[str, Any]]:
+    """For each level, the session it was drawn during, or the nearer of the last one ended before it and
+    the next one started after it, with the hours between (``relation`` none without a session)."""
+    out = []
+    sessions = recorded(case)
+    for lv in sorted(case.levels, key=lambda x: x.index):
+        rel: tuple[str, Session | None, float | None] = ("none", None, None)
+        during = [s for s in sessions if s.start < lv.time < s.end]
+        if during:
+            rel = ("during", during[0], None)
+        else:
+            ended = [(lv.time - s.end, s) for s in sessions if s.end <= lv.time]
+            coming = [(s.start - lv.time, s) for s in sessions if s.start >= lv.time]
+            near = min([("after", *x) for x in ended] + [("before", *x) for x in coming],
+                       key=lambda x: (x[1], x[0]), default=None)
+            if near is not None:
+                rel = (near[0], near[2], round(near[1], 2))
+        out.append({"level": f"levels[{lv.index}]", "relation": rel[0],
+                    "session": rel[1].field if rel[1] else None, "session_number": rel[1].index + 1 if rel[1] else None,
+                    "hours": rel[2]})
+    return out
+
+
 def summary(case: Case, rules: Rules) -> dict[str, Any] | None:
     """JSON-ready: sessions, the doses beside them, the plan's sessions (the result's ``dialysis``)."""
     d = case.dialysis
@@ -236,6 +259,7 @@ def summary(case: Case, rules: Rules) -> dict[str, Any] | None:
         "sessions": [{"field": s.field, "start": case.clock.format(s.start), "end": case.clock.format(s.end),
                       "dialyser": s.dialyser} for s in d.sessions],
         "doses": dose_relations(case),
+        "levels": level_relations(case),
         "plan_sessions": [{"start": case.clock.format(a), "end": case.clock.format(b)} for a, b in plan],
         "plan_sessions_projected": projected,
         "session_removal": ({"clearance_l_per_h": float(cl), "source": rules.citation("dialysis.session_clearance_l_h")}

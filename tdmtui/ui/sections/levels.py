@@ -4,6 +4,8 @@ from __future__ import annotations
 
 from typing import Any
 
+from textual.widgets import DataTable
+
 from tdmtui.core.input.casetypes import TIMINGS
 from tdmtui.ui.entry import Entry
 from tdmtui.ui.formatting import short_time
@@ -14,12 +16,23 @@ LIMITS = ("quantified", "below-loq", "above-uloq")
 USE = ("use", "set-aside", "keep")  # keep: "use": true written, keeps a level drawn soon after a dialysis session
 
 
+def session_words(item: dict[str, Any]) -> str:
+    """``during 2``, ``20 min before 3``, ``2.5 h after 2`` (the sessions done, numbered as in their table)."""
+    number, hours = item.get("session_number"), item.get("hours")
+    if item.get("relation") == "during":
+        return f"during {number}"
+    if item.get("relation") not in ("before", "after") or hours is None:
+        return ""
+    span = f"{round(60 * hours):.0f} min" if hours < 1 else f"{hours:.1f} h"
+    return f"{span} {item['relation']} {number}"
+
+
 class LevelsSection(RowsSection):
     """Measured levels: time, concentration, assay limit, use or set aside (with reason), timing."""
 
     NAME = "levels"
     TITLE = "Level"
-    COLUMNS = ("#", "Time", "Conc", "Flags", "Timing", "Reason set aside")
+    COLUMNS = ("#", "Time", "Conc", "Flags", "Timing", "Dialysis", "Reason set aside")
     FIELDS = (
         FieldSpec("time", "Drawn", "time", hint="2026-03-03T07:35, 07:35 or +11h"),
         FieldSpec("conc", "Conc", "quantity:conc", "mg/L"),
@@ -28,6 +41,22 @@ class LevelsSection(RowsSection):
         FieldSpec("reason", "Reason", "text", hint="why set aside"),
         FieldSpec("timing", "Timing", "choice", options=TIMINGS),
     )
+
+    #: the last result's relation of each level (by row) to the dialysis sessions done, in words
+    relations: dict[int, str] = {}
+
+    def show_relations(self, result: dict[str, Any]) -> None:
+        """Put each level's relation to the sessions (the result's ``dialysis.levels``) in its table line."""
+        got = {}
+        for item in ((result.get("dialysis") or {}).get("levels") or []):
+            index = int(str(item.get("level", "levels[-1]"))[7:-1])
+            got[index] = session_words(item)
+        if got == self.relations:
+            return
+        self.relations = got
+        table = self.query_one(DataTable)
+        for i in range(table.row_count):
+            table.update_cell(str(i), "Dialysis", got.get(i, ""), update_width=True)
 
     def cells(self, index: int, row: dict[str, Any]) -> tuple[str, ...]:
         """One table line for a level row (flags in words)."""
@@ -41,7 +70,7 @@ class LevelsSection(RowsSection):
         elif row.get("use") is True:
             flags.append("KEPT")
         return (str(index + 1), short_time(row.get("time", "")), str(row.get("conc", "")), " ".join(flags),
-                row.get("timing", "actual"), str(row.get("reason", ""))[:24])
+                row.get("timing", "actual"), self.relations.get(index, ""), str(row.get("reason", ""))[:24])
 
     def form_value(self, key: str, row: dict[str, Any]) -> Any:
         """What a form field shows for a level row."""
