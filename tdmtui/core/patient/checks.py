@@ -18,6 +18,15 @@ CODES = {
 }
 
 
+def body_plausibility(weight_kg: float, height_cm: float, scr_mg_dl: list[tuple[float, str]], rules: Rules) -> None:
+    """Input errors for a weight, height or SCr (value, field) no adult has (library ``plausible.*``): the
+    engine's check, which the app's derived values apply too before showing any figure from them."""
+    _check_range(weight_kg, "plausible.weight_kg", "patient.weight", rules, "weight", "kg")
+    _check_range(height_cm, "plausible.height_cm", "patient.height", rules, "height", "cm")
+    for value, field in scr_mg_dl:
+        _check_range(value, "plausible.scr_mg_dl", field, rules, "serum creatinine", "mg/dL")
+
+
 def _check_range(value: float, key: str, field: str, rules: Rules, what: str, unit: str) -> None:
     lo, hi = (float(x) for x in rules.value(key))
     if not lo <= value <= hi:
@@ -28,10 +37,7 @@ def _check_range(value: float, key: str, field: str, rules: Rules, what: str, un
 def plausibility(case: Case, rules: Rules) -> None:
     """Input errors for body values no adult has (library ``plausible.*``)."""
     p = case.patient
-    _check_range(p.weight, "plausible.weight_kg", "patient.weight", rules, "weight", "kg")
-    _check_range(p.height, "plausible.height_cm", "patient.height", rules, "height", "cm")
-    for s in p.scr:
-        _check_range(s.value, "plausible.scr_mg_dl", s.field, rules, "serum creatinine", "mg/dL")
+    body_plausibility(p.weight, p.height, [(s.value, s.field) for s in p.scr], rules)
     for d in case.doses:
         lo, hi = (float(x) for x in rules.value("plausible.infusion_h"))
         if not lo <= d.duration <= hi:

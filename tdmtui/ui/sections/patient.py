@@ -105,6 +105,7 @@ def derived_text(raw: dict[str, Any], protocol: Any = None) -> tuple[str, str, f
     CrCl here is the engine's.
     """
     from tdmtui.core.library import Rules
+    from tdmtui.core.patient.checks import body_plausibility
     from tdmtui.core.patient.renal import renal_summary
     from tdmtui.core.input.units import parse_quantity
 
@@ -125,8 +126,9 @@ def derived_text(raw: dict[str, Any], protocol: Any = None) -> tuple[str, str, f
             raise InputError("patient.scr", "needed")
         if len(series) > 1 and any(t is None for t, _, _ in series):
             series = [(None, series[-1][1], series[-1][2])]
-        summary = renal_summary(age, str(p.get("sex")), weight, height, series,
-                                Rules(str(raw.get("drug")), protocol), clock=clock)
+        rules = Rules(str(raw.get("drug")), protocol)
+        body_plausibility(weight, height, [(v, f"patient.scr[{i}].value") for _, v, i in series], rules)
+        summary = renal_summary(age, str(p.get("sex")), weight, height, series, rules, clock=clock)
     except (InputError, ValueError, KeyError) as exc:
         why = exc.message if isinstance(exc, InputError) else str(exc)
         return "Derived values appear when age, sex, weight, height and SCr read.", f"({why})", None

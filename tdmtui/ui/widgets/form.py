@@ -44,7 +44,8 @@ class FieldRow(Horizontal):
     FieldRow.-time > Input { width: 25; }
     FieldRow > Cycler { width: 20; }
     FieldRow > .field-note { width: 1fr; color: $text-muted; }
-    FieldRow.-bad > .field-note { color: $text-error; text-style: bold; }
+    FieldRow.-bad { height: auto; max-height: 3; }
+    FieldRow.-bad > .field-note { color: $text-error; text-style: bold; height: auto; }
     FieldRow.-bad > .field-note:nocolor { text-style: bold reverse; }
     """
 
