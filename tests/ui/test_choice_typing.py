@@ -6,10 +6,11 @@ close together make one prefix).
 
 from __future__ import annotations
 
-from tdmtui.ui.app import TdmApp
+import pytest
+
 from tdmtui.ui.widgets import cycler
 from tdmtui.ui.widgets.cycler import Cycler
-from uihelpers import settle
+from uihelpers import opened
 
 
 class Clock:
@@ -21,15 +22,26 @@ class Clock:
         return self.now
 
 
-async def test_a_word_typed_into_the_drug_field_does_not_hop_from_drug_to_drug(state, sample_copy, monkeypatch):
-    clock = Clock()
-    monkeypatch.setattr(cycler, "time", clock)
-    app = TdmApp(str(sample_copy("vanc-steady-state.json")), None, state=state)
-    async with app.run_test(size=(80, 24)) as pilot:
-        await settle(pilot)
-        drug = app.screen.query_one("#pt-drug-input", Cycler)
+@pytest.fixture
+def clock(monkeypatch: pytest.MonkeyPatch) -> Clock:
+    """The choice fields' clock, moved on by the test."""
+    c = Clock()
+    monkeypatch.setattr(cycler, "time", c)
+    return c
+
+
+def choice(pilot, name: str) -> Cycler:  # noqa: ANN001
+    """The Patient section's choice field ``name``, focused."""
+    widget = pilot.app.screen.query_one(f"#pt-{name}-input", Cycler)
+    widget.focus()
+    return widget
+
+
+async def test_a_word_typed_into_the_drug_field_does_not_hop_from_drug_to_drug(state, sample_copy, clock):
+    async with opened(state, sample_copy, "vanc-steady-state.json") as pilot:
+        app = pilot.app
+        drug = choice(pilot, "drug")
         assert drug.value == "vancomycin"
-        drug.focus()
         await pilot.press(*"label")  # 'l' starts no drug: nothing changes (letter by letter, 'a' was amikacin)
         await pilot.pause()
         assert drug.value == "vancomycin"
@@ -44,14 +56,9 @@ async def test_a_word_typed_into_the_drug_field_does_not_hop_from_drug_to_drug(s
         assert any("No choice starts with 'gentx': it stays gentamicin" in str(n.message) for n in app._notifications)
 
 
-async def test_a_pause_starts_a_new_prefix_and_an_exact_word_wins(state, sample_copy, monkeypatch):
-    clock = Clock()
-    monkeypatch.setattr(cycler, "time", clock)
-    app = TdmApp(str(sample_copy("vanc-steady-state.json")), None, state=state)
-    async with app.run_test(size=(80, 24)) as pilot:
-        await settle(pilot)
-        sex = app.screen.query_one("#pt-sex-input", Cycler)
-        sex.focus()
+async def test_a_pause_starts_a_new_prefix_and_an_exact_word_wins(state, sample_copy, clock):
+    async with opened(state, sample_copy, "vanc-steady-state.json") as pilot:
+        sex = choice(pilot, "sex")
         await pilot.press("f")
         assert sex.value == "female"
         clock.now += 0.5  # within the type-ahead time: "fm" is one prefix, and starts nothing
@@ -61,8 +68,7 @@ async def test_a_pause_starts_a_new_prefix_and_an_exact_word_wins(state, sample_
         await pilot.press("m")
         assert sex.value == "male"
         clock.now += 2.0
-        method = app.screen.query_one("#pt-method-input", Cycler)
-        method.focus()
+        method = choice(pilot, "method")
         await pilot.press(*"one-level")
         assert method.value == "one-level"
         await pilot.press(*"-s")

@@ -13,7 +13,7 @@ from textual.widgets import DataTable, Input, Static
 
 from tdmtui.ui.app import TdmApp
 from tdmtui.ui.sections.sessions import PlannedRows, SessionRows
-from uihelpers import screen_lines, settle
+from uihelpers import opened, screen_lines, settle
 
 
 def status(app) -> str:  # noqa: ANN001
@@ -133,11 +133,8 @@ async def test_a_field_gets_its_reading_back_when_the_engine_no_longer_names_it(
 
 async def test_the_levels_table_says_where_each_level_lies_against_the_sessions(state, sample_copy):
     # vanc-haemodialysis: sessions done 08:00-12:00 on 09-02, 09-04, 09-07, 09-09; levels 07:40 before the last three
-    app = TdmApp(str(sample_copy("vanc-haemodialysis.json")), None, state=state)
-    async with app.run_test(size=(80, 24)) as pilot:
-        await settle(pilot)
-        await pilot.press("3")
-        await pilot.pause()
+    async with opened(state, sample_copy, "vanc-haemodialysis.json", "3") as pilot:
+        app = pilot.app
         table = app.screen.query_one("#levels-table", DataTable)
         assert [table.get_cell(str(i), "Dialysis") for i in range(3)] == [
             "20 min before 2", "20 min before 3", "20 min before 4"]

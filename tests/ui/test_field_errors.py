@@ -8,14 +8,12 @@ from __future__ import annotations
 
 from textual.widgets import Input, Static
 
-from tdmtui.ui.app import TdmApp
-from uihelpers import screen_lines, settle
+from uihelpers import opened, screen_lines, settle
 
 
 async def test_a_long_field_error_wraps_under_its_note_and_the_header_shows_no_crcl(state, sample_copy):
-    app = TdmApp(str(sample_copy("vanc-obese.json")), None, state=state)
-    async with app.run_test(size=(80, 24)) as pilot:
-        await settle(pilot)
+    async with opened(state, sample_copy, "vanc-obese.json") as pilot:
+        app = pilot.app
         assert "CrCl 146 mL/min" in str(app.screen.query_one("#header", Static).content)
         weight = app.screen.query_one("#pt-weight-input", Input)
         weight.focus()
