@@ -73,13 +73,15 @@ def collect(paths: list[str], stdin: Any = None) -> list[Item]:
     return items
 
 
-def _one(job: tuple[Item, str | None, str | None]) -> Row:
+def _one(job: tuple[Item, str | None, str | None, bool]) -> Row:
     return run(*job)
 
 
-def compute_all(items: list[Item], protocol: str | None, method: str | None, jobs: int) -> Iterator[Row]:
-    """Rows in the order of ``items``, as they are done (``jobs`` > 1: a pool of worker processes)."""
-    work = [(it, protocol, method) for it in items]
+def compute_all(items: list[Item], protocol: str | None, method: str | None, jobs: int,
+                text: bool = True) -> Iterator[Row]:
+    """Rows in the order of ``items``, as they are done (``jobs`` > 1: a pool of worker processes); ``text``:
+    each row keeps its result's JSON text (batchrow.run)."""
+    work = [(it, protocol, method, text) for it in items]
     jobs = max(1, min(jobs, len(work)))
     if jobs == 1:
         yield from map(_one, work)
@@ -139,7 +141,8 @@ def main(argv: list[str]) -> int:
     start = time.monotonic()
     progress = Progress(len(items), sys.stderr)
     rows: list[Row] = []
-    for row in compute_all(items, args.protocol, args.method, args.jobs or cores()):
+    jsonl = bool(args.out) and args.out.lower().endswith(".jsonl")  # the only writer of each result's text
+    for row in compute_all(items, args.protocol, args.method, args.jobs or cores(), text=jsonl):
         rows.append(row)
         progress.step()
     took = time.monotonic() - start

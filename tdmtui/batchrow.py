@@ -71,8 +71,12 @@ def _load(item: Item) -> Any:
     return parse_case(decode_json(data, item.name), data)
 
 
-def run(item: Item, protocol: str | None = None, method: str | None = None) -> Row:
-    """Compute one case; every failure becomes the row's status and error (never an exception)."""
+def run(item: Item, protocol: str | None = None, method: str | None = None, text: bool = True) -> Row:
+    """Compute one case; every failure becomes the row's status and error (never an exception).
+
+    ``text``: keep the result's JSON text in the row (what ``--out`` .jsonl writes); without it the row has
+    only its columns (a CSV, the summary), and the text is not made.
+    """
     from tdmtui.core.errors import InputError, NoEstimateError
 
     row = Row({"case": item.name})
@@ -80,7 +84,7 @@ def run(item: Item, protocol: str | None = None, method: str | None = None) -> R
         from tdmtui.core.compute import compute
 
         outcome = compute(_load(item), _protocol(protocol), method)
-        row.text = result_text(outcome.result)
+        row.text = result_text(outcome.result) if text else None
         row.values.update(summarise(outcome.result))
     except InputError as exc:
         row.values.update(status="input-error", error=f"{exc.field}: {exc.message}" if exc.field else exc.message)

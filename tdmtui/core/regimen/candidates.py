@@ -312,14 +312,21 @@ def table_probabilities(cands: list[Candidate], samples: Any, targets: Targets,
     if samples is None or not (hasattr(samples, "steady_state") and hasattr(samples, "cl")):
         return [None] * len(cands)
     w = getattr(samples, "weights", None)
-    cache: dict[tuple[float, float, float], tuple[np.ndarray, ...]] = {}
-    out: list[float | None] = []
-    for c in cands:
-        key = (c.interval_h, c.infusion_h, c.peak_ref_h)
-        if key not in cache:
-            ss = samples.steady_state(1.0, c.interval_h, c.infusion_h, c.peak_ref_h - c.infusion_h)
-            cache[key] = (ss["peak"], ss["trough"], ss["auc24"])
-        ref, tr, au = cache[key]
-        d = c.dose_mg
-        out.append(_share_on_target(targets, d * ref, d * tr, d * au, d, w))
+    groups: dict[tuple[float, float, float], list[int]] = {}
+    for i, c in enumerate(cands):
+        groups.setdefault((c.interval_h, c.infusion_h, c.peak_ref_h), []).append(i)
+    out: list[float | None] = [None] * len(cands)
+    for (tau, tinf, t_ref), at in groups.items():
+        ss = samples.steady_state(1.0, tau, tinf, t_ref - tinf)
+        ref, tr, au = ss["peak"], ss["trough"], ss["auc24"]
+        if w is not None:
+            for i in at:
+                d = cands[i].dose_mg
+                out[i] = _share_on_target(targets, d * ref, d * tr, d * au, d, w)
+            continue
+        # equal-weight draws: every dose of the group at once (the same products and comparisons, counted)
+        d = np.array([cands[i].dose_mg for i in at], dtype=float)[:, None]
+        on, _ = judge(targets, d * ref, d * tr, d * au, np.broadcast_to(d, (d.shape[0], ref.size)))
+        for i, count in zip(at, np.count_nonzero(on, axis=1)):
+            out[i] = float(count / ref.size)
     return out
