@@ -325,8 +325,8 @@ def table_probabilities(cands: list[Candidate], samples: Any, targets: Targets,
                 out[i] = _share_on_target(targets, d * ref, d * tr, d * au, d, w)
             continue
         # equal-weight draws: every dose of the group at once (the same products and comparisons, counted)
-        d = np.array([cands[i].dose_mg for i in at], dtype=float)[:, None]
-        on, _ = judge(targets, d * ref, d * tr, d * au, np.broadcast_to(d, (d.shape[0], ref.size)))
+        doses = np.array([cands[i].dose_mg for i in at], dtype=float)[:, None]
+        on, _ = judge(targets, doses * ref, doses * tr, doses * au, np.broadcast_to(doses, (doses.shape[0], ref.size)))
         for i, count in zip(at, np.count_nonzero(on, axis=1)):
             out[i] = float(count / ref.size)
     return out
