@@ -140,6 +140,8 @@ async def test_the_levels_table_says_where_each_level_lies_against_the_sessions(
             "20 min before 2", "20 min before 3", "20 min before 4"]
         assert any("20 min before 2" in line for line in screen_lines(app))  # on screen at 80 columns
         await retype(pilot, app, "levels-time", "2026-09-04T13:00")  # an hour after session 2 ended
-        assert table.get_cell("0", "Dialysis") == "1.0 h after 2"
+        assert table.get_cell("0", "Dialysis") == "1.0 h after 2, aside"  # inside the 6 h of redistribution
         await retype(pilot, app, "levels-time", "2026-09-04T09:30")
-        assert table.get_cell("0", "Dialysis") == "during 2"
+        assert table.get_cell("0", "Dialysis") == "during 2, aside"
+        await retype(pilot, app, "levels-time", "2026-09-04T20:00")  # past the library's 6 h: used again
+        assert table.get_cell("0", "Dialysis") == "8.0 h after 2"

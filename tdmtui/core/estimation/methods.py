@@ -136,14 +136,15 @@ def levels_for_estimates(ctx: MethodContext) -> list[Level]:
 
 
 def level_table(ctx: MethodContext) -> list[dict[str, Any]]:
-    """Each level with whether it is usable and why not, for the note and the app."""
+    """Each level with whether it is usable and why not (in words, and the warning code), for the note and the app."""
     rows = []
     for lv in ctx.case.levels:
         why = level_exclusion(ctx.case, lv, ctx.rules)
         rows.append({"field": f"levels[{lv.index}]", "time": ctx.case.clock.format(lv.time), "conc_mg_per_l": lv.conc,
                      "below_loq": lv.below_loq, "above_uloq": lv.above_uloq,
                      "usable": why is None and lv.time <= ctx.case.as_of,
-                     "excluded_because": None if why is None else why[1], "timing": lv.timing})
+                     "excluded_because": None if why is None else why[1],
+                     "excluded_code": None if why is None else why[0], "timing": lv.timing})
     return rows
 
 

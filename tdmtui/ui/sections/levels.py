@@ -48,9 +48,11 @@ class LevelsSection(RowsSection):
     def show_relations(self, result: dict[str, Any]) -> None:
         """Put each level's relation to the sessions (the result's ``dialysis.levels``) in its table line."""
         got = {}
+        aside = {str(lv.get("field")) for lv in result.get("levels") or []
+                 if lv.get("excluded_code") in ("level-during-dialysis", "level-post-dialysis")}
         for item in ((result.get("dialysis") or {}).get("levels") or []):
             index = int(str(item.get("level", "levels[-1]"))[7:-1])
-            got[index] = session_words(item)
+            got[index] = session_words(item) + (", aside" if item.get("level") in aside else "")
         if got == self.relations:
             return
         self.relations = got
