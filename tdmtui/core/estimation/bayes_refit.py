@@ -176,8 +176,8 @@ def _batch_params(ctx: MethodContext, shared: _RefitShared, model: Any, start: A
     bound = BOUND_SD * np.sqrt(np.diag(model.omega))
     if start is None or not base or not np.all(np.abs(start) < bound):
         return out
-    _, typical, course = shared.course(ctx, model)
-    try:
+    try:  # as the single refit's: a model with no typical values for the patient gives no estimate
+        _, typical, course = shared.course(ctx, model)
         post = Posterior(model, typical if typical is not None else model.typical(shared.cov), ctx.history,
                          observations(base), course)
     except (NoEstimateError, ConvergenceError):
