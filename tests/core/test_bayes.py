@@ -420,3 +420,19 @@ def test_data_far_from_the_prior_move_the_estimate_not_break_it():
     assert fit.movement()["cl"] < -1.5
     pop = population_fit(BUELGA, BUELGA_PATIENT, COURSE)
     assert np.sum((fit.predict(t) - conc) ** 2) < 0.2 * np.sum((pop.predict(t) - conc) ** 2)
+
+
+@pytest.mark.parametrize("n", [3, 4, 10, 21, 101, 2000, 2001])
+def test_equal_weight_interval_is_numpys_linear_percentile(n):
+    # reference: numpy.percentile's default (linear) method, and the full sort the partial sort replaces
+    from types import SimpleNamespace
+
+    rng = np.random.default_rng(n)
+    for level in (0.90, 0.5, 0.99):
+        x = rng.lognormal(3.0, 0.4, n)
+        lo, hi = intervals(SimpleNamespace(weights=None), lambda _s: x, level)
+        ref = np.percentile(x, [50 * (1 - level), 50 * (1 + level)])
+        assert (lo, hi) == pytest.approx(tuple(ref), rel=1e-12)
+        xs = np.sort(x)
+        full = np.interp([(1 - level) / 2, (1 + level) / 2], np.arange(n) / (n - 1), xs)
+        assert (lo, hi) == (float(full[0]), float(full[1]))  # the same numbers to the bit

@@ -104,10 +104,23 @@ def intervals(samples: ParamSamples, fn: Callable[[ParamSamples], np.ndarray],
               level: float = 0.90) -> tuple[float, float]:
     """Central ``level`` interval of ``fn(samples)``: numpy's linear quantile, or a weighted midpoint CDF."""
     x, w = np.asarray(fn(samples), float), samples.weights
+    q = [(1 - level) / 2, (1 + level) / 2]
+    if w is None and x.size > 2:
+        return _equal_weight_interval(x, q)
     order = np.argsort(x)
     cdf = np.arange(x.size) / (x.size - 1) if w is None else np.cumsum(w[order]) - 0.5 * w[order]
-    lo, hi = np.interp([(1 - level) / 2, (1 + level) / 2], cdf, x[order])
+    lo, hi = np.interp(q, cdf, x[order])
     return float(lo), float(hi)
+
+
+def _equal_weight_interval(x: np.ndarray, q: list[float]) -> tuple[float, float]:
+    """:func:`intervals` of equal-weight draws from the two order statistics around each quantile (a partial
+    sort: the same sorted values at those places, interpolated between the same two points)."""
+    cdf = np.arange(x.size) / (x.size - 1)
+    j = np.clip(np.searchsorted(cdf, q, side="right") - 1, 0, x.size - 2)  # cdf[j] <= q < cdf[j + 1]
+    part = np.partition(x, np.unique(np.concatenate([j, j + 1])))
+    lo, hi = (float(np.interp(p, cdf[k:k + 2], part[k:k + 2])) for p, k in zip(q, j))
+    return lo, hi
 
 
 def regimen_intervals(samples: ParamSamples, dose: float | None = None, tau: float | None = None,
