@@ -118,7 +118,7 @@ def _equal_weight_interval(x: np.ndarray, q: list[float]) -> tuple[float, float]
     sort: the same sorted values at those places, interpolated between the same two points)."""
     cdf = np.arange(x.size) / (x.size - 1)
     j = np.clip(np.searchsorted(cdf, q, side="right") - 1, 0, x.size - 2)  # cdf[j] <= q < cdf[j + 1]
-    part = np.partition(x, np.unique(np.concatenate([j, j + 1])))
+    part = np.partition(x, np.concatenate([j, j + 1]))  # (a repeated place is fine; np.unique would load numpy.ma)
     lo, hi = (float(np.interp(p, cdf[k:k + 2], part[k:k + 2])) for p, k in zip(q, j))
     return lo, hi
 
