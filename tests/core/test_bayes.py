@@ -436,3 +436,16 @@ def test_equal_weight_interval_is_numpys_linear_percentile(n):
         xs = np.sort(x)
         full = np.interp([(1 - level) / 2, (1 + level) / 2], np.arange(n) / (n - 1), xs)
         assert (lo, hi) == (float(full[0]), float(full[1]))  # the same numbers to the bit
+
+
+def test_equal_weight_interval_equals_the_full_sort_for_many_sizes_and_levels():
+    from types import SimpleNamespace
+
+    rng = np.random.default_rng(20261203)
+    for _ in range(300):
+        n = int(rng.integers(3, 5000))
+        level = float(rng.uniform(0.01, 0.999))
+        x = rng.normal(10.0, 3.0, n)
+        got = intervals(SimpleNamespace(weights=None), lambda _s: x, level)
+        full = np.interp([(1 - level) / 2, (1 + level) / 2], np.arange(n) / (n - 1), np.sort(x))
+        assert got == (float(full[0]), float(full[1])), (n, level)

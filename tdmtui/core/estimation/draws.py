@@ -115,12 +115,22 @@ def intervals(samples: ParamSamples, fn: Callable[[ParamSamples], np.ndarray],
 
 def _equal_weight_interval(x: np.ndarray, q: list[float]) -> tuple[float, float]:
     """:func:`intervals` of equal-weight draws from the two order statistics around each quantile (a partial
-    sort: the same sorted values at those places, interpolated between the same two points)."""
-    cdf = np.arange(x.size) / (x.size - 1)
-    j = np.clip(np.searchsorted(cdf, q, side="right") - 1, 0, x.size - 2)  # cdf[j] <= q < cdf[j + 1]
-    part = np.partition(x, np.concatenate([j, j + 1]))  # (a repeated place is fine; np.unique would load numpy.ma)
-    lo, hi = (float(np.interp(p, cdf[k:k + 2], part[k:k + 2])) for p, k in zip(q, j))
+    sort: the same sorted values at those places, interpolated between the same two points k / (n - 1))."""
+    n1 = x.size - 1
+    ks = [_place(p, n1) for p in q]
+    part = np.partition(x, [ks[0], ks[0] + 1, ks[1], ks[1] + 1])  # (np.unique here would load numpy.ma)
+    lo, hi = (float(np.interp(p, (k / n1, (k + 1) / n1), part[k:k + 2])) for p, k in zip(q, ks))
     return lo, hi
+
+
+def _place(p: float, n1: int) -> int:
+    """The k with k / n1 <= p < (k + 1) / n1 (as np.interp finds it on arange(n1 + 1) / n1), within 0..n1 - 1."""
+    k = min(max(int(p * n1), 0), n1 - 1)
+    while k < n1 - 1 and (k + 1) / n1 <= p:
+        k += 1
+    while k > 0 and k / n1 > p:
+        k -= 1
+    return k
 
 
 def regimen_intervals(samples: ParamSamples, dose: float | None = None, tau: float | None = None,
