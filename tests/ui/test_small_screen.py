@@ -5,7 +5,7 @@ from __future__ import annotations
 from textual.widgets import DataTable, Input, Label
 
 from tdmtui.ui.app import TdmApp
-from uihelpers import screen_lines, settle
+from uihelpers import opened, screen_lines, settle
 
 
 def title(app) -> str:  # noqa: ANN001
@@ -13,11 +13,8 @@ def title(app) -> str:  # noqa: ANN001
 
 
 async def test_only_the_table_names_its_page(state, sample_copy):
-    app = TdmApp(str(sample_copy("vanc-obese.json")), None, state=state)
-    async with app.run_test(size=(80, 24)) as pilot:
-        await settle(pilot)
-        await pilot.press("f5")
-        await pilot.pause()
+    async with opened(state, sample_copy, "vanc-obese.json", "f5") as pilot:
+        app = pilot.app
         assert "Page 1/" in title(app)  # more methods than fit 80 columns: the table is in pages
         await pilot.press("right_square_bracket")
         await pilot.pause()
@@ -35,11 +32,8 @@ async def test_only_the_table_names_its_page(state, sample_copy):
 
 
 async def test_a_dialysis_plan_has_no_empty_candidates_table(state, sample_copy):
-    app = TdmApp(str(sample_copy("vanc-haemodialysis.json")), None, state=state)
-    async with app.run_test(size=(80, 24)) as pilot:
-        await settle(pilot)
-        await pilot.press("f6")
-        await pilot.pause()
+    async with opened(state, sample_copy, "vanc-haemodialysis.json", "f6") as pilot:
+        app = pilot.app
         assert app.outcome.result["regimen"]["mode"] == "dialysis"
         lines = screen_lines(app)
         text = "\n".join(lines)
@@ -53,11 +47,8 @@ async def test_a_dialysis_plan_has_no_empty_candidates_table(state, sample_copy)
 
 
 async def test_a_stop_shows_neither_candidates_nor_their_header(state, sample_copy):
-    app = TdmApp(str(sample_copy("vanc-stop-dialysis.json")), None, state=state)
-    async with app.run_test(size=(80, 24)) as pilot:
-        await settle(pilot)
-        await pilot.press("f6")
-        await pilot.pause()
+    async with opened(state, sample_copy, "vanc-stop-dialysis.json", "f6") as pilot:
+        app = pilot.app
         text = "\n".join(screen_lines(app))
         assert "No regimen: a STOP warning stands" in text
         assert "Candidates" not in text and "No candidates" not in text
@@ -65,11 +56,8 @@ async def test_a_stop_shows_neither_candidates_nor_their_header(state, sample_co
 
 
 async def test_candidates_still_shown_with_their_header(state, sample_copy):
-    app = TdmApp(str(sample_copy("vanc-obese.json")), None, state=state)
-    async with app.run_test(size=(80, 24)) as pilot:
-        await settle(pilot)
-        await pilot.press("f6")
-        await pilot.pause()
+    async with opened(state, sample_copy, "vanc-obese.json", "f6") as pilot:
+        app = pilot.app
         table = app.screen.query_one("#plan-table", DataTable)
         assert table.display and table.row_count == len(app.query_one("PlanSection").options) >= 2
         text = "\n".join(screen_lines(app))
@@ -104,11 +92,8 @@ async def test_the_indication_is_readable_whole_at_80_columns(state, sample_copy
 
 
 async def test_an_undo_shows_in_the_table_it_changed(state, sample_copy):
-    app = TdmApp(str(sample_copy("vanc-obese.json")), None, state=state)
-    async with app.run_test(size=(80, 24)) as pilot:
-        await settle(pilot)
-        await pilot.press("f3")
-        await pilot.pause()
+    async with opened(state, sample_copy, "vanc-obese.json", "f3") as pilot:
+        app = pilot.app
         doses = app.screen.query_one("#doses-table", DataTable)
         assert doses.row_count == 3
         await pilot.press("x")  # a dose deleted ...
@@ -135,9 +120,8 @@ async def test_an_empty_field_named_by_the_engine_still_gives_its_unit(state):
 async def test_help_and_warnings_say_how_to_close_them_and_scroll(state, sample_copy):
     from tdmtui.ui.dialogs import HelpScreen
 
-    app = TdmApp(str(sample_copy("vanc-obese.json")), None, state=state)
-    async with app.run_test(size=(80, 24)) as pilot:
-        await settle(pilot)
+    async with opened(state, sample_copy, "vanc-obese.json") as pilot:
+        app = pilot.app
         for key in ("f1", "f8"):
             await pilot.press(key)
             await pilot.pause()
@@ -156,11 +140,8 @@ async def test_help_and_warnings_say_how_to_close_them_and_scroll(state, sample_
 async def test_the_plan_says_the_next_dose_waits_on_a_level_after_a_hold(state, sample_copy):
     # vanc-high-auc: AUC24 1137 and a trough of 34.5 mg/L; the new regimen's first dose (2026-10-06 08:00)
     # is given only if a level drawn 30 min before it is below 20 mg/L (tests/core/test_restart_check.py)
-    app = TdmApp(str(sample_copy("vanc-high-auc.json")), None, state=state)
-    async with app.run_test(size=(80, 24)) as pilot:
-        await settle(pilot)
-        await pilot.press("f6")
-        await pilot.pause()
+    async with opened(state, sample_copy, "vanc-high-auc.json", "f6") as pilot:
+        app = pilot.app
         lines = screen_lines(app)
         at = next(i for i, line in enumerate(lines) if line.startswith("Next dose: 2026-10-06T08:00"))
         assert lines[at + 1].startswith("Give it only if a level drawn at 2026-10-06T07:30 is below 20 mg/L")
