@@ -33,6 +33,13 @@ from typing import Any, Callable, Generic, TypeVar
 
 from tdmtui.core.alerts import Alert
 
+#: How a caution points to a proposal on the Bayesian estimate when the one shown rests on another method
+#: (the caution informs; the method the proposal rests on is the user's choice or auto's order), and what
+#: it says when the proposal shown already rests on it. The engine's cautions and the note's merged ones
+#: both end so.
+CHOOSE_BAYESIAN = "for a proposal on it choose method bayesian"
+RESTS_ON_BAYESIAN = "the proposal shown rests on it"
+
 #: Why a method that needs no renal function is refused with renal replacement therapy.
 RRT_REFUSAL = "not valid with renal replacement therapy (Cockcroft-Gault and two-level methods do not apply)"
 

@@ -143,8 +143,9 @@ def refit_many(ctx: MethodContext, model_id: str, warm: dict[str, Any] | None,
         models = [o.model for o in shared.offers if can_take_part(o)]
     else:
         models = [popmodels.get_model(model_id)]
-    levels = [case_levels_by_structure(c, ctx.rules) for c in cases]
-    solved = {m: _batch_params(ctx, shared, m, warm.get(m.id), cases, levels) for m in models}
+    base, levels = levels_by_structure(ctx), [case_levels_by_structure(c, ctx.rules) for c in cases]
+    solved = {m: _batch_params(ctx, shared, m, warm.get(m.id), base[m.compartments == 2], cases, levels)
+              for m in models}
     out: list[Estimate | None] = []
     for i, case in enumerate(cases):
         got = _settled(model_id, shared, levels[i], {k: v[i] for k, v in solved.items()}, warm)
@@ -157,11 +158,11 @@ def refit_many(ctx: MethodContext, model_id: str, warm: dict[str, Any] | None,
     return out
 
 
-def _batch_params(ctx: MethodContext, shared: _RefitShared, model: Any, start: Any, cases: list[Case],
+def _batch_params(ctx: MethodContext, shared: _RefitShared, model: Any, start: Any, base: list, cases: list[Case],
                   levels: list[dict[bool, list]]) -> list[Any]:
-    """Each copy's MAP parameters on ``model`` from the batch, or None where the batch leaves it: the copy's
-    levels are not the base ones with times moved, its doses not the base ones with durations changed, or
-    Newton did not settle it (:func:`shiftmap.solve`)."""
+    """Each copy's MAP parameters on ``model`` (fitting the base case's levels ``base``) from the batch, or None
+    where the batch leaves it: the copy's levels are not the base ones with times moved, its doses not the
+    base ones with durations changed, or Newton did not settle it (:func:`shiftmap.solve`)."""
     import numpy as np
 
     from tdmtui.core.estimation import shiftmap
@@ -171,7 +172,6 @@ def _batch_params(ctx: MethodContext, shared: _RefitShared, model: Any, start: A
     from tdmtui.core.models import PKParams
 
     two = model.compartments == 2
-    base = levels_by_structure(ctx)[two]
     out: list[Any] = [None] * len(cases)
     bound = BOUND_SD * np.sqrt(np.diag(model.omega))
     if start is None or not base or not np.all(np.abs(start) < bound):

@@ -31,6 +31,7 @@ from typing import TYPE_CHECKING
 from tdmtui.core.alerts import Alert
 from tdmtui.core.errors import ConvergenceError, NoEstimateError
 from tdmtui.core.models import concentration, steady_state
+from tdmtui.core.registry import CHOOSE_BAYESIAN, RESTS_ON_BAYESIAN
 
 if TYPE_CHECKING:
     from tdmtui.core.estimation.context import MethodContext
@@ -76,13 +77,8 @@ def shape_bias(ctx: MethodContext, two_level: Estimate, bayesian: Estimate) -> S
     return ShapeBias(ss_model.trough, ss_one.trough, ss_model.auc24, ss_one.auc24, rel)
 
 
-#: How a caution points to a proposal on the Bayesian estimate when the one shown rests on another method
-#: (the caution informs; the method the proposal rests on is the user's choice or auto's order).
-CHOOSE_BAYESIAN = "for a proposal on it choose method bayesian"
-
-
 def _proposal_on_bayesian(used: str) -> str:
-    return "the proposal shown rests on it" if used == "bayesian" else f"the proposal shown uses {used}; {CHOOSE_BAYESIAN}"
+    return RESTS_ON_BAYESIAN if used == "bayesian" else f"the proposal shown uses {used}; {CHOOSE_BAYESIAN}"
 
 
 def terminal_rate_alert(ctx: MethodContext, two_level: Estimate, bayesian: Estimate, used: str) -> Alert | None:

@@ -30,11 +30,11 @@ from tdmtui.core.estimation.posterior import Posterior
 
 @dataclass(frozen=True)
 class Copy:
-    """One copy of the fit: its level times (the base levels, in the base order) and, when an infusion
-    end moved, the doses to add to the base history (new minus old; None when only a level moved)."""
+    """One copy of the fit: its level times (the base levels, in the base order) and the doses to add to the
+    base history when an infusion end moved (new minus old; none when only a level moved)."""
 
     times: np.ndarray
-    added: DoseArrays | None = None
+    added: DoseArrays
 
 
 def added_doses(base: DoseArrays, moved: DoseArrays) -> DoseArrays | None:
@@ -100,8 +100,7 @@ class _Batch:
             self.columns.append(col)
         self.post, self.copies = post, copies
         self.at_all = post.predictor(np.concatenate([base, np.asarray(extra, dtype=float)]))
-        self.added = [post.predictor(c.times, c.added) if c.added is not None and len(c.added) else None
-                      for c in copies]
+        self.added = [post.predictor(c.times, c.added) if len(c.added) else None for c in copies]
 
     def objective(self, which: list[int], eta: np.ndarray) -> np.ndarray:
         """OFV (len(which) x m,) for eta (len(which) x m, p), the rows of copy ``which[r]`` in block r."""

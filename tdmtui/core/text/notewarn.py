@@ -33,13 +33,10 @@ from __future__ import annotations
 import re
 from typing import Any
 
+from tdmtui.core.registry import CHOOSE_BAYESIAN, RESTS_ON_BAYESIAN
 from tdmtui.core.text import notefmt as f
 
 Raised = dict[str, Any]  # one warning of the result: code, severity, field, message
-
-#: How the note points to a proposal on the Bayesian estimate when the regimen shown rests on another method
-#: (the engine's cautions already end so; the merged caution says it once).
-CHOOSE_BAYESIAN = "for a proposal on it choose method bayesian"
 
 _SETTING = re.compile(r"\b(?:renal|regimen|loading|monitoring|methods)\.[a-z0-9]+_[a-z0-9_]+(?:, | )?")
 
@@ -86,7 +83,7 @@ def _shape_caution(disagree: Raised | None, shape: Raised, bayesian_used: bool, 
     model = _model_name(d["model"]) if d and full else "model average" if d and "average" in d["model"] else \
         d.get("model", "")  # the models' weights: the full note
     head = f"two-level and Bayesian ({model}) differ on {d['figure']} by {d['gap']}: " if d else ""
-    advice = "the proposal shown rests on it" if bayesian_used else CHOOSE_BAYESIAN
+    advice = RESTS_ON_BAYESIAN if bayesian_used else CHOOSE_BAYESIAN
     rates = f" ({s['rates']})" if full else ""  # the two rates behind it: the full note
     return (f"{head}these levels lie where the two-compartment curve still bends{rates}, which biases a "
             f"one-compartment fit by {s['bias']}; the Bayesian estimate puts the current regimen at trough "

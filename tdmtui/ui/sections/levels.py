@@ -42,23 +42,22 @@ class LevelsSection(RowsSection):
         FieldSpec("timing", "Timing", "choice", options=TIMINGS),
     )
 
-    #: the last result's relation of each level (by row) to the dialysis sessions done, in words
-    relations: dict[int, str] = {}
+    #: the last result's relation of each level (by its path, ``levels[i]``) to the dialysis sessions done, in words
+    relations: dict[str, str] = {}
 
     def show_relations(self, result: dict[str, Any]) -> None:
         """Put each level's relation to the sessions (the result's ``dialysis.levels``) in its table line."""
-        got = {}
+        got: dict[str, str] = {}
         aside = {str(lv.get("field")) for lv in result.get("levels") or []
                  if lv.get("excluded_code") in ("level-during-dialysis", "level-post-dialysis")}
         for item in ((result.get("dialysis") or {}).get("levels") or []):
-            index = int(str(item.get("level", "levels[-1]"))[7:-1])
-            got[index] = session_words(item) + (", aside" if item.get("level") in aside else "")
+            got[str(item.get("level"))] = session_words(item) + (", aside" if item.get("level") in aside else "")
         if got == self.relations:
             return
         self.relations = got
         table = self.query_one(DataTable)
         for i in range(table.row_count):
-            table.update_cell(str(i), "Dialysis", got.get(i, ""), update_width=True)
+            table.update_cell(str(i), "Dialysis", got.get(f"levels[{i}]", ""), update_width=True)
 
     def cells(self, index: int, row: dict[str, Any]) -> tuple[str, ...]:
         """One table line for a level row (flags in words)."""
@@ -72,7 +71,7 @@ class LevelsSection(RowsSection):
         elif row.get("use") is True:
             flags.append("KEPT")
         return (str(index + 1), short_time(row.get("time", "")), str(row.get("conc", "")), " ".join(flags),
-                row.get("timing", "actual"), self.relations.get(index, ""), str(row.get("reason", ""))[:24])
+                row.get("timing", "actual"), self.relations.get(f"levels[{index}]", ""), str(row.get("reason", ""))[:24])
 
     def form_value(self, key: str, row: dict[str, Any]) -> Any:
         """What a form field shows for a level row."""
